@@ -8,7 +8,7 @@ from importlib import resources
 from alembic import command
 from alembic.config import Config
 from alembic.runtime.migration import MigrationContext
-from alembic.script import ScriptDirectory
+from alembic.script import ScriptDirectory  # noqa: F401 (used by tests)
 from sqlalchemy.engine import Engine
 
 from inventory.errors import InventoryError
@@ -55,7 +55,7 @@ def require_current(engine: Engine, url_for_hint: str | None = None) -> None:
         raise InventoryError(
             f"database {engine.url.render_as_string(hide_password=True)} has no inventory schema",
             kind="schema",
-            hint=f"run `inventory{db} init` to create it (or `inventory demo` for the demo shop)",
+            hint=f"run `inventory{db} init` to create it, or `inventory demo` for the demo shop",
         )
     raise InventoryError(
         f"database schema is at revision {current}, this version of the tool needs {head}",

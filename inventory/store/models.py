@@ -270,3 +270,15 @@ class PurchaseOrderLine(SQLModel, table=True):
     received_qty: int = 0
     unit_cost: Decimal = Field(sa_column=Column(MONEY, nullable=False))
     reason: str = Field(default="", max_length=400)
+
+
+class ImportedRow(SQLModel, table=True):
+    """A fingerprint of each applied import row, so re-importing a file (or an overlapping
+    one) applies only the rows not seen before."""
+
+    __tablename__ = "imported_row"
+    __table_args__ = (UniqueConstraint("kind", "row_key", name="uq_imported_row"),)
+    id: int | None = Field(default=None, primary_key=True)
+    kind: str = Field(max_length=24)
+    row_key: str = Field(max_length=64)
+    batch_id: int = Field(foreign_key="import_batch.id", index=True)

@@ -1,0 +1,3 @@
+from inventory.cli.main import run
+
+run()

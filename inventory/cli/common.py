@@ -1,0 +1,105 @@
+"""What every command shares: the database option, opening the store, and rendering
+(rich tables for people, ``--json`` for programs). Commands stay thin: parse, call one
+library function, render."""
+
+from __future__ import annotations
+
+import json
+import sys
+from collections.abc import Iterator, Sequence
+from contextlib import contextmanager
+from dataclasses import dataclass
+from datetime import date, datetime
+from decimal import Decimal
+from pathlib import Path
+from typing import Any
+
+import typer
+from rich.console import Console
+from rich.table import Table
+from sqlalchemy.engine import Engine, make_url
+from sqlmodel import Session
+
+from inventory.errors import InventoryError
+from inventory.store import migrate
+from inventory.store.db import make_engine, resolve_url, transaction
+
+console = Console()
+err_console = Console(stderr=True)
+
+
+@dataclass
+class AppState:
+    db: str | None = None
+    debug: bool = False
+
+    @property
+    def url(self) -> str:
+        return resolve_url(self.db)
+
+
+def state(ctx: typer.Context) -> AppState:
+    obj = ctx.find_root().obj
+    if not isinstance(obj, AppState):
+        obj = AppState()
+        ctx.find_root().obj = obj
+    return obj
+
+
+def engine(ctx: typer.Context, *, check_schema: bool = True) -> Engine:
+    st = state(ctx)
+    url = make_url(st.url)
+    if check_schema and url.get_backend_name() == "sqlite" and url.database not in (None, "", ":memory:"):
+        if not Path(url.database).exists():
+            raise InventoryError(
+                f"no database file {url.database}",
+                hint=f"run `inventory{' --db ' + st.db if st.db else ''} init` to create it, "
+                     "or `inventory demo` to build the demo shop",
+            )
+    eng = make_engine(st.url)
+    if check_schema:
+        migrate.require_current(eng, st.db)
+    return eng
+
+
+@contextmanager
+def unit_of_work(ctx: typer.Context) -> Iterator[Session]:
+    """A transaction on the configured database: all of it is written, or none."""
+    with transaction(engine(ctx)) as session:
+        yield session
+
+
+@contextmanager
+def reading(ctx: typer.Context) -> Iterator[Session]:
+    with Session(engine(ctx)) as session:
+        yield session
+
+
+def _default(o: Any) -> Any:
+    if isinstance(o, Decimal):
+        return str(o)
+    if isinstance(o, datetime | date):
+        return o.isoformat()
+    if hasattr(o, "to_dict"):
+        return o.to_dict()
+    if hasattr(o, "value"):
+        return o.value
+    raise TypeError(f"cannot write {type(o).__name__} as JSON")
+
+
+def print_json(data: Any) -> None:
+    sys.stdout.write(json.dumps(data, default=_default, indent=2, ensure_ascii=False) + "\n")
+
+
+def print_table(title: str | None, header: Sequence[str], rows: Sequence[Sequence[Any]], *,
+                right: Sequence[str] = (), caption: str | None = None) -> None:
+    table = Table(title=title, caption=caption, header_style="bold", show_lines=False)
+    for h in header:
+        table.add_column(h, justify="right" if h in right else "left")
+    for row in rows:
+        table.add_row(*["" if v is None else str(v) for v in row])
+    console.print(table)
+
+
+def say(text: str) -> None:
+    console.print(text, highlight=False)

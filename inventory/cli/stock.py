@@ -1,0 +1,144 @@
+"""`inventory stock ...`: the ledger at the counter."""
+
+from __future__ import annotations
+
+from datetime import UTC, date, datetime, time
+from decimal import Decimal, InvalidOperation
+
+import typer
+
+from inventory.cli.common import print_json, print_table, reading, say, unit_of_work
+from inventory.errors import InventoryError
+from inventory.store import ledger
+
+SIGNED = {"ignore_unknown_options": True}  # lets "-2" through as a quantity
+
+app = typer.Typer(help="Receive, issue, adjust, count and move stock; show what is on hand.",
+                  no_args_is_help=True)
+
+
+def when(day: str | None) -> datetime | None:
+    """Midday UTC of a given ISO date (so a booking lands in that day's month)."""
+    if not day:
+        return None
+    try:
+        d = date.fromisoformat(day)
+    except ValueError:
+        raise InventoryError(f"bad date {day!r}: expected a date like 2026-03-31") from None
+    return datetime.combine(d, time(12, 0), tzinfo=UTC)
+
+
+def _money(text: str | None) -> Decimal | None:
+    if text is None:
+        return None
+    try:
+        value = Decimal(text.replace(",", "."))
+    except InvalidOperation:
+        raise InventoryError(f"bad cost {text!r}: expected an amount like 0.35") from None
+    if not value.is_finite() or value < 0:
+        raise InventoryError(f"bad cost {text!r}: expected an amount of 0 or more")
+    return value
+
+
+def _report(movements, verb: str, part: str) -> None:
+    for mv in movements:
+        say(f"{verb} {abs(mv.qty)} x {part} (lot id {mv.lot_id}, movement {mv.id})")
+
+
+@app.command(context_settings=SIGNED)
+def receive(ctx: typer.Context,
+            part: str = typer.Argument(..., help="Part code."),
+            qty: int = typer.Argument(..., help="Units received (ml for oil)."),
+            cost: str = typer.Option(None, "--cost", help="Unit cost; defaults to the last lot's."),
+            lot: str = typer.Option(None, "--lot", help="Lot code; an existing lot is topped up."),
+            cured: str = typer.Option(None, "--cured", help="Cure quarter, e.g. 2026Q3 or 3/26."),
+            location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location"),
+            order: str = typer.Option(None, "--order", help="Purchase order reference."),
+            day: str = typer.Option(None, "--date", help="Booking date (default today)."),
+            ) -> None:
+    """Book a delivery into stock."""
+    with unit_of_work(ctx) as s:
+        mv = ledger.receive(s, part, qty, _money(cost), lot=lot, cured=cured, location=location,
+                            ts=when(day), reference=order)
+        _report([mv], "received", part)
+
+
+@app.command(context_settings=SIGNED)
+def issue(ctx: typer.Context,
+          part: str = typer.Argument(..., help="Part code."),
+          qty: int = typer.Argument(..., help="Units to take out."),
+          job: str = typer.Option(None, "--job", help="Job reference the parts went to."),
+          location: str = typer.Option(None, "--location", help="Only from this location."),
+          day: str = typer.Option(None, "--date"),
+          ) -> None:
+    """Take stock out, oldest cure quarter first."""
+    with unit_of_work(ctx) as s:
+        _report(ledger.issue(s, part, qty, location=location, reference=job, ts=when(day)),
+                "issued", part)
+
+
+@app.command(context_settings=SIGNED)
+def adjust(ctx: typer.Context,
+           part: str = typer.Argument(...),
+           qty: int = typer.Argument(..., help="Signed correction, e.g. -2 or 3."),
+           reason: str = typer.Option(..., "--reason", help="Why (damaged, found, ...)."),
+           location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location"),
+           cost: str = typer.Option(None, "--cost", help="Unit cost of units added."),
+           day: str = typer.Option(None, "--date"),
+           ) -> None:
+    """Correct stock with a reason (a new movement; nothing is edited)."""
+    with unit_of_work(ctx) as s:
+        _report(ledger.adjust(s, part, qty, reason=reason, location=location, ts=when(day),
+                              unit_cost=_money(cost)), "adjusted", part)
+
+
+@app.command(context_settings=SIGNED)
+def count(ctx: typer.Context,
+          part: str = typer.Argument(...),
+          counted: int = typer.Argument(..., help="Units on the shelf."),
+          location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location"),
+          day: str = typer.Option(None, "--date"),
+          ) -> None:
+    """Record a shelf count; the variance is booked as a movement."""
+    with unit_of_work(ctx) as s:
+        moves = ledger.count(s, part, counted, location=location, ts=when(day))
+        if not moves:
+            say(f"{part}: count agrees with the ledger ({counted})")
+        for mv in moves:
+            say(f"{part}: variance {mv.qty:+d} booked (movement {mv.id})")
+
+
+@app.command(context_settings=SIGNED)
+def move(ctx: typer.Context,
+         part: str = typer.Argument(...),
+         qty: int = typer.Argument(...),
+         from_: str = typer.Option(..., "--from", help="Location to take from."),
+         to: str = typer.Option(..., "--to", help="Location to put into."),
+         day: str = typer.Option(None, "--date"),
+         ) -> None:
+    """Move stock between locations; lots keep their identity."""
+    with unit_of_work(ctx) as s:
+        moves = ledger.move(s, part, qty, from_location=from_, to_location=to, ts=when(day))
+        say(f"moved {qty} x {part} from {from_.upper()} to {to.upper()} "
+            f"({len(moves) // 2} lot(s))")
+
+
+@app.command("on-hand")
+def on_hand(ctx: typer.Context,
+            part: str = typer.Option(None, "--part"),
+            location: str = typer.Option(None, "--location"),
+            by_lot: bool = typer.Option(False, "--by-lot", help="One line per lot."),
+            as_json: bool = typer.Option(False, "--json"),
+            ) -> None:
+    """Stock on hand, summed from the ledger."""
+    with reading(ctx) as s:
+        lines = ledger.on_hand(s, part=part, location=location, by_lot=by_lot)
+    if as_json:
+        print_json([ln.to_dict() for ln in lines])
+        return
+    header = ["part", "location"] + (["lot", "cured"] if by_lot else []) + ["on hand", "value"]
+    rows = [[ln.part, ln.location] + ([ln.lot, ln.cured or ""] if by_lot else [])
+            + [ln.on_hand, f"{ln.value:,.2f}"] for ln in lines]
+    total = sum((ln.value for ln in lines), Decimal(0))
+    print_table("Stock on hand", header, rows, right=("on hand", "value"),
+                caption=f"{len(lines)} line(s), value {total:,.2f}")
