@@ -20,7 +20,7 @@ from dataclasses import dataclass
 from datetime import UTC, date, datetime
 from decimal import Decimal
 
-from sqlalchemy import case, func, update
+from sqlalchemy import case, func, insert, update
 from sqlalchemy.dialects.postgresql import insert as pg_insert
 from sqlalchemy.dialects.sqlite import insert as sqlite_insert
 from sqlmodel import Session, select
@@ -78,14 +78,15 @@ def _bump_balance(session: Session, part_id: int, location_id: int, lot_id: int,
 def _record(session: Session, *, part: Part, location: Location, lot: Lot, qty: int, kind: str,
             ts: datetime | None, reference: str | None = None, reason: str | None = None,
             user: str | None = None, batch_id: int | None = None) -> Movement:
-    mv = Movement(
+    values = dict(
         ts=ts or _now(), part_id=part.id, location_id=location.id, lot_id=lot.id, qty=qty,
         kind=kind, unit_cost=lot.unit_cost, reference=reference, reason=reason,
         user=user or current_user(), batch_id=batch_id,
     )
-    session.add(mv)
+    # A Core insert: the ledger is append-only, so the ORM's change tracking buys nothing.
+    new_id = session.execute(insert(Movement).values(**values).returning(Movement.id)).scalar_one()
     _bump_balance(session, part.id, location.id, lot.id, qty)
-    return mv
+    return Movement(id=new_id, **values)
 
 
 def _next_lot_code(session: Session, part: Part, received: date) -> str:

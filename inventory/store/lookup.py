@@ -26,19 +26,33 @@ def _unknown(what: str, code: str, choices: list[str]) -> InventoryError:
     return InventoryError(f"unknown {what} {code!r}", kind="unknown", hint=hint)
 
 
+def _cache(session: Session, name: str) -> dict:
+    """Rows found once in this session are found again without a query (codes do not change
+    inside a unit of work; a new session starts with an empty cache)."""
+    return session.info.setdefault(f"lookup:{name}", {})
+
+
 def part(session: Session, code: str) -> Part:
+    cache = _cache(session, "part")
+    if code in cache:
+        return cache[code]
     row = session.exec(select(Part).where(Part.code == code)).first()
     if row is None:
         row = session.exec(select(Part).where(Part.code == code.upper())).first()
     if row is None:
         raise _unknown("part", code, list(session.exec(select(Part.code))))
+    cache[code] = row
     return row
 
 
 def location(session: Session, code: str) -> Location:
+    cache = _cache(session, "location")
+    if code in cache:
+        return cache[code]
     row = session.exec(select(Location).where(Location.code == code.upper())).first()
     if row is None:
         raise _unknown("location", code, list(session.exec(select(Location.code))))
+    cache[code] = row
     return row
 
 

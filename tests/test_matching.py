@@ -1,0 +1,375 @@
+"""Ranked matching and the compatibility matrix.
+
+Outside references: the AS568 sizes of REFERENCE.md 1.2 (a ring's own dimensions must find
+it first); a brute-force Python scorer written here (the vectorised ranking must agree with
+it); the scalar fit() (every cell of the matrix must equal it).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import time
+
+import numpy as np
+import pytest
+
+from inventory.domain.fit import Verdict, fit, kind_applies
+from inventory.domain.matching import (
+    MatchQuery,
+    MatchTolerance,
+    MatchWeights,
+    PartArrays,
+    fit_matrix,
+    match,
+    parts_fitting,
+    standard_part_arrays,
+)
+from inventory.domain.model import Gland, Medium, Motion, PartKind, PartSpec, SeatSpec
+from inventory.domain.sizes import standard_orings
+from inventory.domain.units import parse_length
+
+# ------------------------------------------------------------------ standard series
+
+
+def test_as568_214_comes_first_for_its_own_dimensions():
+    # SAE AS568-214 = 24.99 x 3.53 mm (REFERENCE.md 1.2, recalled from memory)
+    best = match(MatchQuery(id_mm=24.99, cs_mm=3.53), standard_part_arrays(), limit=5)
+    assert best[0].code == "AS568-214"
+    assert best[0].source == "standard" and best[0].kind == "o_ring"
+    assert best[0].score < 0.05 and best[1].score > best[0].score
+    # the same ring read in inches (0.984 x 0.139 in)
+    q = MatchQuery(id_mm=parse_length("0.984in"), cs_mm=parse_length("0.139in"))
+    assert match(q, standard_part_arrays(), limit=1)[0].code == "AS568-214"
+    assert best[0].to_dict()["designation"] == "AS568-214"
+
+
+def test_every_standard_ring_finds_itself_first():
+    rings = standard_orings()
+    arrays = standard_part_arrays()
+    for des, d1, d2 in zip(rings.designation, rings.id_mm, rings.cs_mm, strict=True):
+        best = match(MatchQuery(id_mm=float(d1), cs_mm=float(d2)), arrays, limit=2)
+        assert best[0].score == pytest.approx(0.0, abs=1e-9)
+        assert best[0].code == des or best[1].score == pytest.approx(0.0, abs=1e-9)
+
+
+def test_metric_ring_and_the_driving_dimension():
+    # ISO 3601-1 31.5 x 3.55 (REFERENCE.md 1.1): a worn 31.6 x 3.50 reading finds it; the
+    # cross-section, 0.05 off on a 0.2025 mm tolerance, drives the rank
+    best = match(MatchQuery(id_mm=31.6, cs_mm=3.50), standard_part_arrays(), limit=3)
+    assert best[0].code == "ISO3601 31.5x3.55"
+    assert best[0].driver == "cs"
+    tol_cs = 0.15 + 0.015 * 3.50
+    assert best[0].parts["cs"] == pytest.approx(0.05 / tol_cs)
+    assert best[0].parts["id"] == pytest.approx(0.1 / (0.15 + 0.015 * 31.6))
+
+
+# --------------------------------------------------------------- synthetic catalogs
+
+KINDS = [PartKind.O_RING, PartKind.X_RING, PartKind.U_CUP, PartKind.DUST_WIPER,
+         PartKind.SCRAPER_SEAL, PartKind.FOAM_RING, PartKind.TOP_OUT_BUMPER,
+         PartKind.VOLUME_SPACER, PartKind.CRUSH_WASHER, PartKind.GLIDE_RING]
+MATERIALS = ["NBR", "HNBR", "FKM", "AU", "EU", "EPDM", "VMQ", "PU-FOAM", "CU", "XYZ", None]
+
+
+def synthetic_parts(n: int, seed: int = 0, *, scale: float = 30.0) -> list[PartSpec]:
+    """Invented parts of every kind with sizes around ``scale`` mm; some fields missing."""
+    rng = np.random.default_rng(seed)
+    out = []
+    for i in range(n):
+        kind = KINDS[rng.integers(len(KINDS))]
+        idm = scale * float(rng.uniform(0.85, 1.1))
+        section = float(rng.uniform(1.5, 6.0))
+        maybe = (lambda v: None if rng.random() < 0.05 else round(v, 3))  # noqa: E731
+        mat = MATERIALS[rng.integers(len(MATERIALS))]
+        hard = None if rng.random() < 0.2 else int(rng.integers(60, 95))
+        if kind in (PartKind.O_RING, PartKind.X_RING):
+            out.append(PartSpec(f"P{i:06d}", kind, id_mm=maybe(idm), cs_mm=maybe(section),
+                                material=mat, hardness_shore_a=hard,
+                                standard="AS568-XXX" if rng.random() < 0.1 else None))
+        else:
+            out.append(PartSpec(f"P{i:06d}", kind, id_mm=maybe(idm),
+                                od_mm=maybe(idm + 2 * section + float(rng.uniform(0, 3))),
+                                height_mm=maybe(float(rng.uniform(1, 15))),
+                                volume_cm3=maybe(float(rng.uniform(2, 25))), material=mat,
+                                hardness_shore_a=hard))
+    return out
+
+
+_GLANDS = {
+    PartKind.O_RING: [Gland.PISTON, Gland.ROD, Gland.FACE],
+    PartKind.X_RING: [Gland.PISTON, Gland.ROD],
+    PartKind.U_CUP: [Gland.ROD, Gland.PISTON],
+    PartKind.DUST_WIPER: [Gland.HOUSING],
+    PartKind.SCRAPER_SEAL: [Gland.HOUSING],
+    PartKind.FOAM_RING: [Gland.HOUSING],
+    PartKind.TOP_OUT_BUMPER: [Gland.SHAFT],
+    PartKind.VOLUME_SPACER: [Gland.CHAMBER],
+    PartKind.CRUSH_WASHER: [Gland.FACE],
+    PartKind.GLIDE_RING: [Gland.PISTON],
+}
+
+
+def synthetic_seats(n: int, seed: int = 0, *, scale: float = 30.0) -> list[SeatSpec]:
+    """Invented seats of every kind and gland, geometry near ``scale`` mm."""
+    rng = np.random.default_rng(seed)
+    out = []
+    for j in range(n):
+        kind = KINDS[j % len(KINDS)]
+        gland = _GLANDS[kind][rng.integers(len(_GLANDS[kind]))]
+        rod = scale * float(rng.uniform(0.3, 1.2))
+        depth = float(rng.uniform(1.2, 5.0))
+        bore = rod + 2 * depth + float(rng.uniform(0, 4))
+        groove = bore - 2 * depth if gland == Gland.PISTON else rod + 2 * depth
+        out.append(SeatSpec(
+            "FAM-T", f"seat-{j}", "test", kind, gland,
+            Motion.DYNAMIC if rng.random() < 0.5 else Motion.STATIC,
+            [Medium.OIL, Medium.AIR, Medium.NONE][rng.integers(3)],
+            rod_mm=rod, bore_mm=bore, groove_mm=groove,
+            groove_width_mm=float(rng.uniform(2, 8)),
+            housing_depth_mm=None if rng.random() < 0.2 else float(rng.uniform(3, 12)),
+            bore_fit=["H8", "H9", None, "F7"][rng.integers(4)],
+            chamber_volume_cm3=float(rng.uniform(80, 200)), piston_mm=32.0,
+            travel_mm=float(rng.uniform(80, 160)), set_pressure_bar=float(rng.uniform(3, 8)),
+        ))
+    return out
+
+
+def parts_near(seat: SeatSpec, n: int, rng: np.random.Generator) -> list[PartSpec]:
+    """Parts of the seat's kind (and its substitutes) sized around what would fit, so the
+    rules see passes, marginals and failures near their limits."""
+    u = rng.uniform
+    kinds = [k for k in KINDS if kind_applies(k, seat.part_kind)]
+    rod, bore, groove = seat.rod_mm, seat.bore_mm, seat.groove_mm
+    depth = seat.housing_depth_mm or 6.0
+    width = seat.groove_width_mm
+    out = []
+    for i in range(n):
+        kind = kinds[rng.integers(len(kinds))]
+        d: dict = {}
+        if kind in (PartKind.O_RING, PartKind.X_RING):
+            if seat.gland == Gland.PISTON:
+                d["id_mm"] = groove * (1 - u(-0.02, 0.07))
+                t = (bore - groove) / 2
+            elif seat.gland == Gland.ROD:
+                d["id_mm"] = rod * (1 - u(-0.03, 0.07))
+                t = (groove - rod) / 2
+            else:
+                d["id_mm"] = rod * (1 - u(-0.03, 0.07))
+                t = depth
+            d["cs_mm"] = t / (1 - u(-0.02, 0.36))
+        elif kind == PartKind.U_CUP:
+            t = (groove - rod) / 2 if seat.gland == Gland.ROD else (bore - groove) / 2
+            section = t / (1 - u(-0.02, 0.25))
+            if seat.gland == Gland.ROD:
+                d["id_mm"] = rod * (1 - u(-0.01, 0.08))
+                d["od_mm"] = d["id_mm"] + 2 * section
+            else:
+                d["od_mm"] = bore * (1 + u(-0.01, 0.08))
+                d["id_mm"] = d["od_mm"] - 2 * section
+            d["height_mm"] = width / (1 + u(-0.05, 0.4))
+        elif kind in (PartKind.DUST_WIPER, PartKind.SCRAPER_SEAL):
+            d = dict(id_mm=rod * (1 - u(0, 0.1)), od_mm=bore * (1 + u(-0.003, 0.022)),
+                     height_mm=depth + u(-1.0, 8.0))
+        elif kind == PartKind.FOAM_RING:
+            d = dict(id_mm=rod * (1 - u(-0.03, 0.1)), od_mm=bore * (1 + u(-0.05, 0.08)),
+                     height_mm=depth * u(0.6, 1.9))
+        elif kind == PartKind.TOP_OUT_BUMPER:
+            d = dict(id_mm=rod / (1 + u(-0.03, 0.14)), od_mm=bore - 2 * u(-0.2, 1.0),
+                     height_mm=depth * u(0.7, 1.1))
+        elif kind == PartKind.VOLUME_SPACER:
+            d = dict(od_mm=bore - 2 * u(-0.1, 3.2), height_mm=depth * u(0.2, 1.1),
+                     volume_cm3=u(0, 30) if rng.random() < 0.8 else None)
+        elif kind == PartKind.CRUSH_WASHER:
+            d = dict(id_mm=rod + u(-0.2, 1.2), od_mm=bore - u(-0.5, 4.0), height_mm=1.0)
+        else:  # glide ring: no rules, the seat reports it
+            d = dict(id_mm=rod, od_mm=bore, height_mm=width)
+        d = {k: (None if v is not None and rng.random() < 0.03 else v) for k, v in d.items()}
+        out.append(PartSpec(
+            f"{seat.seat}-{i}", kind, material=MATERIALS[rng.integers(len(MATERIALS))],
+            hardness_shore_a=None if rng.random() < 0.2 else int(rng.integers(62, 90)),
+            standard="AS568-XXX" if rng.random() < 0.05 else None, **d))
+    return out
+
+
+# ------------------------------------------------------------ ranking vs brute force
+
+def _brute_force_scores(query: MatchQuery, parts: list[PartSpec],
+                        tol: MatchTolerance, w: MatchWeights) -> list[float]:
+    """Per-row Python scorer written from the documented score definition."""
+    related = [{PartKind.O_RING, PartKind.X_RING},
+               {PartKind.DUST_WIPER, PartKind.SCRAPER_SEAL}]
+    families = {"NBR": "n", "HNBR": "n", "XNBR": "n", "AU": "u", "EU": "u", "PU": "u"}
+    scores = []
+    for p in parts:
+        s = 0.0
+        for dim in ("id", "od", "height", "cs"):
+            q = getattr(query, f"{dim}_mm")
+            if q is None:
+                continue
+            v = getattr(p, f"{dim}_mm")
+            if v is None and p.kind in (PartKind.O_RING, PartKind.X_RING) and p.cs_mm is not None:
+                # a round ring's height is its cross-section, its outside id + 2 cs
+                if dim == "height":
+                    v = p.cs_mm
+                elif dim == "od" and p.id_mm is not None:
+                    v = p.id_mm + 2 * p.cs_mm
+            s += w.missing_dimension if v is None else abs(v - q) / (tol.abs_mm + tol.rel * q)
+        if query.kind is not None and p.kind != query.kind:
+            same = any(p.kind in g and query.kind in g for g in related)
+            s += w.kind_related if same else w.kind_mismatch
+        if query.material is not None:
+            m = p.material
+            if m is None and p.standard:
+                pass
+            elif m is None or m == "XYZ":
+                s += w.material_unknown
+            elif m != query.material:
+                fam = families.get(m)
+                s += w.material_family if fam and fam == families.get(query.material) \
+                    else w.material_mismatch
+        scores.append(s)
+    return scores
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_vectorised_ranking_equals_brute_force(seed):
+    rng = np.random.default_rng(100 + seed)
+    parts = synthetic_parts(400, seed)
+    arrays = PartArrays.from_specs(parts)
+    tol, w = MatchTolerance(), MatchWeights()
+    for _ in range(10):
+        q = MatchQuery(
+            id_mm=float(rng.uniform(25, 34)) if rng.random() < 0.8 else None,
+            od_mm=float(rng.uniform(30, 45)) if rng.random() < 0.5 else None,
+            height_mm=float(rng.uniform(2, 10)) if rng.random() < 0.3 else None,
+            cs_mm=float(rng.uniform(1.5, 6)) if rng.random() < 0.5 else 3.0,
+            kind=KINDS[rng.integers(len(KINDS))] if rng.random() < 0.5 else None,
+            material=["NBR", "AU", "FKM", None][rng.integers(4)],
+        )
+        got = match(q, arrays, tolerance=tol, weights=w, limit=15)
+        expected = sorted(_brute_force_scores(q, parts, tol, w))[:15]
+        assert [c.score for c in got] == pytest.approx(expected, abs=1e-9)
+        for c in got:
+            assert sum(c.parts.values()) == pytest.approx(c.score, abs=1e-12)
+            dims = {d: c.parts[d] for d in ("id", "od", "height", "cs") if d in c.parts}
+            assert c.parts[c.driver] == max(dims.values())
+
+
+def test_kind_and_material_penalties():
+    parts = [
+        PartSpec("A", PartKind.O_RING, id_mm=25.0, cs_mm=3.5, material="NBR"),
+        PartSpec("B", PartKind.X_RING, id_mm=25.0, cs_mm=3.5, material="HNBR"),
+        PartSpec("C", PartKind.U_CUP, id_mm=25.0, od_mm=32.0, height_mm=3.5, cs_mm=3.5,
+                 material="EPDM"),
+    ]
+    arrays = PartArrays.from_specs(parts)
+    got = match(MatchQuery(id_mm=25.0, cs_mm=3.5, kind=PartKind.O_RING, material="NBR"), arrays)
+    assert [c.code for c in got] == ["A", "B", "C"]
+    w = MatchWeights()
+    assert got[1].parts == {"id": 0.0, "cs": 0.0, "kind": w.kind_related,
+                            "material": w.material_family}
+    assert got[2].parts["kind"] == w.kind_mismatch
+    assert got[2].parts["material"] == w.material_mismatch
+
+
+def test_match_input_errors_and_limits():
+    arrays = PartArrays.from_specs(synthetic_parts(50))
+    with pytest.raises(ValueError, match="at least one dimension"):
+        match(MatchQuery(kind=PartKind.O_RING), arrays)
+    with pytest.raises(ValueError, match="positive"):
+        match(MatchQuery(id_mm=-3.0), arrays)
+    assert len(match(MatchQuery(id_mm=30.0), arrays, limit=100)) == 50
+    assert match(MatchQuery(id_mm=30.0), arrays, max_score=-1.0) == []
+    assert match(MatchQuery(id_mm=30.0), PartArrays.from_specs([])) == []
+
+
+def test_match_with_a_seat_gives_the_fit_verdict():
+    seat = SeatSpec("FAM-A", "air_piston", "air_piston", PartKind.O_RING, Gland.PISTON,
+                    Motion.STATIC, Medium.OIL, bore_mm=31.2, groove_mm=25.5,
+                    groove_width_mm=4.8)
+    best = match(MatchQuery(id_mm=24.99, cs_mm=3.53), standard_part_arrays(), seat=seat,
+                 limit=8)
+    arrays = standard_part_arrays()
+    for c in best:
+        assert c.verdict == str(fit(arrays.spec(c.index), seat).verdict)
+    assert best[0].verdict == "pass"  # the worked gland of REFERENCE.md 2
+
+
+# ---------------------------------------------------------- matrix vs scalar fit()
+
+@pytest.mark.parametrize("seed", range(3))
+def test_fit_matrix_equals_scalar_fit(seed):
+    rng = np.random.default_rng(seed)
+    seats = synthetic_seats(30, seed)
+    parts = [p for seat in seats for p in parts_near(seat, 25, rng)]
+    parts += synthetic_parts(100, seed)
+    arrays = PartArrays.from_specs(parts)
+    ref = 75 if seed % 2 else None
+    matrix = fit_matrix(seats, arrays, reference_shore_a=ref)
+    seen: dict[Verdict, int] = {}
+    for s, seat in enumerate(seats):
+        for p, part in enumerate(parts):
+            cell = int(matrix[s, p])
+            if not kind_applies(part.kind, seat.part_kind):
+                assert cell == -1
+                if p % 50 == 0:  # the scalar path calls the same pair a failure
+                    assert fit(part, seat).verdict == Verdict.FAIL
+                continue
+            verdict = fit(part, seat, reference_shore_a=ref).verdict
+            assert cell == verdict.code, (seat, part)
+            seen[verdict] = seen.get(verdict, 0) + 1
+    # the sample is not trivial: every verdict occurs many times
+    assert min(seen.get(v, 0) for v in Verdict) >= 20, seen
+
+
+def test_parts_fitting_lists_passes_then_marginals():
+    seat = SeatSpec("FAM-A", "air_piston", "air_piston", PartKind.O_RING, Gland.PISTON,
+                    Motion.STATIC, Medium.OIL, bore_mm=31.2, groove_mm=25.5,
+                    groove_width_mm=4.8)
+    arrays = standard_part_arrays()
+    hits = parts_fitting(seat, arrays)
+    codes = [str(arrays.codes[i]) for i, _ in hits]
+    assert "AS568-214" in codes
+    verdicts = [v for _, v in hits]
+    assert verdicts == sorted(verdicts, key=["pass", "marginal"].index)
+    for i, v in hits:
+        assert str(fit(arrays.spec(i), seat).verdict) == v
+    strict = parts_fitting(seat, arrays, include_marginal=False)
+    assert all(v == "pass" for _, v in strict) and len(strict) <= len(hits)
+
+
+# ---------------------------------------------------------------------- benchmark
+
+@pytest.mark.slow
+def test_performance_100k_parts():
+    """Issue 3 figures: match p50 <= 2 ms per query, 200 seats x 100,000 parts <= 5 s."""
+    parts = synthetic_parts(100_000, seed=11)
+    arrays = PartArrays.from_specs(parts)
+    rng = np.random.default_rng(5)
+    times = []
+    for i in range(200):
+        q = MatchQuery(id_mm=float(rng.uniform(25, 34)), cs_mm=float(rng.uniform(1.5, 6)),
+                       kind=PartKind.O_RING if i % 2 else None,
+                       material="NBR" if i % 3 == 0 else None)
+        t0 = time.perf_counter()
+        match(q, arrays, limit=10)
+        times.append(time.perf_counter() - t0)
+    p50 = float(np.percentile(times, 50)) * 1000
+    seats = synthetic_seats(200, seed=3)
+    t0 = time.perf_counter()
+    matrix = fit_matrix(seats, arrays)
+    elapsed = time.perf_counter() - t0
+    assert matrix.shape == (200, 100_000)
+    assert p50 <= 2.0, f"match p50 {p50:.2f} ms"
+    assert elapsed <= 5.0, f"matrix {elapsed:.2f} s"
+    assert not math.isnan(p50)
+
+
+def test_derived_ring_outside_diameter_is_matchable():
+    # an O-ring recorded as id x cs is found by its outside diameter, id + 2 cs
+    arrays = PartArrays.from_specs([PartSpec("A", PartKind.O_RING, id_mm=24.99, cs_mm=3.53),
+                                    dataclasses.replace(PartSpec("B", PartKind.O_RING),
+                                                        id_mm=30.0, cs_mm=2.0)])
+    best = match(MatchQuery(od_mm=32.05), arrays, limit=1)[0]
+    assert best.code == "A" and best.od_mm == pytest.approx(32.05)
