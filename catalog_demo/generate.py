@@ -534,6 +534,11 @@ def o_rod(fork: str, seat: str, position: str, motion: str, medium: str, rod: fl
                 notes=notes)
 
 
+# The wiper's lip stands proud of its pocket: the pocket (housing depth) is this much
+# shallower than the wiper body the family was designed around (common practice).
+WIPER_PROUD_MM = 2.0
+
+
 def lower_leg_seats(fork: str, stanchion: float, wiper_bore: float, wiper_depth: float,
                     wiper: str, foam_bore: float, foam_depth: float, foam: str,
                     bolt: float, counterbore: float, washer: str,
@@ -541,7 +546,8 @@ def lower_leg_seats(fork: str, stanchion: float, wiper_bore: float, wiper_depth:
                     washer_alts: tuple[str, ...] = ()) -> list[Seat]:
     return [
         Seat(fork, "dust_wiper", "dust_wiper", "dust_wiper", "housing", "dynamic", "oil", 2,
-             rod=stanchion, bore=wiper_bore, depth=wiper_depth, rod_fit="f7", bore_fit="H8",
+             rod=stanchion, bore=wiper_bore, depth=wiper_depth - WIPER_PROUD_MM, rod_fit="f7",
+             bore_fit="H8",
              part=wiper, alts=wiper_alts, kit="lower_leg"),
         Seat(fork, "foam_ring", "foam_ring", "foam_ring", "housing", "static", "oil", 2,
              rod=stanchion, bore=foam_bore, depth=foam_depth, rod_fit="f7", part=foam,
@@ -884,7 +890,7 @@ def other_fit(seat: Seat, part: Part) -> str:
     if k == "dust_wiper":
         assert seat.rod is not None and seat.bore is not None and seat.depth is not None
         return worst([grade(seat.rod - i, 0.5, 1.5, 0.2), grade(o - seat.bore, 0.05, 0.30, 0.05),
-                      grade(h, 0.0, seat.depth, 0.2)])
+                      grade(h - seat.depth, 0.0, 5.0, 0.2)])
     if k == "foam_ring":
         assert seat.rod is not None and seat.bore is not None and seat.depth is not None
         return worst([grade(i - seat.rod, -1.0, 0.3, 0.2), grade(o - seat.bore, -0.5, 1.0, 0.3),

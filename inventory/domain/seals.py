@@ -189,7 +189,7 @@ MATERIALS: Mapping[str, Material] = MappingProxyType({
 })
 
 _ALIASES = {"TPU": "PU", "PUR": "PU", "NITRILE": "NBR", "SILICONE": "VMQ",
-            "FOAM": "PU-FOAM", "PU FOAM": "PU-FOAM", "COPPER": "CU", "ALUMINIUM": "AL",
+            "FOAM": "PU-FOAM", "PU FOAM": "PU-FOAM", "PU_FOAM": "PU-FOAM", "COPPER": "CU", "ALUMINIUM": "AL",
             "ALUMINUM": "AL", "ACETAL": "POM", "NYLON": "PA"}
 
 
