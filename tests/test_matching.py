@@ -27,6 +27,7 @@ from inventory.domain.matching import (
 )
 from inventory.domain.model import Gland, Medium, Motion, PartKind, PartSpec, SeatSpec
 from inventory.domain.sizes import standard_orings
+from inventory.domain.synthetic import KINDS, parts_near, synthetic_parts, synthetic_seats
 from inventory.domain.units import parse_length
 
 # ------------------------------------------------------------------ standard series
@@ -62,134 +63,6 @@ def test_metric_ring_and_the_driving_dimension():
     tol_cs = 0.15 + 0.015 * 3.50
     assert best[0].parts["cs"] == pytest.approx(0.05 / tol_cs)
     assert best[0].parts["id"] == pytest.approx(0.1 / (0.15 + 0.015 * 31.6))
-
-
-# --------------------------------------------------------------- synthetic catalogs
-
-KINDS = [PartKind.O_RING, PartKind.X_RING, PartKind.U_CUP, PartKind.DUST_WIPER,
-         PartKind.SCRAPER_SEAL, PartKind.FOAM_RING, PartKind.TOP_OUT_BUMPER,
-         PartKind.VOLUME_SPACER, PartKind.CRUSH_WASHER, PartKind.GLIDE_RING]
-MATERIALS = ["NBR", "HNBR", "FKM", "AU", "EU", "EPDM", "VMQ", "PU-FOAM", "CU", "XYZ", None]
-
-
-def synthetic_parts(n: int, seed: int = 0, *, scale: float = 30.0) -> list[PartSpec]:
-    """Invented parts of every kind with sizes around ``scale`` mm; some fields missing."""
-    rng = np.random.default_rng(seed)
-    out = []
-    for i in range(n):
-        kind = KINDS[rng.integers(len(KINDS))]
-        idm = scale * float(rng.uniform(0.85, 1.1))
-        section = float(rng.uniform(1.5, 6.0))
-        maybe = (lambda v: None if rng.random() < 0.05 else round(v, 3))  # noqa: E731
-        mat = MATERIALS[rng.integers(len(MATERIALS))]
-        hard = None if rng.random() < 0.2 else int(rng.integers(60, 95))
-        if kind in (PartKind.O_RING, PartKind.X_RING):
-            out.append(PartSpec(f"P{i:06d}", kind, id_mm=maybe(idm), cs_mm=maybe(section),
-                                material=mat, hardness_shore_a=hard,
-                                standard="AS568-XXX" if rng.random() < 0.1 else None))
-        else:
-            out.append(PartSpec(f"P{i:06d}", kind, id_mm=maybe(idm),
-                                od_mm=maybe(idm + 2 * section + float(rng.uniform(0, 3))),
-                                height_mm=maybe(float(rng.uniform(1, 15))),
-                                volume_cm3=maybe(float(rng.uniform(2, 25))), material=mat,
-                                hardness_shore_a=hard))
-    return out
-
-
-_GLANDS = {
-    PartKind.O_RING: [Gland.PISTON, Gland.ROD, Gland.FACE],
-    PartKind.X_RING: [Gland.PISTON, Gland.ROD],
-    PartKind.U_CUP: [Gland.ROD, Gland.PISTON],
-    PartKind.DUST_WIPER: [Gland.HOUSING],
-    PartKind.SCRAPER_SEAL: [Gland.HOUSING],
-    PartKind.FOAM_RING: [Gland.HOUSING],
-    PartKind.TOP_OUT_BUMPER: [Gland.SHAFT],
-    PartKind.VOLUME_SPACER: [Gland.CHAMBER],
-    PartKind.CRUSH_WASHER: [Gland.FACE],
-    PartKind.GLIDE_RING: [Gland.PISTON],
-}
-
-
-def synthetic_seats(n: int, seed: int = 0, *, scale: float = 30.0) -> list[SeatSpec]:
-    """Invented seats of every kind and gland, geometry near ``scale`` mm."""
-    rng = np.random.default_rng(seed)
-    out = []
-    for j in range(n):
-        kind = KINDS[j % len(KINDS)]
-        gland = _GLANDS[kind][rng.integers(len(_GLANDS[kind]))]
-        rod = scale * float(rng.uniform(0.3, 1.2))
-        depth = float(rng.uniform(1.2, 5.0))
-        bore = rod + 2 * depth + float(rng.uniform(0, 4))
-        groove = bore - 2 * depth if gland == Gland.PISTON else rod + 2 * depth
-        out.append(SeatSpec(
-            "FAM-T", f"seat-{j}", "test", kind, gland,
-            Motion.DYNAMIC if rng.random() < 0.5 else Motion.STATIC,
-            [Medium.OIL, Medium.AIR, Medium.NONE][rng.integers(3)],
-            rod_mm=rod, bore_mm=bore, groove_mm=groove,
-            groove_width_mm=float(rng.uniform(2, 8)),
-            housing_depth_mm=None if rng.random() < 0.2 else float(rng.uniform(3, 12)),
-            bore_fit=["H8", "H9", None, "F7"][rng.integers(4)],
-            chamber_volume_cm3=float(rng.uniform(80, 200)), piston_mm=32.0,
-            travel_mm=float(rng.uniform(80, 160)), set_pressure_bar=float(rng.uniform(3, 8)),
-        ))
-    return out
-
-
-def parts_near(seat: SeatSpec, n: int, rng: np.random.Generator) -> list[PartSpec]:
-    """Parts of the seat's kind (and its substitutes) sized around what would fit, so the
-    rules see passes, marginals and failures near their limits."""
-    u = rng.uniform
-    kinds = [k for k in KINDS if kind_applies(k, seat.part_kind)]
-    rod, bore, groove = seat.rod_mm, seat.bore_mm, seat.groove_mm
-    depth = seat.housing_depth_mm or 6.0
-    width = seat.groove_width_mm
-    out = []
-    for i in range(n):
-        kind = kinds[rng.integers(len(kinds))]
-        d: dict = {}
-        if kind in (PartKind.O_RING, PartKind.X_RING):
-            if seat.gland == Gland.PISTON:
-                d["id_mm"] = groove * (1 - u(-0.02, 0.07))
-                t = (bore - groove) / 2
-            elif seat.gland == Gland.ROD:
-                d["id_mm"] = rod * (1 - u(-0.03, 0.07))
-                t = (groove - rod) / 2
-            else:
-                d["id_mm"] = rod * (1 - u(-0.03, 0.07))
-                t = depth
-            d["cs_mm"] = t / (1 - u(-0.02, 0.36))
-        elif kind == PartKind.U_CUP:
-            t = (groove - rod) / 2 if seat.gland == Gland.ROD else (bore - groove) / 2
-            section = t / (1 - u(-0.02, 0.25))
-            if seat.gland == Gland.ROD:
-                d["id_mm"] = rod * (1 - u(-0.01, 0.08))
-                d["od_mm"] = d["id_mm"] + 2 * section
-            else:
-                d["od_mm"] = bore * (1 + u(-0.01, 0.08))
-                d["id_mm"] = d["od_mm"] - 2 * section
-            d["height_mm"] = width / (1 + u(-0.05, 0.4))
-        elif kind in (PartKind.DUST_WIPER, PartKind.SCRAPER_SEAL):
-            d = dict(id_mm=rod * (1 - u(0, 0.1)), od_mm=bore * (1 + u(-0.003, 0.022)),
-                     height_mm=depth + u(-1.0, 8.0))
-        elif kind == PartKind.FOAM_RING:
-            d = dict(id_mm=rod * (1 - u(-0.03, 0.1)), od_mm=bore * (1 + u(-0.05, 0.08)),
-                     height_mm=depth * u(0.6, 1.9))
-        elif kind == PartKind.TOP_OUT_BUMPER:
-            d = dict(id_mm=rod / (1 + u(-0.03, 0.14)), od_mm=bore - 2 * u(-0.2, 1.0),
-                     height_mm=depth * u(0.7, 1.1))
-        elif kind == PartKind.VOLUME_SPACER:
-            d = dict(od_mm=bore - 2 * u(-0.1, 3.2), height_mm=depth * u(0.2, 1.1),
-                     volume_cm3=u(0, 30) if rng.random() < 0.8 else None)
-        elif kind == PartKind.CRUSH_WASHER:
-            d = dict(id_mm=rod + u(-0.2, 1.2), od_mm=bore - u(-0.5, 4.0), height_mm=1.0)
-        else:  # glide ring: no rules, the seat reports it
-            d = dict(id_mm=rod, od_mm=bore, height_mm=width)
-        d = {k: (None if v is not None and rng.random() < 0.03 else v) for k, v in d.items()}
-        out.append(PartSpec(
-            f"{seat.seat}-{i}", kind, material=MATERIALS[rng.integers(len(MATERIALS))],
-            hardness_shore_a=None if rng.random() < 0.2 else int(rng.integers(62, 90)),
-            standard="AS568-XXX" if rng.random() < 0.05 else None, **d))
-    return out
 
 
 # ------------------------------------------------------------ ranking vs brute force

@@ -61,6 +61,7 @@ def demo(ctx: typer.Context,
 
 app.add_typer(catalog_cmd.app, name="catalog")
 app.add_typer(stock.app, name="stock")
+__import__("inventory.cli.bench_cmd", fromlist=["register"]).register(app)  # match fit compat parts
 
 
 def run() -> None:

@@ -1,0 +1,398 @@
+"""Bench lookup commands: ``inventory match``, ``inventory fit``, ``inventory compat`` and
+``inventory parts find``; :func:`bench_tour` shows them on the demo shop.
+
+Thin commands: parse the options (:mod:`inventory.cli.bench_service`), call one function,
+render a rich table or ``--json``. Every match and fit output ends with the one-line
+caution (:data:`inventory.domain.fit.CAUTION`).
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import typer
+from sqlmodel import Session
+
+from inventory.cli import bench_service as svc
+from inventory.cli.common import console, print_json, print_table, reading, say
+from inventory.domain.fit import CAUTION, FitResult, FitRules, fit, kind_applies
+from inventory.domain.matching import MatchQuery, PartArrays, standard_part_arrays
+from inventory.domain.model import PartKind
+from inventory.domain.part_search import find_parts
+from inventory.domain.units import format_length
+from inventory.errors import InventoryError
+from inventory.store import lookup
+from inventory.store.convert import all_seats
+from inventory.store.db import make_engine
+
+parts_app = typer.Typer(help="Look parts up in the shop's catalog.", no_args_is_help=True)
+
+UNITS = ("mm", "in")
+
+
+def _unit(text: str) -> str:
+    unit = text.strip().lower()
+    if unit not in UNITS:
+        raise InventoryError(f"--unit must be mm or in, got {text!r}")
+    return unit
+
+
+def _len(mm: float | None, unit: str) -> str:
+    return "" if mm is None else format_length(mm, unit, with_unit=False)
+
+
+def _say_caution() -> None:
+    """The caution as one line, never wrapped (the last line of every match and fit)."""
+    console.print(CAUTION, highlight=False, markup=False, soft_wrap=True)
+
+
+# ----------------------------------------------------------------------------- match
+
+def _flags(row: dict) -> str:
+    out = []
+    if row.get("past_storage"):
+        out.append(f"PAST STORAGE x{row['past_storage_units']}")
+    if row.get("hardness_ok") is False:
+        out.append(f"hardness {row['hardness_shore_a']}")
+    stocked = row.get("stocked_as") or []
+    if stocked:
+        out.append(f"stocked as {stocked[0]}" + (f" +{len(stocked) - 1}" if len(stocked) > 1
+                                                 else ""))
+    return "; ".join(out)
+
+
+def _driver(row: dict) -> str:
+    d = row.get("driver")
+    return "" if not d else f"{d} {row['parts'][d]:.2f}"
+
+
+def size_text(row: dict, unit: str) -> str:
+    """``24.99 x 3.53`` for a ring (inside x section), ``31.20/42.10/10.50`` for parts
+    with inside, outside and height (missing ones as ``-``)."""
+    if row.get("cs_mm") is not None and row["kind"] in ("o_ring", "x_ring"):
+        return f"{_len(row['id_mm'], unit) or '-'} x {_len(row['cs_mm'], unit)}"
+    return "/".join(_len(row.get(k), unit) or "-" for k in ("id_mm", "od_mm", "height_mm"))
+
+
+def _stock_text(row: dict) -> str:
+    if row["source"] == "standard":
+        return "order"
+    return f"{row['on_hand']} {row['location']}" if row["on_hand"] else "0"
+
+
+def render_match(result: svc.MatchResult, unit: str) -> None:
+    """The ranked candidates as a table, then the caution line."""
+    req = result.request
+    seat = req.seat
+    if result.mode == "fitting":
+        assert seat is not None
+        title = f"Parts that fit {seat.fork} {seat.seat} ({seat.part_kind})"
+    else:
+        dims = ", ".join(f"{name} {format_length(v, unit)}"
+                         for name, v in req.query.dims().items())
+        where = f" in {seat.fork} {seat.seat}" if seat else ""
+        tol = req.tolerance
+        tol_text = (f"{format_length(tol.abs_mm, unit)}"
+                    + (f" + {tol.rel * 100:g} %" if tol.rel else ""))
+        title = f"Candidates for {dims}{where} (tolerance {tol_text})"
+    header = ["#", "part", "kind", f"size {unit}"]
+    if result.mode == "match":
+        header += ["score", "driven by"]
+    header.append("stock")
+    if seat:
+        header.append("verdict")
+    header.append("notes")
+    rows = []
+    for n, r in enumerate(result.rows, start=1):
+        code = r.get("part") or f"{r['designation']} (std)"
+        line = [n, code, r["kind"], size_text(r, unit)]
+        if result.mode == "match":
+            line += [f"{r['score']:.2f}", _driver(r)]
+        line.append(_stock_text(r))
+        if seat:
+            line.append(r.get("verdict", ""))
+        line.append(_flags(r))
+        rows.append(line)
+    caption = ("score: sum over dimensions of deviation / tolerance, plus kind and material "
+               "penalties (lower is closer); std = standard size, orderable, not stocked"
+               if result.mode == "match" else "std = standard size, orderable, not stocked")
+    print_table(title, header, rows, right=("#", "score"), caption=caption)
+    if not rows:
+        say("no candidates")
+    _say_caution()
+
+
+def match(ctx: typer.Context,
+          kind: str = typer.Option(None, "--kind", help="Seal kind, e.g. o_ring, dust_wiper."),
+          id_: str = typer.Option(None, "--id", help="Inside diameter, e.g. 24.99, 1.26in."),
+          od: str = typer.Option(None, "--od", help="Outside diameter."),
+          height: str = typer.Option(None, "--height", help="Height (axial width)."),
+          cs: str = typer.Option(None, "--cs", help="Cross-section of a round or X ring."),
+          tol: str = typer.Option(None, "--tol", help="Fixed tolerance per dimension "
+                                                      "(default 0.15 mm + 1.5 %, for a "
+                                                      "caliper on a used seal)."),
+          material: str = typer.Option(None, "--material", help="Wanted polymer, e.g. NBR."),
+          hardness: float = typer.Option(None, "--hardness",
+                                         help="Reference hardness, Shore A (adds the "
+                                              "hardness check)."),
+          hardness_tol: float = typer.Option(None, "--hardness-tol",
+                                             help="Hardness band, +/- Shore A (default 5)."),
+          fork: str = typer.Option(None, "--fork", help="Fork family (with --seat)."),
+          seat: str = typer.Option(None, "--seat", help="Seat in that fork family."),
+          limit: int = typer.Option(None, "--limit", help="Candidates per source (stock, "
+                                                          "standard); default 6."),
+          no_standard: bool = typer.Option(False, "--no-standard",
+                                           help="Leave out the standard O-ring series."),
+          unit: str = typer.Option("mm", "--unit", help="mm or in: how lengths are shown, "
+                                                        "and read when typed bare."),
+          as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
+    """Rank the shop's parts and the standard sizes against caliper readings; with --fork
+    and --seat, give each a fit verdict (no dimensions: every part that fits the seat)."""
+    unit = _unit(unit)
+    if limit is not None and limit < 1:
+        raise InventoryError(f"--limit must be 1 or more, got {limit}")
+    with reading(ctx) as s:
+        seat_spec = svc.find_seat(s, fork, seat)
+        wanted = svc.parse_kind(kind) or (PartKind(seat_spec.part_kind) if seat_spec else None)
+        query = MatchQuery(
+            id_mm=svc.parse_dim(id_, "id", wanted, unit=unit),
+            od_mm=svc.parse_dim(od, "od", wanted, unit=unit),
+            height_mm=svc.parse_dim(height, "height", wanted, unit=unit),
+            cs_mm=svc.parse_dim(cs, "cs", wanted, unit=unit),
+            kind=wanted, material=svc.parse_material(material))
+        rules = svc.hardness_rules(FitRules(), hardness_tol)
+        request = svc.MatchRequest(query, svc.parse_tolerance(tol, unit=unit), limit,
+                                   seat_spec, svc.check_hardness(hardness), rules,
+                                   standard=not no_standard)
+        result = svc.run_match(svc.load_shop(s), request)
+    if as_json:
+        print_json(result.to_dict())
+        return
+    render_match(result, unit)
+
+
+# ------------------------------------------------------------------------------- fit
+
+def _value(v, unit: str = "") -> str:
+    if v is None:
+        return "-"
+    if isinstance(v, float):
+        if math.isinf(v):
+            return "inf"
+        if math.isnan(v):
+            return "-"
+        text = f"{v:.3f}" if unit == "mm" else f"{v:.2f}" if abs(v) < 1000 else f"{v:.0f}"
+        return f"{text} {unit}".strip()
+    return str(v)
+
+
+def render_fit(result: FitResult) -> None:
+    rows = [[c.name, _value(c.value, c.unit), c.allowed, str(c.status),
+             c.note, c.source] for c in result.checks]
+    print_table(f"{result.part} in {result.fork} {result.seat}",
+                ["check", "value", "allowed", "status", "note", "source"], rows)
+    say(f"verdict: {str(result.verdict).upper()}")
+    _say_caution()
+
+
+def _numbers(result: FitResult) -> str:
+    return "; ".join(f"{c.name} {_value(c.value, c.unit)}" for c in result.checks
+                     if c.name not in ("kind", "material"))
+
+
+def render_fit_everywhere(part: str, results: list[FitResult], seats_total: int) -> None:
+    rows = [[r.fork, r.seat, str(r.verdict), _numbers(r)] for r in results]
+    print_table(f"Seats where {part} fits ({len(results)} of {seats_total} seats of its kind)",
+                ["fork", "seat", "verdict", "numbers"], rows)
+    if not rows:
+        say(f"{part} fits no seat of the fork families on file")
+    _say_caution()
+
+
+def fit_command(ctx: typer.Context,
+                part: str = typer.Argument(..., help="Part code or standard designation "
+                                                     "(AS568-214, 'ISO3601 31.5x3.55')."),
+                fork: str = typer.Option(None, "--fork", help="Fork family."),
+                seat: str = typer.Option(None, "--seat", help="Seat in that fork family."),
+                hardness: float = typer.Option(None, "--hardness",
+                                               help="Reference hardness, Shore A."),
+                hardness_tol: float = typer.Option(None, "--hardness-tol",
+                                                   help="Hardness band, +/- Shore A "
+                                                        "(default 5)."),
+                show_all: bool = typer.Option(False, "--all",
+                                              help="Also list the seats where it fails."),
+                as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
+    """Will PART work in a seat? With --fork and --seat: every check with its numbers and
+    source. Alone (or with --fork only): every seat where it fits."""
+    rules = svc.hardness_rules(FitRules(), hardness_tol)
+    ref = svc.check_hardness(hardness)
+    with reading(ctx) as s:
+        spec = svc.resolve_part(s, part)
+        if seat is not None:
+            target = svc.find_seat(s, fork, seat)
+            assert target is not None
+            result = fit(spec, target, rules=rules, reference_shore_a=ref)
+            if as_json:
+                print_json(result.to_dict())
+                return
+            render_fit(result)
+            return
+        seats = all_seats(s)
+        if fork is not None:
+            code = lookup.fork(s, fork).code
+            seats = [x for x in seats if x.fork == code]
+    applicable = [x for x in seats if kind_applies(spec.kind, x.part_kind, rules=rules)]
+    results = svc.fit_everywhere(spec, applicable, rules=rules, reference_shore_a=ref,
+                                 include_fail=show_all)
+    if as_json:
+        print_json({"part": spec.code, "seats": [_without_caution(r) for r in results],
+                    "caution": CAUTION})
+        return
+    render_fit_everywhere(spec.code, results, len(applicable))
+
+
+def _without_caution(r: FitResult) -> dict:
+    d = r.to_dict()
+    d.pop("caution")
+    return d
+
+
+# ---------------------------------------------------------------------------- compat
+
+def compat(ctx: typer.Context,
+           kind: str = typer.Option(None, "--kind", help="Only seats of this seal kind."),
+           xlsx: Path = typer.Option(None, "--xlsx", help="Write the workbook here."),
+           standard: bool = typer.Option(False, "--standard",
+                                         help="Add the standard O-ring series as columns."),
+           as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
+    """Every seat of every fork family against every part of a kind that goes there,
+    computed by the fit rules: a table, --json, or a workbook (--xlsx)."""
+    from inventory.reporting.compat import build_compat, sheet_title, write_compat
+
+    wanted = svc.parse_kind(kind)
+    with reading(ctx) as s:
+        shop = svc.load_shop(s)
+        seats = all_seats(s)
+    sources: list[PartArrays] = [shop.arrays]
+    if standard:
+        sources.append(standard_part_arrays())
+    report = build_compat(seats, sources, kinds=None if wanted is None else [wanted])
+    if wanted is not None and not report.blocks:
+        raise InventoryError(f"no {wanted} seats on file")
+    if xlsx is not None:
+        path = write_compat(report, xlsx)
+        if not as_json:
+            say(f"wrote {path}: " + ", ".join(f"{sheet_title(b.kind)} {len(b.seats)} x "
+                                              f"{len(b.parts)}" for b in report.blocks))
+    if as_json:
+        print_json(report.to_dict())
+        return
+    if xlsx is None:
+        for b in report.blocks:
+            rows = []
+            for i, seat in enumerate(b.seats):
+                hits = b.fitting(i)
+                rows.append([seat.fork, seat.seat, ", ".join(hits["pass"]) or "-",
+                             ", ".join(hits["marginal"]) or "-"])
+            print_table(f"{sheet_title(b.kind)} seats ({len(b.parts)} parts checked)",
+                        ["fork", "seat", "fits", "marginal"], rows)
+    _say_caution()
+
+
+# ------------------------------------------------------------------------ parts find
+
+@parts_app.command("find")
+def parts_find(ctx: typer.Context,
+               text: list[str] = typer.Argument(..., help='Words and sizes, e.g. "34 wiper", '
+                                                          '"od 41", "x-ring 25".'),
+               limit: int = typer.Option(10, "--limit", help="Most hits shown."),
+               unit: str = typer.Option("mm", "--unit", help="mm or in."),
+               as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
+    """Fuzzy search over part codes, descriptions and dimensions."""
+    unit = _unit(unit)
+    query = " ".join(text)
+    with reading(ctx) as s:
+        shop = svc.load_shop(s)
+    try:
+        hits = find_parts(query, shop.parts, limit=limit, default_unit=unit)
+    except ValueError as exc:
+        raise InventoryError(str(exc)) from None
+    out = []
+    for h in hits:
+        p = shop.parts[h.index]
+        info = shop.stock_of(p.code)
+        out.append({**h.to_dict(), "kind": str(p.kind), "description": p.description,
+                    "id_mm": p.id_mm, "od_mm": p.od_mm, "height_mm": p.height_mm,
+                    "cs_mm": p.cs_mm, "on_hand": info.on_hand, "location": info.location})
+    if as_json:
+        print_json({"query": query, "hits": out})
+        return
+    rows = [[h["part"], h["kind"], h["description"], _len(h["id_mm"], unit),
+             _len(h["od_mm"], unit), _len(h["height_mm"], unit), _len(h["cs_mm"], unit),
+             h["on_hand"], f"{h['score']:.0f}", "; ".join(h["matched"])] for h in out]
+    print_table(f"Parts matching {query!r}", ["part", "kind", "description", f"id {unit}",
+                                               f"od {unit}", f"height {unit}", f"cs {unit}",
+                                               "on hand", "score", "matched"], rows,
+                right=("on hand", "score"))
+    if not rows:
+        say(f"no part matches {query!r}")
+
+
+def register(app: typer.Typer) -> None:
+    """Add ``match``, ``fit``, ``compat`` and the ``parts`` group to the root app."""
+    app.command("match")(match)
+    app.command("fit")(fit_command)
+    app.command("compat")(compat)
+    app.add_typer(parts_app, name="parts")
+
+
+# -------------------------------------------------------------------------- demo tour
+
+#: How a worn ring reads under the caliper in the tour: the inside a little stretched and
+#: swollen, the section a little flattened by compression set (illustrative, common
+#: practice for a used static seal).
+WORN_ID_FACTOR = 1.005
+WORN_CS_FACTOR = 0.985
+
+
+def bench_tour(url: str) -> None:
+    """For the demo tour: caliper readings of a worn O-ring from a demo seat (oil-wetted
+    where one fits), the ranked match (stock and standard sizes) with verdicts for that
+    seat, and the full fit of the stocked ring that came out of it."""
+    with Session(make_engine(url)) as s:
+        shop = svc.load_shop(s)
+        seats = all_seats(s)
+    rings = [p for p in shop.parts if PartKind(p.kind) == PartKind.O_RING
+             and p.standard and p.id_mm and p.cs_mm and shop.stock_of(p.code).on_hand > 0]
+    rings.sort(key=lambda p: (p.standard != "AS568-214", p.material != "NBR", p.code))
+    # an oil-wetted seat shows the material rule too (EPDM never goes in oil)
+    seats.sort(key=lambda x: (str(x.medium) != "oil", x.fork, x.seat))
+    chosen = None
+    for ring in rings:
+        for seat in seats:
+            if PartKind(seat.part_kind) == PartKind.O_RING and \
+                    str(fit(ring, seat).verdict) == "pass":
+                chosen = ring, seat
+                break
+        if chosen:
+            break
+    if chosen is None:
+        say("bench lookup: no stocked standard O-ring fits a demo seat; skipped")
+        return
+    ring, seat = chosen
+    read_id = round(ring.id_mm * WORN_ID_FACTOR, 2)
+    read_cs = round(ring.cs_mm * WORN_CS_FACTOR, 2)
+    say(f"[bold]At the bench[/bold]: a worn O-ring out of {seat.fork} {seat.seat} reads "
+        f"{read_id:.2f} x {read_cs:.2f} mm on the caliper.")
+    say(f"$ inventory match --id {read_id:.2f} --cs {read_cs:.2f} --fork {seat.fork} "
+        f"--seat {seat.seat} --limit 4")
+    request = svc.MatchRequest(MatchQuery(id_mm=read_id, cs_mm=read_cs, kind=PartKind.O_RING),
+                               limit=4, seat=seat)
+    result = svc.run_match(shop, request)
+    render_match(result, "mm")
+    say(f"$ inventory fit {ring.code} --fork {seat.fork} --seat {seat.seat}")
+    render_fit(fit(ring, seat))
+
+
+__all__ = ["bench_tour", "compat", "fit_command", "match", "parts_app", "register"]
