@@ -35,18 +35,19 @@ MATERIAL_CODE = {m: i for i, m in enumerate(MATERIAL_CODES)}
 UNKNOWN_MATERIAL = len(MATERIAL_CODES)  # a code not in MATERIALS
 NO_MATERIAL = -1  # material not recorded (indexes the last slot of a lookup table)
 
-SRC_GLAND = ("REFERENCE.md 2: textbook and trade ranges (Flitney; Mueller & Nau, recalled "
-             "from memory; common practice)")
-SRC_STRETCH = "REFERENCE.md 2: stretch limits (recalled from memory; common practice)"
-SRC_FILL = "REFERENCE.md 2: gland fill with swell allowance (recalled from memory)"
+# Sources shown to the user beside each check. "Recalled from memory" marks textbook ranges
+# not re-read for this project; "common practice" marks trade rules of thumb.
+SRC_GLAND = ("O-ring gland squeeze ranges: seal handbooks (Flitney, Seals and Sealing Handbook; "
+             "Mueller & Nau, Fluid Sealing Technology; recalled from memory) and common practice")
+SRC_STRETCH = "installed stretch ceiling 5 %, seal handbooks (recalled from memory; common practice)"
+SRC_FILL = "gland fill at most 85 % with fluid swell, seal handbooks (recalled from memory)"
 SRC_CP = "common practice"
 SRC_ISO286 = "ISO 286 limits of the bore class; interference range common practice"
-SRC_GAS = "polytropic law p1 V1^n = p2 V2^n (REFERENCE.md 9); limit common practice"
-SRC_MATERIAL = "REFERENCE.md 6: polymer vs mineral oil (textbook; common practice)"
-SRC_HARDNESS = "REFERENCE.md 6: hardness within the tolerance (common practice)"
+SRC_GAS = "polytropic gas law p1 V1^n = p2 V2^n (absolute pressures); limit common practice"
+SRC_MATERIAL = "polymer vs mineral oil: seal handbooks (recalled from memory; common practice)"
+SRC_HARDNESS = "hardness within the tolerance of the original (common practice)"
 SRC_KIND = "seal kind of the seat (common practice for substitutes)"
-SRC_GLIDE = ("guide-ring housings: ISO 6547 scope (REFERENCE.md 4, title only); clearances "
-             "common practice")
+SRC_GLIDE = ("guide-ring housings: ISO 6547 (scope only); clearances common practice")
 
 
 @dataclass(frozen=True, slots=True)
