@@ -12,7 +12,11 @@ whole units, on hand starting at the level. Pooled fill = units served from the 
 units demanded; on hand = average end-of-month units per series per month.
 
 - Ours: :func:`inventory.backtest.run_backtests` at 90/95/98 % (forecast chosen by rolling
-  origin, negative binomial demand over lead time + review, fill-rate-exact levels).
+  origin, negative binomial demand over lead time + review, fill-rate-exact levels). The
+  headline (and the fill targets checked) is ``allocation="uniform"``: one per-part target
+  set so the expected POOLED fill meets the asked rate, since the pooled fill rate is what
+  the issue measures; the per-part allocation (each part's own smallest level reaching the
+  target) is printed below it for comparison. ``inventory backtest`` uses the same default.
 - statsforecast's SimpleExponentialSmoothingOptimized ("SES"), TSB(alpha_d=0.1,
   alpha_p=0.1), IMAPA and CrostonSBA: their mean forecast, sd from their in-sample
   one-step residuals (ddof=1), S = ceil(2 mu + z sd sqrt(2)), z = 1.645; then z tuned after
@@ -156,15 +160,16 @@ def main(argv: list[str] | None = None) -> int:
 
     # -- ours ---------------------------------------------------------------------------------
     t0 = time.perf_counter()
-    ours95 = bt.run_backtest(y, table.names, horizon=h, fill_rate=0.95, season_pos=pos)
+    ours95 = bt.run_backtest(y, table.names, horizon=h, fill_rate=0.95, season_pos=pos,
+                             allocation="uniform")
     whole = time.perf_counter() - t0
-    ours = bt.run_backtests(y, table.names, fill_rates=FILLS, horizon=h, season_pos=pos)
     uniform = bt.run_backtests(y, table.names, fill_rates=FILLS, horizon=h, season_pos=pos,
                                allocation="uniform")
-    rows = [Row("ours (per-part levels)", f"{int(100 * r.fill_target)} %", r.fill_rate,
-                r.avg_on_hand, r.rmsse, r.seconds) for r in ours]
-    rows += [Row("ours (uniform target, pooled)", f"{int(100 * r.fill_target)} %", r.fill_rate,
-                 r.avg_on_hand, r.rmsse, r.seconds) for r in uniform]
+    per_part = bt.run_backtests(y, table.names, fill_rates=FILLS, horizon=h, season_pos=pos)
+    rows = [Row("ours (uniform target, pooled fill; headline)", f"{int(100 * r.fill_target)} %",
+                r.fill_rate, r.avg_on_hand, r.rmsse, r.seconds) for r in uniform]
+    rows += [Row("ours (per-part levels)", f"{int(100 * r.fill_target)} %", r.fill_rate,
+                 r.avg_on_hand, r.rmsse, r.seconds) for r in per_part]
 
     # ours with the per-part target tuned after the fact to 95 % achieved (same hindsight
     # as the tuned statsforecast rows)
@@ -233,7 +238,7 @@ def main(argv: list[str] | None = None) -> int:
 
     # -- targets ------------------------------------------------------------------------------
     checks: list[tuple[str, bool, str]] = []
-    for r in ours:
+    for r in uniform:
         lo, hi = r.fill_target - 0.01, r.fill_target + 0.02
         ok = lo - 1e-12 <= r.fill_rate <= hi + 1e-12
         checks.append((f"asked {100 * r.fill_target:.0f} % -> achieved within -1/+2 points",
@@ -243,7 +248,7 @@ def main(argv: list[str] | None = None) -> int:
     checks.append(("on-hand at 95 % achieved <= 0.85 x best statsforecast (tuned)",
                    oh_star <= limit,
                    f"{oh_star:.2f} vs 0.85 x {sf_tuned[best_sf]:.2f} ({best_sf}) = {limit:.2f}; "
-                   f"at 95 % asked: {ours[1].avg_on_hand:.2f}"))
+                   f"at 95 % asked: {uniform[1].avg_on_hand:.2f}"))
     best_r = min(sf_rmsse, key=lambda k: sf_rmsse[k])
     checks.append(("RMSSE no worse than the best statsforecast model",
                    ours95.rmsse <= sf_rmsse[best_r] + 1e-12,

@@ -8,7 +8,16 @@ import traceback
 
 import typer
 
-from inventory.cli import catalog_cmd, stock
+from inventory.cli import (
+    bench_cmd,
+    catalog_cmd,
+    forecast_cmd,
+    io_cmd,
+    jobs_cmd,
+    plan_cmd,
+    report_cmd,
+    stock,
+)
 from inventory.cli.common import AppState, err_console, say, state
 from inventory.errors import InventoryError
 
@@ -61,7 +70,14 @@ def demo(ctx: typer.Context,
 
 app.add_typer(catalog_cmd.app, name="catalog")
 app.add_typer(stock.app, name="stock")
-__import__("inventory.cli.bench_cmd", fromlist=["register"]).register(app)  # match fit compat parts
+bench_cmd.register(app)  # match, fit, compat, parts
+app.add_typer(jobs_cmd.app, name="job")
+app.command("import")(io_cmd.import_file)
+app.command("export")(io_cmd.export)
+app.command("template")(io_cmd.template)
+forecast_cmd.register(app)  # forecast, backtest
+plan_cmd.register(app)  # plan, order
+app.add_typer(report_cmd.app, name="report")
 
 
 def run() -> None:

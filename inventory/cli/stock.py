@@ -53,13 +53,26 @@ def receive(ctx: typer.Context,
             lot: str = typer.Option(None, "--lot", help="Lot code; an existing lot is topped up."),
             cured: str = typer.Option(None, "--cured", help="Cure quarter, e.g. 2026Q3 or 3/26."),
             location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location"),
-            order: str = typer.Option(None, "--order", help="Purchase order reference."),
+            order: str = typer.Option(None, "--order", help="Purchase order reference: receives "
+                                      "against its line and closes it when complete."),
+            tolerance: float = typer.Option(0.05, "--tolerance",
+                                            help="Over-delivery accepted against --order, as a "
+                                                 "fraction of the line (0.05 = 5%)."),
             day: str = typer.Option(None, "--date", help="Booking date (default today)."),
             ) -> None:
     """Book a delivery into stock."""
     with unit_of_work(ctx) as s:
+        if order:
+            from inventory.store.orders import receive_against_order
+
+            got = receive_against_order(s, order, part, qty, tolerance=tolerance,
+                                        unit_cost=_money(cost), lot=lot, cured=cured,
+                                        location=location, ts=when(day))
+            _report([got.movement], "received", part)
+            say(got.summary)
+            return
         mv = ledger.receive(s, part, qty, _money(cost), lot=lot, cured=cured, location=location,
-                            ts=when(day), reference=order)
+                            ts=when(day))
         _report([mv], "received", part)
 
 

@@ -121,6 +121,7 @@ def fit_distribution(
     max_pairs: int = 50_000,
     max_pooled_pairs: int = 5_000,
     by: Literal["class", "pooled"] = "class",
+    scale_groups: ArrayLike | None = None,
 ) -> DistributionFit:
     """Negative binomial demand per period for the next ``cover`` periods (lead time plus
     review period), its variance law fitted on the forecasts of the selection backtest.
@@ -133,17 +134,22 @@ def fit_distribution(
     ``by="class"`` fits the law per SBC class with at least ``min_pairs`` pairs and pools the
     rest; a class fit uses at most ``max_pairs`` pairs and the pooled fallback (needed only
     for small classes) at most ``max_pooled_pairs``, drawn at random with a fixed seed.
+    ``scale_groups`` (one label per series, e.g. the unit: each or ml) keeps series measured
+    on different scales out of each other's law: the law is fitted per group and class, and
+    the pooled fallback per group, so millilitres of oil do not set the spread of kits.
     """
     v, obs = sm.prepare(y)
     n, t_len = v.shape
     k = max(int(round(cover)), 1)
-    labels = result.classification.label
+    labels = np.asarray(result.classification.label).astype(str)
+    scale = (np.zeros(n, dtype=int) if scale_groups is None
+             else np.unique(np.asarray(scale_groups).astype(str), return_inverse=True)[1])
     cum = np.concatenate([np.zeros((n, 1)), np.cumsum(v, axis=1)], axis=1)
     sold = np.concatenate([np.zeros((n, 1)), np.cumsum(v > 0, axis=1)], axis=1) > 0
     paths = result.origin_paths
     h = paths.shape[2] if paths.ndim == 3 else 0
     pcum = np.concatenate([np.zeros(paths.shape[:2] + (1,)), np.cumsum(paths, axis=2)], axis=2)
-    mus, ds, cl, cold_d = [], [], [], []
+    mus, ds, cl, sc, cold_d = [], [], [], [], []
     for s, o in enumerate(result.origins):
         use = obs[:, o] & sold[:, o]
         cold = obs[:, o] & ~sold[:, o]
@@ -155,10 +161,12 @@ def fit_distribution(
             mus.append(mu[use])
             ds.append(d[use])
             cl.append(labels[use])
+            sc.append(scale[use])
             cold_d.append(d[cold])
     mu_all = np.concatenate(mus) if mus else np.zeros(0)
     d_all = np.concatenate(ds) if ds else np.zeros(0)
     cl_all = np.concatenate(cl) if cl else np.zeros(0, dtype=str)
+    sc_all = np.concatenate(sc) if sc else np.zeros(0, dtype=int)
     pos = mu_all > 1e-6
 
     def fit(sel: NDArray[np.bool_], cap: int) -> tuple[float, float]:
@@ -169,21 +177,31 @@ def fit_distribution(
 
     a: dict[str, float] = {}
     b: dict[str, float] = {}
-    if by == "class":
-        for name in dm.CLASSES:
-            sel = pos & (cl_all == name)
-            if sel.sum() >= min_pairs:
-                a[name], b[name] = fit(sel, max_pairs)
-    if by == "pooled" or any(str(x) not in a for x in np.unique(labels)):
-        a["pooled"], b["pooled"] = fit(pos, max_pairs if by == "pooled" else max_pooled_pairs)
+    groups = np.unique(scale)
+    for g in groups:
+        in_g = pos & (sc_all == g)
+        prefix = "" if len(groups) == 1 else f"{g}:"
+        if by == "class":
+            for name in dm.CLASSES:
+                sel = in_g & (cl_all == name)
+                if sel.sum() >= min_pairs:
+                    a[prefix + name], b[prefix + name] = fit(sel, max_pairs)
+        needed = {str(x) for x in np.unique(labels[scale == g])}
+        if by == "pooled" or any(prefix + x not in a for x in needed):
+            sel = in_g if in_g.any() else pos
+            a[prefix + "pooled"], b[prefix + "pooled"] = fit(
+                sel, max_pairs if by == "pooled" else max_pooled_pairs)
     cd = np.concatenate(cold_d) if cold_d else np.zeros(0)
     cold_rate = float(cd.mean() / k) if cd.size else 0.0
     cold_vmr = float(cd.var() / cd.mean()) if cd.size and cd.mean() > 0 else 1.0
 
     m = result.mean(k).mean(axis=1)
-    codes = result.classification.codes()
-    a_s = np.array([a.get(c, a.get("pooled", 1.0)) for c in dm.CLASSES])[codes]
-    b_s = np.array([b.get(c, b.get("pooled", 1.0)) for c in dm.CLASSES])[codes]
+    def law(table: dict[str, float], i: int) -> float:
+        prefix = "" if len(groups) == 1 else f"{scale[i]}:"
+        return table.get(prefix + labels[i], table.get(prefix + "pooled", 1.0))
+
+    a_s = np.array([law(a, i) for i in range(n)])
+    b_s = np.array([law(b, i) for i in range(n)])
     # the law gives each part its variance-to-mean ratio at the cover horizon; the part keeps
     # that ratio at every horizon (compound-Poisson scaling, see distributions.py)
     vmr = a_s * np.power(np.maximum(k * m, 1e-12), b_s - 1.0)

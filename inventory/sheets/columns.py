@@ -25,6 +25,7 @@ class Column:
     write: Callable[[Any], Any] = _plain
     default: Any = None
     example: Any = None
+    hint: str | None = None  # how to fix a bad value, shown with the problems
 
     def headers(self) -> set[str]:
         return {normalise(h) for h in (self.name, *self.aliases)}

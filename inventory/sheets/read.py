@@ -29,24 +29,52 @@ class Table:
     rows: list[tuple[int, list[Any]]] = field(default_factory=list)
 
 
-def _to_table(name: str, file: str, sheet: str | None, grid: list[list[Any]]) -> Table:
-    start = next((i for i, row in enumerate(grid) if not all(is_blank(v) for v in row)), None)
+def has_data(row: list[Any]) -> bool:
+    """True when any cell of the row holds something (fast: called for every row)."""
+    for v in row:
+        if v is None or v == "":
+            continue
+        t = type(v)
+        if t is str and not v.strip():
+            continue
+        if t is float and v != v:  # NaN
+            continue
+        return True
+    return False
+
+
+def _to_table(name: str, file: str, sheet: str | None, grid: list[list[Any]],
+              start: int | None = None) -> Table:
+    """A table whose header is row ``start`` (0-based) of the grid, by default the first
+    row that is not blank; rows after it, blank rows dropped."""
+    if start is None:
+        start = next((i for i, row in enumerate(grid) if has_data(row)), None)
     if start is None:
         return Table(name, file, sheet, [], 1, [])
     header = ["" if is_blank(h) else str(h).strip() for h in grid[start]]
     while header and not header[-1]:
         header.pop()
-    rows = [
-        (start + 2 + i, list(row))
-        for i, row in enumerate(grid[start + 1:])
-        if not all(is_blank(v) for v in row)
-    ]
+    rows = [(start + 2 + i, row if type(row) is list else list(row))
+            for i, row in enumerate(grid[start + 1:])
+            if (row and row[0].__class__ is str and row[0] and not row[0].isspace())
+            or has_data(row)]  # the first test is a shortcut for the usual row
     return Table(name, file, sheet, header, start + 1, rows)
 
 
 def decode_csv(data: bytes, file: str) -> tuple[str, str]:
-    """Text of a csv file and the encoding used: UTF-8 (with or without BOM), else the
-    Windows western code page that spreadsheet programs often save in."""
+    """Text of a csv file and the encoding used: UTF-16 when it starts with a byte-order mark
+    (spreadsheet programs' "Unicode text"), UTF-8 (with or without BOM), else the Windows
+    western code page that spreadsheet programs often save in."""
+    if data.startswith((b"\xff\xfe", b"\xfe\xff")):
+        try:
+            return data.decode("utf-16"), "utf-16"
+        except UnicodeDecodeError:
+            pass
+    elif b"\x00" in data[:4096]:
+        raise InventoryError(
+            f"{file}: the file holds NUL bytes: it is not a text csv (perhaps UTF-16 without a "
+            "byte-order mark, or a binary file renamed .csv)",
+            hint="save it as 'CSV UTF-8' from the spreadsheet program")
     for enc in ("utf-8-sig", "cp1252"):
         try:
             return data.decode(enc), enc
@@ -56,35 +84,88 @@ def decode_csv(data: bytes, file: str) -> tuple[str, str]:
                          hint="save it as 'CSV UTF-8' from the spreadsheet program")
 
 
-def read_csv(path: Path) -> Table:
+def csv_grid(path: Path) -> tuple[list[list[Any]], str]:
+    """The cells of a csv file as text, and the encoding it was read in. The delimiter
+    (comma, semicolon or tab) is sniffed from the start of the file."""
     data = path.read_bytes()
-    text, _ = decode_csv(data, str(path))
+    if not data.strip():
+        raise InventoryError(f"{path.name}: the file is empty",
+                             hint="export the sheet again with its header row and data")
+    text, enc = decode_csv(data, path.name)
     try:
         dialect = csv.Sniffer().sniff(text[:4096], delimiters=",;\t")
     except csv.Error:
         dialect = csv.excel
-    grid = [list(r) for r in csv.reader(io.StringIO(text), dialect)]
+    try:
+        grid = [list(r) for r in csv.reader(io.StringIO(text, newline=""), dialect)]
+    except csv.Error as exc:
+        raise InventoryError(f"{path.name}: not a readable csv file ({exc})",
+                             hint="save it again as 'CSV UTF-8' from the spreadsheet program"
+                             ) from None
+    return grid, enc
+
+
+def read_csv(path: Path) -> Table:
+    grid, _ = csv_grid(path)
     return _to_table(path.stem, path.name, None, grid)
 
 
-def read_workbook(path: Path, sheets: list[str] | None = None) -> list[Table]:
+def open_workbook(path: Path):
+    """A calamine workbook, or an :class:`InventoryError` saying why the file cannot be read
+    (password-protected, corrupt, not a workbook, empty)."""
     from python_calamine import CalamineWorkbook
 
+    head = b""
     try:
-        wb = CalamineWorkbook.from_path(str(path))
+        with open(path, "rb") as fh:
+            head = fh.read(8)
+            size = path.stat().st_size
+    except OSError as exc:
+        raise InventoryError(f"{path.name}: cannot open the file ({exc.strerror})") from None
+    if size == 0:
+        raise InventoryError(f"{path.name}: the file is empty",
+                             hint="export the sheet again with its header row and data")
+    if head == OLE_MAGIC and path.suffix.lower() in (".xlsx", ".xlsm") and is_encrypted(path):
+        raise InventoryError(
+            f"{path.name}: the workbook is password-protected (encrypted), so it cannot be read",
+            hint="open it in the spreadsheet program, remove the password and save a copy")
+    try:
+        return CalamineWorkbook.from_path(str(path))
     except Exception as exc:  # corrupt, encrypted, not a workbook
         msg = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        if type(exc).__name__ == "PasswordError" or "password" in msg.lower():
+            raise InventoryError(
+                f"{path.name}: the workbook is password-protected, so it cannot be read",
+                hint="open it in the spreadsheet program, remove the password and save a copy",
+            ) from None
         raise InventoryError(
             f"{path.name}: cannot read the workbook ({msg})",
             hint="check it opens in a spreadsheet program and is not password-protected",
         ) from None
+
+
+OLE_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
+
+
+def is_encrypted(path: Path) -> bool:
+    """An encrypted xlsx is an OLE compound file holding an ``EncryptedPackage`` stream
+    (MS-OFFCRYPTO); the stream name is stored in UTF-16LE in the directory."""
+    try:
+        data = path.read_bytes()
+    except OSError:
+        return False
+    return data.startswith(OLE_MAGIC) and "EncryptedPackage".encode("utf-16-le") in data
+
+
+def read_workbook(path: Path, sheets: list[str] | None = None) -> list[Table]:
+    wb = open_workbook(path)
     names = wb.sheet_names
     if sheets:
         missing = [s for s in sheets if s not in names]
         if missing:
             raise InventoryError(
                 f"{path.name}: no sheet named {missing[0]!r} (sheets: {', '.join(names)})",
-                kind="schema",
+                kind="schema", hint="give one of the sheet names above with --sheet",
             )
         names = sheets
     out = []
@@ -92,6 +173,12 @@ def read_workbook(path: Path, sheets: list[str] | None = None) -> list[Table]:
         grid = wb.get_sheet_by_name(name).to_python(skip_empty_area=False)
         out.append(_to_table(name, path.name, name, grid))
     return out
+
+
+def table_from_grid(name: str, file: str, sheet: str | None, grid: list[list[Any]],
+                    header_row: int) -> Table:
+    """A table whose header is the 0-based ``header_row`` of ``grid``."""
+    return _to_table(name, file, sheet, grid, header_row)
 
 
 def read_tables(path: str | Path, sheets: list[str] | None = None) -> list[Table]:

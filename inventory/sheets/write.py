@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import csv
 import os
+import re
 import tempfile
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -19,10 +20,26 @@ from typing import Any
 
 from openpyxl import Workbook
 from openpyxl.styles import Alignment, Font, PatternFill
-from openpyxl.utils import get_column_letter
+from openpyxl.utils import get_column_letter, quote_sheetname
+from openpyxl.worksheet.datavalidation import DataValidation
 
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 HEADER_FILL = PatternFill("solid", fgColor="DDE4EE")
+LISTS_SHEET = "lists"
+
+
+_ESCAPED = re.compile(r"_(x[0-9A-Fa-f]{4}_)")
+
+
+def xml_text(value: str) -> str:
+    """Text as an xlsx cell must hold it to read back unchanged: XML turns a carriage return
+    into a line feed, so it is written as the escape ``_x000D_`` (ECMA-376 Part 1, 22.9.2.19
+    ST_Xstring), and a literal ``_xHHHH_`` gets its underscore escaped (``_x005F_``)."""
+    if "_x" in value:
+        value = _ESCAPED.sub(r"_x005F_\1", value)
+    if "\r" in value:
+        value = value.replace("\r", "_x000D_")
+    return value
 
 
 def guard_text(value: Any) -> Any:
@@ -39,6 +56,12 @@ class SheetSpec:
     rows: Sequence[Sequence[Any]]
     widths: dict[str, float] = field(default_factory=dict)
     number_formats: dict[str, str] = field(default_factory=dict)
+    #: header -> the values its drop-down list offers (kept on a hidden "lists" sheet)
+    lists: dict[str, Sequence[str]] = field(default_factory=dict)
+    #: headers whose drop-down only suggests: other values are allowed after a warning
+    loose_lists: frozenset[str] = frozenset()
+    #: how many rows below the header carry the drop-down lists
+    list_rows: int = 1000
 
 
 def _cell_value(value: Any) -> Any:
@@ -59,7 +82,7 @@ def fill_sheet(ws, spec: SheetSpec) -> None:
     for r, row in enumerate(spec.rows, start=2):
         for c, value in enumerate(row, start=1):
             v = _cell_value(value)
-            cell = ws.cell(row=r, column=c, value=v)
+            cell = ws.cell(row=r, column=c, value=xml_text(v) if isinstance(v, str) else v)
             if isinstance(v, str):
                 cell.data_type = "s"  # never a formula, whatever it starts with
                 if v.startswith(FORMULA_STARTS):
@@ -71,7 +94,8 @@ def fill_sheet(ws, spec: SheetSpec) -> None:
             elif isinstance(value, Decimal):
                 cell.number_format = "#,##0.00##"
             if c <= len(widths):
-                widths[c - 1] = max(widths[c - 1], min(60, len(str(v if v is not None else "")) + 2))
+                shown = len(str(v if v is not None else "")) + 2
+                widths[c - 1] = max(widths[c - 1], min(60, shown))
     for i, h in enumerate(spec.header, start=1):
         letter = get_column_letter(i)
         ws.column_dimensions[letter].width = spec.widths.get(h, widths[i - 1])
@@ -83,23 +107,58 @@ def fill_sheet(ws, spec: SheetSpec) -> None:
         ws.auto_filter.ref = f"A1:{get_column_letter(len(spec.header))}{max(1, len(spec.rows) + 1)}"
 
 
-def atomic_path(path: Path):
-    """A temporary file beside ``path``; rename over it when complete, so a reader never
-    sees half a file."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=".~", suffix=path.suffix, dir=path.parent)
-    os.close(fd)
-    return Path(tmp)
+def add_list_validation(ws, column: int, first_row: int, last_row: int, source: str, *,
+                        strict: bool = True, title: str | None = None) -> DataValidation:
+    """A drop-down list on ``column`` (1-based) for rows ``first_row..last_row``, its values
+    taken from the range ``source`` (e.g. ``'lists'!$A$2:$A$40``). ``strict`` refuses other
+    values; otherwise the program warns and lets the user keep what they typed."""
+    dv = DataValidation(type="list", formula1=source, allow_blank=True,
+                        errorStyle="stop" if strict else "warning",
+                        showErrorMessage=True, showInputMessage=bool(title))
+    if title:
+        dv.promptTitle = title[:32]
+        dv.prompt = "Pick from the list"
+    dv.error = "Pick a value from the list" if strict else "Not in the list: keep it anyway?"
+    letter = get_column_letter(column)
+    dv.add(f"{letter}{first_row}:{letter}{last_row}")
+    ws.add_data_validation(dv)
+    return dv
 
 
-def write_workbook(path: str | Path, sheets: Sequence[SheetSpec], *, workbook: Workbook | None = None
-                   ) -> Path:
+def lists_sheet(wb: Workbook):
+    """The hidden sheet that holds drop-down values (created on first use)."""
+    if LISTS_SHEET in wb.sheetnames:
+        return wb[LISTS_SHEET]
+    ws = wb.create_sheet(LISTS_SHEET)
+    ws.sheet_state = "hidden"
+    return ws
+
+
+def put_list(wb: Workbook, title: str, values: Sequence[str]) -> str:
+    """Write ``values`` as a new column of the lists sheet; return the range formula."""
+    ws = lists_sheet(wb)
+    col = (ws.max_column + 1) if ws.max_column > 1 or ws.cell(1, 1).value is not None else 1
+    ws.cell(1, col, title).data_type = "s"
+    for r, v in enumerate(values, start=2):
+        cell = ws.cell(r, col, str(v))
+        cell.data_type = "s"
+    letter = get_column_letter(col)
+    return f"{quote_sheetname(LISTS_SHEET)}!${letter}$2:${letter}${max(2, len(values) + 1)}"
+
+
+def _add_lists(wb: Workbook, ws, spec: SheetSpec) -> None:
+    for i, h in enumerate(spec.header, start=1):
+        values = list(spec.lists.get(h) or ())
+        if not values:
+            continue
+        source = put_list(wb, f"{spec.name}.{h}", values)
+        last = max(spec.list_rows, len(spec.rows)) + 1
+        add_list_validation(ws, i, 2, last, source, strict=h not in spec.loose_lists, title=h)
+
+
+def save_workbook(wb: Workbook, path: str | Path) -> Path:
+    """Save atomically: a reader never sees half a file."""
     path = Path(path)
-    wb = workbook or Workbook()
-    if workbook is None:
-        wb.remove(wb.active)
-    for spec in sheets:
-        fill_sheet(wb.create_sheet(spec.name[:31]), spec)
     tmp = atomic_path(path)
     try:
         wb.save(tmp)
@@ -108,6 +167,36 @@ def write_workbook(path: str | Path, sheets: Sequence[SheetSpec], *, workbook: W
         if tmp.exists():
             tmp.unlink()
     return path
+
+
+def atomic_path(path: Path):
+    """A temporary file beside ``path``; rename over it when complete, so a reader never
+    sees half a file."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=".~", suffix=path.suffix, dir=path.parent)
+    os.close(fd)
+    # mkstemp makes the file private (0600); a report should have the usual permissions.
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(tmp, 0o666 & ~umask)
+    return Path(tmp)
+
+
+def write_workbook(path: str | Path, sheets: Sequence[SheetSpec], *,
+                   workbook: Workbook | None = None) -> Path:
+    path = Path(path)
+    wb = workbook or Workbook()
+    if workbook is None:
+        wb.remove(wb.active)
+    for spec in sheets:
+        ws = wb.create_sheet(spec.name[:31])
+        fill_sheet(ws, spec)
+        if spec.lists:
+            _add_lists(wb, ws, spec)
+    if LISTS_SHEET in wb.sheetnames:  # keep the hidden lists last
+        last = len(wb.sheetnames) - 1
+        wb.move_sheet(LISTS_SHEET, offset=last - wb.sheetnames.index(LISTS_SHEET))
+    return save_workbook(wb, path)
 
 
 def write_csv(path: str | Path, header: Sequence[str], rows: Sequence[Sequence[Any]]) -> Path:

@@ -22,36 +22,52 @@ Re-runs are no-ops: each applied unit leaves a row key (a hash of its content) i
 
 from __future__ import annotations
 
+import gc
 import hashlib
-from collections.abc import Callable, Iterable, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
 from datetime import UTC, date, datetime
+from operator import itemgetter
 from pathlib import Path
 from typing import Any
 
-from sqlalchemy import insert
 from sqlmodel import Session, select
 
 from inventory.domain.model import PartKind
-from inventory.domain.units import parse_length
 from inventory.errors import InventoryError, Problem, Source, column_letter
-from inventory.sheets import cells
-from inventory.sheets.columns import Column, Schema, normalise
+from inventory.sheets.columns import Schema, normalise
 from inventory.sheets.dates import Order
-from inventory.sheets.fuzzy import Candidate, Choice, HeaderMap, HeaderMatch, match_headers, rank
+from inventory.sheets.fuzzy import Candidate, HeaderMap, HeaderMatch, match_headers
+from inventory.sheets.kinds import (  # noqa: F401 (the schemas are part of this API)
+    CATALOG,
+    CODE_HINT,
+    COUNTS,
+    DATE,
+    EXAMPLES,
+    HISTORY,
+    KINDS,
+    RECEIPTS,
+    SCHEMAS,
+)
 from inventory.sheets.review import ReviewItem, read_resolutions, write_review
-from inventory.sheets.rows import TypedRow, TypedRows, type_rows
+from inventory.sheets.rows import TypedRow, TypedRows, is_totals_row, type_rows
 from inventory.sheets.source import SourceSheet, read_source
 from inventory.store import ledger, lookup
-from inventory.store.jobs import (
+from inventory.store.jobs import (  # noqa: F401 (fork resolution is part of this API)
     CatalogIndex,
     JobItem,
     JobSpec,
     JobWriter,
     StockBook,
+    analyze,
+    bulk_insert,
     existing_refs,
+    fork_choices,
+    fork_key,
     noon,
-    service_level,
+    present,
+    resolve_fork_text,
 )
 from inventory.store.models import (
     ForkAlias,
@@ -65,134 +81,6 @@ from inventory.store.models import (
     Supplier,
     SupplierItem,
 )
-
-KINDS = ("history", "counts", "receipts", "catalog")
-
-# --- the columns of each kind ----------------------------------------------------------------
-
-
-def _qty(value: Any) -> int:
-    n = cells.integer(value)
-    if n <= 0:
-        raise ValueError(f"expected a whole number above 0, got {n}"
-                         + (" (a return or correction is a stock adjustment)" if n < 0 else ""))
-    return n
-
-
-def _hours(value: Any) -> int:
-    s = str(value).strip().lower()
-    for unit in ("hours", "hour", "hrs", "hr", "h"):
-        if s.endswith(unit):
-            s = s[: -len(unit)].strip()
-            break
-    try:
-        f = cells.nonneg_number(s if not isinstance(value, int | float) else value)
-    except ValueError:
-        raise ValueError(f"expected ride hours, a number 0 or more, got {str(value)!r}") from None
-    return int(f + 0.5)
-
-
-def _service(value: Any) -> str:
-    return service_level(cells.text(value))
-
-
-def _length(value: Any) -> float:
-    if isinstance(value, bool):
-        raise ValueError(f"expected a length like 32, 32 mm or 1.26 in, got {value!r}")
-    try:
-        mm = parse_length(value if isinstance(value, int | float) else str(value).strip())
-    except ValueError as exc:
-        raise ValueError(f"expected a length like 32, 32 mm or 1.26 in, got {str(value)!r} "
-                         f"({exc})") from None
-    return round(mm, 4)
-
-
-def _kind(value: Any) -> str:
-    return str(cells.choice(*PartKind)(value))
-
-
-C = Column
-DATE = ("date",)
-HISTORY = Schema("history", (
-    C("job", cells.code, aliases=(
-        "job ref", "job no", "job number", "job id", "job #", "ref", "reference", "ticket",
-        "ticket no", "work order", "wo", "wo number", "invoice", "invoice no", "job card",
-        "jobcard", "order")),
-    C("date", cells.text, required=True, aliases=(
-        "job date", "service date", "day", "completed", "date in", "date out", "booked",
-        "when", "done")),
-    C("fork", cells.text, required=True, aliases=(
-        "fork model", "model", "fork family", "fork type", "suspension", "product", "unit",
-        "bike fork", "fork name")),
-    C("service", _service, required=True, aliases=(
-        "service level", "level", "service type", "job type", "work done", "type", "work")),
-    C("hours", _hours, aliases=(
-        "ride hours", "hrs", "hours ridden", "hours since service", "riding hours", "hours run")),
-    C("fork_ref", cells.code, aliases=(
-        "fork ref", "fork serial", "serial", "serial no", "serial number", "customer fork",
-        "fork id")),
-    C("item", cells.code, aliases=(
-        "part", "part code", "part no", "part number", "sku", "component", "item code",
-        "article", "parts used")),
-    C("kit", cells.code, aliases=("kit code", "service kit", "kit used", "kit no")),
-    C("qty", _qty, aliases=(
-        "quantity", "units", "pcs", "pieces", "count", "number", "no used", "used", "amount")),
-))
-COUNTS = Schema("counts", (
-    C("date", cells.text, required=True, aliases=(
-        "count date", "counted on", "stocktake date", "stock take date", "day")),
-    C("part", cells.code, required=True, aliases=(
-        "part code", "part no", "sku", "item", "item code", "code")),
-    C("location", cells.code, default=ledger.DEFAULT_LOCATION, aliases=(
-        "loc", "bin", "store", "shelf", "place")),
-    C("counted", cells.nonneg_int, required=True, aliases=(
-        "count", "qty", "quantity", "on shelf", "shelf qty", "stock", "physical", "counted qty")),
-))
-RECEIPTS = Schema("receipts", (
-    C("date", cells.text, required=True, aliases=(
-        "received", "receipt date", "delivered", "delivery date", "date received", "day")),
-    C("supplier", cells.code, aliases=("vendor", "from", "supplier code")),
-    C("part", cells.code, required=True, aliases=(
-        "part code", "part no", "sku", "item", "item code", "code")),
-    C("qty", _qty, required=True, aliases=("quantity", "units", "received qty", "pcs")),
-    C("unit_cost", cells.money, aliases=(
-        "unit cost", "cost", "price", "unit price", "cost each", "each")),
-    C("lot", cells.code, aliases=("lot no", "lot number", "batch", "batch no")),
-    C("cured", cells.quarter, aliases=(
-        "cure date", "cure", "cure quarter", "vulcanised", "vulcanized")),
-    C("location", cells.code, default=ledger.DEFAULT_LOCATION, aliases=(
-        "loc", "bin", "store", "shelf")),
-    C("order_ref", cells.code, aliases=(
-        "order ref", "order", "po", "po number", "purchase order", "order no")),
-))
-CATALOG = Schema("catalog", (
-    C("code", cells.code, required=True, aliases=("part", "part code", "sku", "part no")),
-    C("kind", _kind, aliases=("type", "part kind")),
-    C("description", cells.text, aliases=("desc", "name")),
-    C("id_mm", _length, aliases=("id", "inner diameter", "inside diameter", "bore")),
-    C("od_mm", _length, aliases=("od", "outer diameter", "outside diameter")),
-    C("height_mm", _length, aliases=("height", "width", "axial width", "h")),
-    C("cs_mm", _length, aliases=("cs", "cross section", "cross-section", "section", "w")),
-    C("material", cells.text, aliases=("polymer", "compound")),
-    C("hardness", cells.positive_int, aliases=("shore a", "shore", "duro", "durometer")),
-    C("volume_cm3", cells.positive_number, aliases=("volume", "cc")),
-    C("unit", cells.choice("each", "ml"), aliases=("uom",)),
-    C("standard", cells.text, aliases=("designation",)),
-    C("notes", cells.text),
-))
-SCHEMAS = {"history": HISTORY, "counts": COUNTS, "receipts": RECEIPTS, "catalog": CATALOG}
-EXAMPLES: dict[str, dict[str, Any]] = {
-    "history": {"job": "J-1001", "date": "2026-03-14", "fork": "TR-34", "service": "lower_leg",
-                "hours": 55, "fork_ref": "F-0001", "item": "", "kit": "K-TR34-LL", "qty": 1},
-    "counts": {"date": "2026-03-31", "part": "OR-214", "location": "MAIN", "counted": 12},
-    "receipts": {"date": "2026-03-14", "supplier": "SUP-A", "part": "OR-214", "qty": 20,
-                 "unit_cost": "0.25", "lot": "L-2026-001", "cured": "2026Q1",
-                 "location": "MAIN", "order_ref": "PO-1001"},
-    "catalog": {"code": "OR-214", "kind": "o_ring", "description": "O-ring 24.99 x 3.53",
-                "id_mm": "24.99 mm", "cs_mm": "3.53", "material": "NBR", "hardness": 70,
-                "unit": "each"},
-}
-
 
 # --- settings and report ----------------------------------------------------------------
 
@@ -222,7 +110,7 @@ class ImportSettings:
     header_threshold: float = 85.0
     accept_score: float = 90.0
     accept_margin: float = 8.0
-    candidate_floor: float = 30.0
+    candidate_floor: float = 0.0
     candidates: int = 5
     user: str | None = None
 
@@ -335,7 +223,7 @@ class Unit:
     key: str
     rows: list[TypedRow]
     day: date | None
-    source: Source
+    source: Source | None
     payload: Any = None
     status: str = "new"  # new, applied, invalid, review
 
@@ -378,13 +266,28 @@ def run_import(session: Session, path: str | Path, settings: ImportSettings, *,
         raise InventoryError(f"unknown import kind {settings.kind!r}",
                              hint=f"use one of {', '.join(KINDS)}")
     path = Path(path)
-    if apply:
-        return _run(session, path, settings, apply=True, events=events)
-    sp = session.begin_nested()
+    with _bulk_work():
+        if apply:
+            return _run(session, path, settings, apply=True, events=events)
+        sp = session.begin_nested()
+        try:
+            return _run(session, path, settings, apply=False, events=events)
+        finally:
+            sp.rollback()
+
+
+@contextmanager
+def _bulk_work() -> Iterator[None]:
+    """Pause Python's cyclic garbage collector while a file is worked through: a 100,000-row
+    import allocates millions of small objects that live until the end, and the collector
+    would walk them again and again (a third of the time) to find no cycles."""
+    was = gc.isenabled()
+    gc.disable()
     try:
-        return _run(session, path, settings, apply=False, events=events)
+        yield
     finally:
-        sp.rollback()
+        if was:
+            gc.enable()
 
 
 def preview_import(session: Session, path: str | Path, settings: ImportSettings) -> ImportReport:
@@ -496,8 +399,9 @@ def _sheet_problems(sheet: SourceSheet, hmap: HeaderMap, rep: ImportReport) -> l
             f"{len(cached)} formula cell(s) read as their saved values (e.g. "
             f"{column_letter(f.column)}{f.row} ={f.formula})", kind="formula",
             source=Source(t.file, t.sheet), severity="warning"))
+    totals = {r for r, values in t.rows if is_totals_row(values)} if sheet.formulas else set()
     for f in sheet.formulas:
-        if not f.has_value and f.row > t.header_row and f.column in used:
+        if not f.has_value and f.row > t.header_row and f.column in used and f.row not in totals:
             out.append(Problem(
                 f"formula ={f.formula} has no saved value", kind="formula",
                 source=Source(t.file, t.sheet, f.row, f.column, used[f.column]),
@@ -507,8 +411,8 @@ def _sheet_problems(sheet: SourceSheet, hmap: HeaderMap, rep: ImportReport) -> l
 
 
 def _key(kind: str, *parts: Any) -> str:
-    text = "\x1f".join("" if p is None else str(p) for p in (kind, *parts))
-    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+    """A row key: the SHA-256 of the repr of plain values (text, numbers, None, tuples)."""
+    return hashlib.sha256(repr((kind, *parts)).encode("utf-8")).hexdigest()
 
 
 def _occurrence_keys(kind: str, contents: list[tuple]) -> list[str]:
@@ -524,11 +428,8 @@ def _occurrence_keys(kind: str, contents: list[tuple]) -> list[str]:
 
 
 def _mark_applied(session: Session, kind: str, units: list[Unit]) -> None:
-    keys = [u.key for u in units]
-    done: set[str] = set()
-    for i in range(0, len(keys), 500):
-        done.update(session.exec(select(ImportedRow.row_key).where(
-            ImportedRow.kind == kind, ImportedRow.row_key.in_(keys[i:i + 500]))))
+    done = present(session, ImportedRow.row_key, (u.key for u in units),
+                   ImportedRow.kind == kind)
     for u in units:
         if u.key in done:
             u.status = "applied"
@@ -536,6 +437,7 @@ def _mark_applied(session: Session, kind: str, units: list[Unit]) -> None:
 
 def _finish(session: Session, rep: ImportReport, units: list[Unit], apply: bool,
             batch: ImportBatch | None = None) -> ImportReport:
+    rep.problems.sort(key=_place)
     rep.units = len(units)
     rep.new = sum(u.status == "new" for u in units)
     rep.already = sum(u.status == "applied" for u in units)
@@ -543,14 +445,25 @@ def _finish(session: Session, rep: ImportReport, units: list[Unit], apply: bool,
     rep.review = sum(u.status == "review" for u in units)
     if apply:
         if not rep.ok:
-            raise rep.error()
+            err = rep.error()
+            err.report = rep  # type: ignore[attr-defined]  # the CLI shows it with the errors
+            raise err
         if batch is not None:
             rows = [dict(kind=rep.kind, row_key=u.key, batch_id=batch.id)
                     for u in units if u.status == "new"]
-            session.execute(insert(ImportedRow.__table__), rows)
-            session.flush()
+            bulk_insert(session, ImportedRow.__table__, rows)
+            if len(rows) > 1000:
+                analyze(session, "imported_row")
             rep.applied = True
     return rep
+
+
+def _place(p: Problem) -> tuple:
+    """File-level problems first, then by row and column."""
+    s = p.source
+    if s is None:
+        return (0, "", 0, 0)
+    return (1, s.file or "", s.row or 0, s.column or 0)
 
 
 def _suggest_hint(code: str, choices: list[str]) -> str | None:
@@ -559,52 +472,6 @@ def _suggest_hint(code: str, choices: list[str]) -> str | None:
 
 
 # --- history ------------------------------------------------------------------------------
-
-
-def fork_key(text: str) -> str:
-    """The form free fork texts are compared and remembered in: lower-case words."""
-    from inventory.sheets.fuzzy import words
-
-    return " ".join(words(text).split())[:200]
-
-
-def fork_choices(session: Session) -> tuple[list[Choice], dict[str, str], dict[str, str]]:
-    """The fork families as choices for :func:`rank`, remembered aliases (text -> code) and
-    the codes by their letters-and-digits form."""
-    aliases: dict[int, list[str]] = {}
-    remembered: dict[str, str] = {}
-    fams = list(session.exec(select(ForkFamily).order_by(ForkFamily.code)))
-    by_id = {f.id: f.code for f in fams}
-    for text, fid in session.exec(select(ForkAlias.text, ForkAlias.fork_family_id)):
-        aliases.setdefault(fid, []).append(text)
-        remembered[fork_key(text)] = by_id[fid]
-    choices = [Choice(f.code, (f.code, f.description, *aliases.get(f.id, ())), f.description,
-                      ((f.stanchion_mm, f.stanchion_mm),
-                       (float(f.travel_min_mm), float(f.travel_max_mm))))
-               for f in fams]
-    codes = {normalise(f.code): f.code for f in fams}
-    return choices, remembered, codes
-
-
-def resolve_fork_text(text: str, choices: Sequence[Choice], remembered: dict[str, str],
-                      codes: dict[str, str], *, accept_score: float = 90.0,
-                      accept_margin: float = 8.0, floor: float = 30.0, limit: int = 5
-                      ) -> tuple[str | None, str, float, list[Candidate]]:
-    """(code or None, how, score, candidates) for one free fork text: an exact code, a
-    remembered alias, or a rapidfuzz ranking accepted when the best scores at least
-    ``accept_score`` and leads the next family by ``accept_margin``."""
-    code = codes.get(normalise(text))
-    if code:
-        return code, "code", 100.0, []
-    code = remembered.get(fork_key(text))
-    if code:
-        return code, "alias", 100.0, []
-    cands = rank(text, choices, limit=limit, floor=floor)
-    if cands:
-        lead = cands[0].score - (cands[1].score if len(cands) > 1 else 0.0)
-        if cands[0].score >= accept_score and lead >= accept_margin:
-            return cands[0].code, "fuzzy", cands[0].score, cands
-    return None, "review", cands[0].score if cands else 0.0, cands
 
 
 def resolve_forks(ctx: _Context, texts: dict[str, tuple[str, Source, int]]
@@ -631,15 +498,25 @@ def resolve_forks(ctx: _Context, texts: dict[str, tuple[str, Source, int]]
     if any(d.how == "review" for d in ctx.report.forks):
         target = s.review or ctx.path.with_name(ctx.path.stem + ".review.xlsx")
         asked = [d for d in ctx.report.forks if d.how in ("review", "resolution")]
-        write_review(target, [ReviewItem(d.text, d.rows, _cell(d.first), tuple(d.candidates),
-                                         d.code if d.how == "resolution" else None)
-                              for d in asked],
-                     [(c.code, c.label) for c in choices])
-        ctx.report.review_path = str(target)
+        try:
+            write_review(target, [ReviewItem(d.text, d.rows, _cell(d.first),
+                                             tuple(d.candidates),
+                                             d.code if d.how == "resolution" else None)
+                                  for d in asked],
+                         [(c.code, c.label) for c in choices])
+            ctx.report.review_path = str(target)
+        except OSError as exc:
+            ctx.report.problems.append(Problem(
+                f"cannot write the review workbook {target} ({exc.strerror or exc})",
+                kind="usage", hint="choose where it goes with --review FILE.xlsx"))
     return out
 
 
-def _build_history(ctx: _Context, typed: TypedRows) -> list[Unit]:
+JOB_FIELDS = ("date", "fork", "service", "hours", "fork_ref")  # the same on every line
+
+
+def _group_jobs(ctx: _Context, typed: TypedRows) -> dict[str, list[TypedRow]]:
+    """Rows by job reference (file order); without a job column every row is a job."""
     has_ref = "job" in ctx.hmap.matches
     groups: dict[str, list[TypedRow]] = {}
     anon = 0
@@ -647,89 +524,120 @@ def _build_history(ctx: _Context, typed: TypedRows) -> list[Unit]:
         ref = row.values.get("job") if has_ref else None
         if not ref:
             if has_ref and row.ok:
-                ctx.problem(row.row, "job", "job is required but empty")
+                ctx.problem(row.row, "job", "job is required but empty",
+                            hint="give every row its job reference")
                 row.ok = False
             anon += 1
             ref = f"\x00{anon}"
         groups.setdefault(str(ref), []).append(row)
+    return groups
+
+
+_JOB_KEY = itemgetter(*JOB_FIELDS)
+
+
+def _consistent(ctx: _Context, ref: str, rows: list[TypedRow]) -> bool:
+    """The job's date, fork, service, hours and fork reference agree on all its lines."""
+    first = _JOB_KEY(rows[0].values)
+    if all(_JOB_KEY(r.values) == first for r in rows):
+        return True
+    ok = True
+    for name in JOB_FIELDS:
+        base, base_row = None, None
+        for r in rows:
+            val = r.values.get(name)
+            if val is None:
+                continue
+            if base is None:
+                base, base_row = val, r.row
+            elif val != base:
+                ctx.problem(r.row, name, f"job {ref}: {name} {_show(val)} differs from "
+                            f"{_show(base)} on row {base_row}", kind="conflict",
+                            hint="one job has one date, fork and service: check the job "
+                                 "references")
+                ok = False
+    return ok
+
+
+def _job_items(ctx: _Context, rows: list[TypedRow], unknown: dict[str, str | None]
+               ) -> tuple[list[JobItem], bool]:
+    """What the job's lines used, with unknown codes and non-kits in the kit column
+    reported at their cells."""
+    items: list[JobItem] = []
+    ok = True
+    part_of = ctx.index.part
+    item_col = "item" if "item" in ctx.hmap.matches else "kit"
+    for r in rows:
+        v = r.values
+        item, kit, qty = v.get("item"), v.get("kit"), v.get("qty")
+        if not item and not kit:
+            if r.ok:
+                ctx.problem(r.row, item_col, "no part or kit in this row",
+                            hint="each row names the part or kit the job used")
+            ok = False
+            continue
+        for name, code, n in (("item", item, qty or 1), ("kit", kit, 1 if item else qty or 1)):
+            if not code:
+                continue
+            part = part_of(code)
+            if part is None:
+                if code not in unknown:
+                    unknown[code] = _suggest_hint(code, list(ctx.index.parts))
+                close = unknown[code]
+                ctx.problem(r.row, name, f"unknown part or kit {code!r}"
+                            + (f" ({close})" if close else ""), kind="unknown", hint=CODE_HINT)
+                ok = False
+                continue
+            if name == "kit" and part.kind != PartKind.KIT:
+                ctx.problem(r.row, name, f"{code!r} is a {part.kind}, not a kit",
+                            hint="put loose parts in the item column")
+                ok = False
+                continue
+            items.append(JobItem(part.code, n))
+    return items, ok and all(r.ok for r in rows)
+
+
+def _build_history(ctx: _Context, typed: TypedRows) -> list[Unit]:
+    groups = _group_jobs(ctx, typed)
     fork_texts: dict[str, tuple[str, Source, int]] = {}
-    part_codes = list(ctx.index.parts)
-    unknown_hint: dict[str, str | None] = {}
+    keys_of: dict[str, str] = {}
+    unknown: dict[str, str | None] = {}
     units: list[Unit] = []
-    raw: list[tuple[str, list[TypedRow], tuple]] = []
+    contents: list[tuple] = []
     for ref, rows in groups.items():
         first = rows[0]
         v0 = first.values
-        ok = all(r.ok for r in rows)
-        for name in ("date", "fork", "service", "hours", "fork_ref"):
-            base = next((r.values.get(name) for r in rows if r.values.get(name) is not None),
-                        None)
-            for r in rows:
-                val = r.values.get(name)
-                if val is not None and base is not None and val != base:
-                    ctx.problem(r.row, name, f"job {ref}: {name} {_show(val)} differs from "
-                                f"{_show(base)} on row {first.row}", kind="conflict")
-                    ok = False
-        items: list[JobItem] = []
-        for r in rows:
-            item, kit, qty = r.values.get("item"), r.values.get("kit"), r.values.get("qty")
-            if not item and not kit:
-                if r.ok:
-                    ctx.problem(r.row, "item" if "item" in ctx.hmap.matches else "kit",
-                                "no part or kit in this row")
-                ok = False
-                continue
-            if item:
-                items.append(JobItem(item, qty or 1))
-            if kit:
-                items.append(JobItem(kit, 1 if item else (qty or 1)))
-            for name, code in (("item", item), ("kit", kit)):
-                if not code:
-                    continue
-                part = ctx.index.part(code)
-                if part is None:
-                    if code not in unknown_hint:
-                        unknown_hint[code] = _suggest_hint(code, part_codes)
-                    ctx.problem(r.row, name, f"unknown part or kit {code!r}", kind="unknown",
-                                hint=unknown_hint[code] or "add it to the catalog first "
-                                "(inventory import catalog)")
-                    ok = False
-                elif name == "kit" and part.kind != PartKind.KIT:
-                    ctx.problem(r.row, name, f"{code!r} is a {part.kind}, not a kit",
-                                hint="put loose parts in the item column")
-                    ok = False
-        fork_text = next((r.values["fork"] for r in rows if r.values.get("fork")), None)
+        ok = _consistent(ctx, ref, rows) if len(rows) > 1 else first.ok
+        items, items_ok = _job_items(ctx, rows, unknown)
+        ok = ok and items_ok and bool(items)
+        fork_text = v0.get("fork") or next((r.values["fork"] for r in rows
+                                            if r.values.get("fork")), None)
+        fk = ""
         if fork_text:
-            k = fork_key(fork_text)
-            if k not in fork_texts:
-                fork_texts[k] = (fork_text, ctx.src(first.row, "fork"), 0)
-            t, s, n = fork_texts[k]
-            fork_texts[k] = (t, s, n + 1)
+            fk = keys_of.get(fork_text) or keys_of.setdefault(fork_text, fork_key(fork_text))
+            t, src, n = fork_texts.get(fk) or (fork_text, ctx.src(first.row, "fork"), 0)
+            fork_texts[fk] = (t, src, n + 1)
         day = v0.get("date") or next((r.values["date"] for r in rows if r.values.get("date")),
                                      None)
-        content = (None if ref.startswith("\x00") else ref, day,
-                   fork_key(fork_text or ""), v0.get("service"), v0.get("hours"),
-                   v0.get("fork_ref"),
-                   tuple(sorted((ctx.index.part(i.code).code if ctx.index.part(i.code) else i.code,
-                                 i.qty) for i in items)))
-        raw.append((ref, rows, content))
-        units.append(Unit("", rows, day, ctx.src(first.row), payload=(
-            ref, day, fork_text, v0.get("service"), tuple(items), v0.get("hours"),
-            v0.get("fork_ref")), status="new" if ok and items else "invalid"))
-    keys = _occurrence_keys("history", [c for _, _, c in raw])
-    for u, k, (ref, _, _) in zip(units, keys, raw, strict=True):
+        service, hours, fork_ref = v0.get("service"), v0.get("hours"), v0.get("fork_ref")
+        anonymous = ref.startswith("\x00")
+        contents.append((None if anonymous else ref, day.isoformat() if day else None, fk,
+                         str(service) if service else None, hours, fork_ref,
+                         tuple(sorted((i.code, i.qty) for i in items))))
+        units.append(Unit("", rows, day, None, payload=(
+            None if anonymous else ref, day, fk, service, tuple(items), hours, fork_ref),
+            status="new" if ok else "invalid"))
+    for u, k in zip(units, _occurrence_keys("history", contents), strict=True):
         u.key = k
-        if ref.startswith("\x00"):
-            u.payload = (f"IMP-{k[:12].upper()}", *u.payload[1:])
     decisions = resolve_forks(ctx, fork_texts) if fork_texts else {}
     for u in units:
-        ref, day, fork_text, service, items, hours, fork_ref = u.payload
-        d = decisions.get(fork_key(fork_text or ""))
+        ref, day, fk, service, items, hours, fork_ref = u.payload
+        d = decisions.get(fk)
         if u.status == "new" and d is not None and d.code is None:
             u.status = "review"
         code = d.code if d is not None else None
-        u.payload = JobSpec(ref, day, code or "", service, items, hours, fork_ref) if (
-            day and service) else None
+        u.payload = JobSpec(ref or f"IMP-{u.key[:12].upper()}", day, code or "", service, items,
+                            hours, fork_ref) if (day and service) else None
         if u.payload is None and u.status == "new":
             u.status = "invalid"
     return units
@@ -858,9 +766,10 @@ def _check_codes(ctx: _Context, units: list[Unit], name: str, valid: dict[str, s
         found = valid.get(code) or valid.get(str(code).upper())
         if found is None:
             if code not in hints:
-                hints[code] = _suggest_hint(code, list(valid.values()))
-            ctx.problem(u.rows[0].row, name, f"unknown {what} {code!r}", kind="unknown",
-                        hint=hints[code] or hint)
+                hints[code] = _suggest_hint(code, list(dict.fromkeys(valid.values())))
+            close = hints[code]
+            ctx.problem(u.rows[0].row, name, f"unknown {what} {code!r}"
+                        + (f" ({close})" if close else ""), kind="unknown", hint=hint)
             u.status = "invalid"
         else:
             u.payload[name] = found
@@ -878,7 +787,7 @@ def _build_counts(ctx: _Context, typed: TypedRows) -> list[Unit]:
     units = _row_units(ctx, typed, ("date", "part", "location", "counted"))
     parts = {c: p.code for c, p in ctx.index.parts.items()} | {
         c: p.code for c, p in ctx.index.parts_upper.items()}
-    _check_codes(ctx, units, "part", parts, "part", "add it to the catalog first")
+    _check_codes(ctx, units, "part", parts, "part", CODE_HINT)
     _check_codes(ctx, units, "location", _codes(ctx.session, Location), "location",
                  "locations are set in the catalog (locations sheet)")
     return units
@@ -889,7 +798,7 @@ def _build_receipts(ctx: _Context, typed: TypedRows) -> list[Unit]:
                                     "cured", "location", "order_ref"))
     parts = {c: p.code for c, p in ctx.index.parts.items()} | {
         c: p.code for c, p in ctx.index.parts_upper.items()}
-    _check_codes(ctx, units, "part", parts, "part", "add it to the catalog first")
+    _check_codes(ctx, units, "part", parts, "part", CODE_HINT)
     _check_codes(ctx, units, "location", _codes(ctx.session, Location), "location",
                  "locations are set in the catalog (locations sheet)")
     _check_codes(ctx, units, "supplier", _codes(ctx.session, Supplier), "supplier",

@@ -23,14 +23,20 @@ from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 from datetime import UTC, date, datetime, time
 from decimal import Decimal
+from typing import Any
+from zoneinfo import ZoneInfo
 
-from sqlalchemy import bindparam, func, insert, update
+from sqlalchemy import DateTime, func
 from sqlmodel import Session, select
 
-from inventory.domain.model import PartKind, ServiceLevel
+from inventory.domain.model import PartKind
 from inventory.errors import InventoryError, Problem
+from inventory.sheets.columns import normalise
+from inventory.sheets.fuzzy import Candidate, Choice, rank, words
+from inventory.sheets.kinds import service_level  # noqa: F401 (part of this module's API)
 from inventory.store import ledger, lookup
 from inventory.store.models import (
+    ForkAlias,
     ForkFamily,
     JobLine,
     Kit,
@@ -67,33 +73,6 @@ def noon(day: date) -> datetime:
     """Midday UTC of ``day``: the time a job's movements are booked at, so each lands in its
     own day and month whatever the time zone."""
     return datetime.combine(day, time(12, 0), tzinfo=UTC)
-
-
-def service_level(text: str) -> str:
-    """A service level code from what people type: ``lower leg``, ``air can``, ``damper``."""
-    s = " ".join(str(text or "").lower().replace("_", " ").replace("-", " ").split())
-    for level, words in SERVICE_WORDS.items():
-        if s in words:
-            return level
-    for level, stems in SERVICE_STEMS.items():
-        if any(stem in s for stem in stems):
-            return level
-    raise ValueError(f"expected a service level ({', '.join(ServiceLevel)}), got {text!r}")
-
-
-SERVICE_WORDS: dict[str, set[str]] = {
-    ServiceLevel.LOWER_LEG: {"lower leg", "lower legs", "lowers", "lower", "ll", "lls",
-                             "lower leg service", "50h", "50 h", "50 hour", "50 hours", "basic"},
-    ServiceLevel.AIR_SPRING: {"air spring", "air", "air can", "air shaft", "as", "air service",
-                              "air spring service", "spring"},
-    ServiceLevel.DAMPER: {"damper", "damper service", "cartridge", "dmp", "full", "full service",
-                          "200h", "200 h", "200 hour", "200 hours"},
-}
-SERVICE_STEMS: dict[str, tuple[str, ...]] = {
-    ServiceLevel.LOWER_LEG: ("lower",),
-    ServiceLevel.AIR_SPRING: ("air",),
-    ServiceLevel.DAMPER: ("damp", "cartridge"),
-}
 
 
 def bill_of_materials(session: Session, kit_part: Part) -> list[tuple[Part, int]]:
@@ -154,7 +133,124 @@ def next_ref(session: Session, day: date) -> str:
             return ref
 
 
+# --- which fork family a free text names -----------------------------------------------
+
+
+def fork_key(text: str) -> str:
+    """The form free fork texts are compared and remembered in: lower-case words."""
+    return " ".join(words(text).split())[:200]
+
+
+def fork_choices(session: Session) -> tuple[list[Choice], dict[str, str], dict[str, str]]:
+    """The fork families as choices for :func:`rank`, remembered aliases (text -> code) and
+    the codes by their letters-and-digits form."""
+    aliases: dict[int, list[str]] = {}
+    remembered: dict[str, str] = {}
+    fams = list(session.exec(select(ForkFamily).order_by(ForkFamily.code)))
+    by_id = {f.id: f.code for f in fams}
+    for text, fid in session.exec(select(ForkAlias.text, ForkAlias.fork_family_id)):
+        aliases.setdefault(fid, []).append(text)
+        remembered[fork_key(text)] = by_id[fid]
+    choices = [Choice(f.code, (f.description, *aliases.get(f.id, ())), f.description,
+                      ((f.stanchion_mm, f.stanchion_mm),
+                       (float(f.travel_min_mm), float(f.travel_max_mm))),
+                      (f.year_from, f.year_to or 9999))
+               for f in fams]
+    codes = {normalise(f.code): f.code for f in fams}
+    return choices, remembered, codes
+
+
+def resolve_fork_text(text: str, choices: Sequence[Choice], remembered: dict[str, str],
+                      codes: dict[str, str], *, accept_score: float = 90.0,
+                      accept_margin: float = 8.0, floor: float = 0.0, limit: int = 5
+                      ) -> tuple[str | None, str, float, list[Candidate]]:
+    """(code or None, how, score, candidates) for one free fork text: an exact code, a
+    remembered alias, or a rapidfuzz ranking accepted when the best scores at least
+    ``accept_score`` and leads the next family by ``accept_margin``."""
+    code = codes.get(normalise(text))
+    if code:
+        return code, "code", 100.0, []
+    code = remembered.get(fork_key(text))
+    if code:
+        return code, "alias", 100.0, []
+    cands = rank(text, choices, limit=limit, floor=floor)
+    if cands:
+        lead = cands[0].score - (cands[1].score if len(cands) > 1 else 0.0)
+        if cands[0].score >= accept_score and lead >= accept_margin:
+            return cands[0].code, "fuzzy", cands[0].score, cands
+    return None, "review", cands[0].score if cands else 0.0, cands
+
+
 # --- the bulk path -------------------------------------------------------------------------
+
+
+def bulk_insert(session: Session, table, rows: Sequence[dict], *, ids: bool = False
+                ) -> list[int]:
+    """INSERT many rows through the driver's executemany, in the caller's transaction.
+
+    SQLAlchemy's own executemany builds parameters row by row in Python, which costs more
+    than the database's work on 100,000 rows. Values still go through each column's type
+    (the bind processors SQLAlchemy would apply), so they are stored exactly as the ORM
+    stores them. With ``ids=True`` the primary keys are reserved first (from the sequence on
+    PostgreSQL; after the largest id on SQLite, whose write transaction is exclusive) and
+    returned in row order.
+    """
+    if not rows:
+        return []
+    conn = session.connection()
+    dialect = conn.dialect
+    names = list(rows[0])
+    new_ids: list[int] = []
+    if ids:
+        new_ids = _reserve_ids(session, table, len(rows))
+        names = ["id", *names]
+    quote = dialect.identifier_preparer.quote
+    procs = [table.c[n].type.dialect_impl(dialect).bind_processor(dialect) for n in names]
+    columns: list[Any] = [new_ids] if ids else []
+    columns += [[row[n] for row in rows] for n in names[1 if ids else 0:]]
+    if dialect.name == "postgresql":
+        procs = [_pg_timestamp(conn) if isinstance(table.c[n].type, DateTime)
+                 and not table.c[n].type.timezone else p
+                 for n, p in zip(names, procs, strict=True)]
+    for j, proc in enumerate(procs):
+        if proc is None:
+            continue
+        done: dict[Any, Any] = {}  # values repeat (a day, a cost): convert each once
+        columns[j] = [None if v is None else done[v] if v in done else
+                      done.setdefault(v, proc(v)) for v in columns[j]]
+    cols = ", ".join(quote(n) for n in names)
+    if dialect.name == "postgresql":
+        # COPY: the fastest way in; the same checks (constraints, keys) apply as to INSERT
+        raw = conn.connection.driver_connection
+        with raw.cursor() as cur, cur.copy(f"COPY {quote(table.name)} ({cols}) FROM STDIN") as cp:
+            for row in zip(*columns, strict=True):
+                cp.write_row(row)
+        return new_ids
+    mark = "?" if dialect.paramstyle == "qmark" else "%s"
+    sql = f"INSERT INTO {quote(table.name)} ({cols}) VALUES ({', '.join([mark] * len(names))})"
+    conn.exec_driver_sql(sql, list(zip(*columns, strict=True)))
+    return new_ids
+
+
+def _pg_timestamp(conn):
+    """What PostgreSQL stores for an aware date-time in a ``timestamp`` (without time zone)
+    column on INSERT: the wall time in the session's time zone. COPY would drop the offset
+    instead, so convert. (``timestamptz`` columns take the aware value as it is.)"""
+    zone = ZoneInfo(conn.exec_driver_sql("SHOW TimeZone").scalar())
+
+    def convert(v: datetime) -> datetime:
+        return v.astimezone(zone).replace(tzinfo=None) if v.tzinfo is not None else v
+    return convert
+
+
+def _reserve_ids(session: Session, table, n: int) -> list[int]:
+    conn = session.connection()
+    if conn.dialect.name == "postgresql":
+        return [r[0] for r in conn.exec_driver_sql(
+            f"SELECT nextval(pg_get_serial_sequence('{table.name}', 'id')) "
+            f"FROM generate_series(1, {int(n)})")]
+    top = conn.exec_driver_sql(f"SELECT coalesce(max(id), 0) FROM {table.name}").scalar()
+    return list(range(top + 1, top + 1 + n))
 
 
 @dataclass(frozen=True, slots=True)
@@ -283,13 +379,13 @@ class StockBook:
         """Write the movements and balance changes booked so far."""
         if not self.write or not self.pending:
             return
-        self.session.execute(insert(Movement.__table__), self.pending)
-        bal = StockBalance.__table__
-        self.session.execute(
-            update(bal).where(bal.c.id == bindparam("bid"))
-            .values(qty=bal.c.qty + bindparam("delta")),
-            [{"bid": b, "delta": d} for b, d in self.deltas.items() if d],
-        )
+        bulk_insert(self.session, Movement.__table__, self.pending)
+        conn = self.session.connection()
+        mark = "?" if conn.dialect.paramstyle == "qmark" else "%s"
+        changes = [(d, b) for b, d in self.deltas.items() if d]
+        if changes:  # the database's check refuses a balance below zero
+            conn.exec_driver_sql(
+                f"UPDATE stock_balance SET qty = qty + {mark} WHERE id = {mark}", changes)
         self.pending = []
         self.deltas = {}
 
@@ -361,25 +457,42 @@ class JobWriter:
         if not self.jobs:
             return 0
         n = len(self.jobs)
-        ids = list(self.session.execute(
-            insert(ServiceJob).returning(ServiceJob.id, sort_by_parameter_order=True),
-            self.jobs).scalars())
+        ids = bulk_insert(self.session, ServiceJob.__table__, self.jobs, ids=True)
         rows = [dict(job_id=jid, part_id=pid, qty=q)
                 for jid, lines in zip(ids, self.lines, strict=True) for pid, q in lines]
-        if rows:
-            self.session.execute(insert(JobLine.__table__), rows)
+        bulk_insert(self.session, JobLine.__table__, rows)
         self.jobs, self.lines = [], []
+        if n > 1000:
+            analyze(self.session, "service_job", "job_line", "movement", "stock_balance")
         return n
 
 
-def existing_refs(session: Session, refs: Iterable[str]) -> set[str]:
-    """Which of ``refs`` are already recorded (asked in chunks, not one by one)."""
-    refs = list(dict.fromkeys(refs))
-    found: set[str] = set()
-    for i in range(0, len(refs), 500):
-        chunk = refs[i:i + 500]
-        found.update(session.exec(select(ServiceJob.ref).where(ServiceJob.ref.in_(chunk))))
+def present(session: Session, column, values: Iterable[Any], *where: Any,
+            all_above: int = 2000) -> set:
+    """Which of ``values`` the column holds (rows also matching ``where``). Few values are
+    asked in chunks of 500; more than ``all_above`` read the column once and compare here,
+    which stays linear whatever plan the database picks for long IN lists."""
+    wanted = list(dict.fromkeys(values))
+    if not wanted:
+        return set()
+    if len(wanted) > all_above:
+        return set(session.exec(select(column).where(*where))) & set(wanted)
+    found: set = set()
+    for i in range(0, len(wanted), 500):
+        found.update(session.exec(select(column).where(*where, column.in_(wanted[i:i + 500]))))
     return found
+
+
+def existing_refs(session: Session, refs: Iterable[str]) -> set[str]:
+    """Which of ``refs`` are already recorded."""
+    return present(session, ServiceJob.ref, refs)
+
+
+def analyze(session: Session, *tables: str) -> None:
+    """Refresh PostgreSQL's planner statistics after a bulk write, so the next queries on
+    these tables (a re-run of the same import) are planned for their real size."""
+    if session.get_bind().dialect.name == "postgresql" and tables:
+        session.connection().exec_driver_sql(f"ANALYZE {', '.join(tables)}")
 
 
 def record_jobs(session: Session, jobs: Sequence[JobSpec], *, batch_id: int | None = None,

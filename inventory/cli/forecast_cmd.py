@@ -1,0 +1,330 @@
+"""``inventory forecast`` and ``inventory backtest``; :func:`forecast_tour` shows the demo
+shop's next season.
+
+Thin commands: parse, call one library function (:func:`inventory.app.forecasting.
+forecast_items`, :func:`inventory.backtest.run_backtest`), render a table or ``--json``,
+write the workbook and charts.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Iterator
+from contextlib import contextmanager
+from datetime import date
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import typer
+from rich.console import Console
+from rich.progress import BarColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
+from rich.table import Table
+
+from inventory.cli.common import console, err_console, print_json, print_table, reading, say
+from inventory.errors import InventoryError, Problem
+
+if TYPE_CHECKING:  # the forecaster loads scipy: imported when a command runs, not at start-up
+    from inventory.app.forecasting import By, ForecastReport
+
+BY_CHOICES = ("part", "kit", "family", "item")
+ALLOCATIONS = ("uniform", "part", "marginal")
+FORECAST_STEPS = 6
+
+
+# -- progress ---------------------------------------------------------------------------------
+
+
+@contextmanager
+def _progress(total: int | None, label: str, *, quiet: bool) -> Iterator[Any]:
+    """A transient progress bar on stderr; silent for ``--json`` or when not a terminal."""
+    bar = Progress(SpinnerColumn(), TextColumn("{task.description}"), BarColumn(),
+                   TimeElapsedColumn(), console=err_console, transient=True,
+                   disable=quiet or not err_console.is_terminal)
+    with bar:
+        task = bar.add_task(label, total=total)
+
+        def step(msg: str) -> None:
+            bar.update(task, description=msg, advance=1)
+
+        yield step
+
+
+# -- forecast ------------------------------------------------------------------------------------
+
+
+def _day(text: str | None) -> date:
+    if not text:
+        return date.today()
+    try:
+        return date.fromisoformat(text)
+    except ValueError:
+        raise InventoryError(f"bad date {text!r}: expected a date like 2026-12-02") from None
+
+
+def _label(report: ForecastReport, d: date) -> str:
+    return d.strftime("%b %y") if report.freq == "M" else d.strftime("%d %b")
+
+
+def _fmt(x: float) -> str:
+    return f"{x:.1f}" if x < 100 else f"{x:.0f}"
+
+
+def render_table(report: ForecastReport, rows: int, codes: tuple[str, ...] = ()) -> None:
+    """The readable table: the top ``rows`` series by usage value (and any asked)."""
+    ranked = sorted(report.series, key=lambda s: (-s.usage_value, s.code))
+    shown = ranked[:rows] + [s for s in report.chosen(0, codes) if s not in ranked[:rows]]
+    unit = "month" if report.freq == "M" else "week"
+    periods = [_label(report, d) for d in report.forecast_periods]
+    q_lo, q_hi = (round(100 * q) for q in report.quantiles)
+    cover = f"{report.cover_periods:.3g} {unit}s"
+    header = ["code", "class", "method", *periods, f"{cover} mean", f"{q_lo}-{q_hi} %"]
+    body = [[s.code, s.cls, s.label, *[_fmt(x) for x in s.forecast], _fmt(s.cover_mean),
+             f"{s.cover_low}-{s.cover_high}"] for s in shown]
+    left = len(report.series) - len(shown)
+    caption = (f"{len(shown)} of {len(report.series)} series by usage value"
+               + (f"; {left} more in the workbook or --json" if left > 0 else ""))
+    table = Table(title=f"Forecast by {report.by}, units per {unit}, from "
+                        f"{report.today.isoformat()}", caption=caption, header_style="bold")
+    for i, h in enumerate(header):
+        table.add_column(h, justify="left" if i < 3 else "right", no_wrap=i in (0, 2))
+    for row in body:
+        table.add_row(*[str(v) for v in row])
+    # a pipe or file gets the whole table; a terminal gets its own width
+    out = console if console.is_terminal else Console(width=200, highlight=False)
+    out.print(table)
+    say(f"Season: {report.season.reason}")
+    ibi = report.installed_base
+    if ibi is not None:
+        say(f"Installed base: {ibi.reason}; {ibi.forks} forks, return probability "
+            f"{ibi.return_probability:.2f}, median {ibi.hours_per_week:.1f} ride h/week")
+    if report.class_choice:
+        say("Methods per class: " + ", ".join(f"{c} {m}" for c, m in
+                                             sorted(report.class_choice.items())))
+    else:
+        say("Methods: too little history to choose by backtest; one method for all")
+
+
+def forecast(
+    ctx: typer.Context,
+    horizon: int = typer.Option(6, "--horizon", min=1, max=36,
+                                help="Periods to forecast (months, or weeks with --weekly)."),
+    by: str = typer.Option("part", "--by", help="part (kits exploded into their seals), kit, "
+                                                "family (jobs per fork family) or item "
+                                                "(stock items as they leave the shelf)."),
+    weekly: bool = typer.Option(False, "--weekly", help="Weekly periods (ISO weeks)."),
+    xlsx: Path = typer.Option(None, "--xlsx", help="Workbook to write (default "
+                                                   "reports/forecast-BY-YYYY-MM.xlsx; with "
+                                                   "--json only when given)."),
+    charts: Path = typer.Option(None, "--charts", help="Folder for the PNG charts (default "
+                                                       "reports; with --json only when "
+                                                       "given)."),
+    top: int = typer.Option(6, "--top", min=0, help="Chart the top N series by usage value."),
+    parts: list[str] = typer.Option([], "--part", help="Also chart (and list) this series; "
+                                                       "repeatable."),
+    rows: int = typer.Option(20, "--rows", min=1, help="Series in the table."),
+    lead_time: float = typer.Option(1.0, "--lead-time", min=0.0,
+                                    help="Lead time in months, for the range over the cover."),
+    review: float = typer.Option(1.0, "--review", min=0.01, help="Review period in months."),
+    as_json: bool = typer.Option(False, "--json", help="Print every series as JSON."),
+    today: str = typer.Option(None, "--today", help="Forecast from this day (default today)."),
+) -> None:
+    """Forecast demand per part, kit or fork family, with a range, a workbook and charts."""
+    from inventory.app.forecasting import forecast_items
+
+    if by not in BY_CHOICES:
+        raise InventoryError(f"--by must be one of {', '.join(BY_CHOICES)}, got {by!r}")
+    day = _day(today)
+    by_: By = by  # type: ignore[assignment]
+    with _progress(FORECAST_STEPS + 2, "forecast", quiet=as_json) as step, reading(ctx) as s:
+        report = forecast_items(s, today=day, horizon=horizon, by=by_,
+                                freq="W" if weekly else "M", lead_time_months=lead_time,
+                                review_months=review, progress=step)
+        chosen = report.chosen(top, tuple(parts))
+        written = write_outputs(report, chosen, xlsx=xlsx, charts=charts,
+                                defaults=not as_json, step=step)
+    if as_json:
+        data = report.to_dict()
+        data["files"] = [str(p) for p in written]
+        print_json(data)
+        return
+    render_table(report, rows, tuple(parts))
+    for p in written:
+        say(f"wrote {p}")
+
+
+def write_outputs(report: ForecastReport, chosen: list, *, xlsx: Path | None,
+                  charts: Path | None, defaults: bool, reports_dir: str | Path = "reports",
+                  step: Any = None) -> list[Path]:
+    """Write the workbook and the PNG charts (to the defaults under ``reports_dir`` unless
+    given, when ``defaults``); returns the files written."""
+    from inventory.reporting.forecast_book import write_forecast_book
+    from inventory.reporting.forecast_charts import write_charts
+
+    stamp = report.forecast_periods[0].strftime("%Y-%m") if report.forecast_periods else "x"
+    if xlsx is None and defaults:
+        xlsx = Path(reports_dir) / f"forecast-{report.by}-{stamp}.xlsx"
+    if charts is None and defaults:
+        charts = Path(reports_dir)
+    written: list[Path] = []
+    if xlsx is not None:
+        if step:
+            step("writing the workbook")
+        written.append(write_forecast_book(xlsx, report, chosen))
+    if charts is not None and chosen:
+        if step:
+            step("drawing the charts")
+        written += write_charts(charts, report, chosen)
+    return written
+
+
+# -- backtest ------------------------------------------------------------------------------------
+
+
+def _read_csv(path: Path):
+    from inventory.backtest import DemandFileError, read_demand_csv
+
+    if not path.exists():
+        raise InventoryError(f"no file {path}", kind="unknown",
+                             hint="give a wide CSV (month + one column per part) or a long "
+                                  "one (date, part, qty)")
+    if path.is_dir():
+        raise InventoryError(f"{path} is a folder, not a CSV file")
+    try:
+        return read_demand_csv(path)
+    except DemandFileError as exc:
+        raise InventoryError([Problem(line) for line in str(exc).splitlines()]) from None
+    except UnicodeDecodeError:
+        raise InventoryError(f"{path}: not a UTF-8 text file") from None
+
+
+def backtest(
+    ctx: typer.Context,
+    file: Path = typer.Argument(..., metavar="FILE.csv",
+                                help="Demand history: wide (month, one column per part) or "
+                                     "long (date, part, qty)."),
+    horizon: int = typer.Option(6, "--horizon", help="Test months at the end."),
+    lead_time: int = typer.Option(1, "--lead-time", help="Lead time in months."),
+    fill_rate: float = typer.Option(0.95, "--fill-rate", help="Asked fill rate (0.5-0.999)."),
+    review: int = typer.Option(1, "--review", help="Review period in months."),
+    rolling: bool = typer.Option(False, "--rolling", help="Rolling origins, pooled."),
+    origins: int = typer.Option(3, "--origins", help="Origins in rolling mode."),
+    allocation: str = typer.Option("uniform", "--allocation",
+                                   help="uniform: one per-part target set so the POOLED fill "
+                                        "meets the asked rate (default); part: each part's "
+                                        "own target; marginal: least stock for the pooled "
+                                        "target."),
+    as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
+) -> None:
+    """Backtest forecast + order-up-to policy on a demand history outside the database."""
+    from inventory import backtest as bt
+
+    if allocation not in ALLOCATIONS:
+        raise InventoryError(f"--allocation must be one of {', '.join(ALLOCATIONS)}, "
+                             f"got {allocation!r}")
+    if not 0.5 <= fill_rate < 1.0:
+        raise InventoryError(f"--fill-rate must be between 0.5 and 0.999, got {fill_rate}")
+    if horizon < 1 or lead_time < 0 or review < 1:
+        raise InventoryError("--horizon and --review must be 1 or more, --lead-time 0 or more")
+    table = _read_csv(file)
+    n, t_len = table.values.shape
+    if t_len <= horizon + 2:
+        raise InventoryError(f"{file}: {t_len} periods is too short for --horizon {horizon}: "
+                             f"need more than {horizon + 2}", hint="use a shorter --horizon")
+    kw = dict(horizon=horizon, lead_time=lead_time, fill_rate=fill_rate, review_period=review,
+              season_pos=table.season_pos(), allocation=allocation)
+    t0 = time.perf_counter()
+    with _progress(None, f"backtesting {n} series", quiet=as_json):
+        try:
+            if rolling:
+                res = bt.run_rolling_backtest(table.values, table.names, origins=origins, **kw)
+            else:
+                res = bt.run_backtest(table.values, table.names, **kw)
+        except ValueError as exc:
+            raise InventoryError(f"{file}: {exc}", hint="use a shorter --horizon or fewer "
+                                                        "--origins") from None
+    wall = time.perf_counter() - t0
+    data = res.to_dict()
+    data.update(file=str(file), allocation=allocation, rolling=rolling,
+                wall_seconds=round(wall, 3))
+    if as_json:
+        print_json(data)
+        return
+    render_backtest(data)
+
+
+def render_backtest(d: dict) -> None:
+    def pct(x: float | None) -> str:
+        return "" if x is None else f"{100 * x:.1f} %"
+
+    def num(x: float | None, f: str = ".3f") -> str:
+        return "" if x is None else format(x, f)
+
+    mode = f"rolling, origins {d['origins']}" if d.get("rolling") else "one origin"
+    print_table(f"Backtest of {d['file']} ({mode})", ["measure", "value"], [
+        ["series", d["series"]],
+        ["horizon / lead time / review", f"{d['horizon']} / {d['lead_time']} / "
+                                         f"{d['review_period']} months"],
+        ["asked fill rate", f"{pct(d['fill_target'])} ({d['allocation']})"],
+        ["achieved pooled fill rate", pct(d["fill_rate"])],
+        ["fill rate the model expected", pct(d["expected_fill"])],
+        ["series with no stockout", pct(d["no_stockout"])],
+        ["average on hand per series per month", num(d["avg_on_hand"], ".2f")],
+        ["RMSSE", num(d["rmsse"], ".4f")],
+        ["MASE", num(d["mase"], ".4f")],
+        ["bias (scaled)", num(d["bias"], "+.4f")],
+        ["error of the total (scaled)", num(d["total_error"], ".4f")],
+        ["seconds (fit + levels + simulation)", num(d["seconds"], ".2f")],
+    ], right=("value",))
+    if d.get("classes"):
+        say("Classes: " + ", ".join(f"{c} {k}" for c, k in sorted(d["classes"].items()))
+            + "; methods: " + ", ".join(f"{c} {m}" for c, m in
+                                        sorted(d.get("class_choice", {}).items())))
+    if d.get("calibration"):
+        say("Calibration (share of test windows at or below the model's quantile): "
+            + ", ".join(f"{k} {100 * v:.0f} %" for k, v in d["calibration"].items()
+                        if v is not None))
+
+
+# -- the demo tour -------------------------------------------------------------------------------
+
+
+def forecast_tour(url: str, reports_dir: str | Path = "reports", *,
+                  today: date | None = None) -> None:
+    """The demo shop's next season: kit forecast per month from the day after the history
+    (the demo's "today", 2026-12-02), a short table, and where the workbook and charts went."""
+    from sqlmodel import Session
+
+    from inventory.app.forecasting import forecast_items
+    from inventory.store.db import make_engine
+
+    day = today or date(2026, 12, 2)
+    engine = make_engine(url)
+    with Session(engine) as s:
+        report = forecast_items(s, today=day, horizon=7, by="kit")
+        parts = forecast_items(s, today=day, horizon=7, by="part")
+    say(f"[bold]Next season's demand[/bold] from {day.isoformat()} "
+        "(kits per month, with the 10-90 % range over lead time + review)")
+    render_table(report, 8)
+    top = report.chosen(4)
+    written = write_outputs(report, top, xlsx=None, charts=None, defaults=True,
+                            reports_dir=reports_dir)
+    written += write_outputs(parts, parts.chosen(4), xlsx=None, charts=None, defaults=True,
+                             reports_dir=reports_dir)
+    peak = max(range(report.horizon), key=lambda j: sum(x.forecast[j] for x in report.series))
+    total = sum(sum(x.forecast) for x in report.series)
+    say(f"Kits over the next {report.horizon} months: {total:.0f}, peak in "
+        f"{report.forecast_periods[peak].strftime('%B %Y')}; seals (kits exploded): "
+        f"{len(parts.series)} part series")
+    for p in written:
+        if p.suffix == ".xlsx":
+            say(f"wrote {p}")
+    charts = [p for p in written if p.suffix == ".png"]
+    if charts:
+        say(f"wrote {len(charts)} charts to {charts[0].parent}")
+    say(f"Try: inventory --db {url} forecast --by part --part DW-34-45")
+
+
+def register(app: typer.Typer) -> None:
+    """Add ``forecast`` and ``backtest`` to the main command."""
+    app.command("forecast")(forecast)
+    app.command("backtest")(backtest)

@@ -1,0 +1,159 @@
+"""`inventory job ...`: record a service job at the bench, list jobs, show one."""
+
+from __future__ import annotations
+
+from datetime import date
+
+import typer
+
+from inventory.cli.common import console, print_json, print_table, reading, unit_of_work
+from inventory.errors import InventoryError
+from inventory.sheets import dates
+from inventory.store import lookup
+from inventory.store.jobs import (
+    JobItem,
+    fork_choices,
+    job_detail,
+    list_jobs,
+    next_ref,
+    record_job,
+    resolve_fork_text,
+    service_level,
+)
+
+app = typer.Typer(help="Record service jobs (stock is taken through the ledger) and look "
+                       "them up.", no_args_is_help=True)
+
+
+
+def say(text: str) -> None:
+    """A line for people, never wrapped (paths and commands stay copyable)."""
+    console.print(text, highlight=False, soft_wrap=True)
+
+def parse_day(text: str | None, what: str = "--date", *, today: date | None = None) -> date:
+    """A date typed on the command line; today when not given. Day/month numeric forms
+    must be unambiguous (use ISO 2026-03-14)."""
+    today = today or date.today()
+    if not text:
+        return today
+    try:
+        d = dates.parse_text(text)
+    except ValueError as exc:
+        raise InventoryError(f"bad {what} {text!r}: {exc}",
+                             hint="write dates as 2026-03-14") from None
+    if d > today:
+        raise InventoryError(f"bad {what} {text!r}: {d.isoformat()} is in the future")
+    return d
+
+
+def parse_part(spec: str) -> JobItem:
+    """``P=QTY`` (or ``P`` for one) from ``--part``."""
+    code, sep, qty = spec.rpartition("=") if "=" in spec else (spec, "", "1")
+    code = code.strip()
+    if not code:
+        raise InventoryError(f"bad --part {spec!r}: expected PART=QTY, e.g. OR-214=2")
+    try:
+        n = int(qty.strip())
+    except ValueError:
+        raise InventoryError(f"bad --part {spec!r}: quantity must be a whole number") from None
+    if n <= 0:
+        raise InventoryError(f"bad --part {spec!r}: quantity must be more than 0, got {n}")
+    return JobItem(code, n)
+
+
+def resolve_fork(session, text: str) -> str:
+    """A fork family code from a code or a free text the import would accept on its own."""
+    try:
+        return lookup.fork(session, text).code
+    except InventoryError:
+        pass
+    choices, remembered, codes = fork_choices(session)
+    code, _, _, cands = resolve_fork_text(text, choices, remembered, codes)
+    if code:
+        return code
+    best = ", ".join(f"{c.code} ({c.score:.0f})" for c in cands[:3])
+    raise InventoryError(f"unknown fork family {text!r}", kind="unknown",
+                         hint=f"closest: {best}" if best else "list them with "
+                         "`inventory catalog export`")
+
+
+@app.command()
+def add(ctx: typer.Context,
+        day: str = typer.Option(None, "--date", help="Job date, e.g. 2026-03-14 (default today)."),
+        fork: str = typer.Option(..., "--fork", help="Fork family code (or its name)."),
+        service: str = typer.Option(..., "--service",
+                                    help="Service level: lower_leg, air_spring or damper."),
+        kits: list[str] = typer.Option([], "--kit", help="A kit used (repeatable)."),
+        parts: list[str] = typer.Option([], "--part", help="PART=QTY used (repeatable)."),
+        hours: int = typer.Option(None, "--hours", min=0, help="Ride hours since last service."),
+        ref: str = typer.Option(None, "--ref", help="Job reference (default J<date>-<n>)."),
+        fork_ref: str = typer.Option(None, "--fork-ref", help="Anonymous reference of the fork."),
+        as_json: bool = typer.Option(False, "--json"),
+        ) -> None:
+    """Record a job and take its kits and parts from stock (oldest cure first), all or
+    nothing. A kit not on hand is built from loose parts through its bill of materials."""
+    d = parse_day(day)
+    try:
+        level = service_level(service)
+    except ValueError as exc:
+        raise InventoryError(f"bad --service: {exc}") from None
+    items = [JobItem(k, 1) for k in kits] + [parse_part(p) for p in parts]
+    if not items:
+        raise InventoryError("a job needs at least one --kit or --part",
+                             hint="e.g. --kit K-TR34-LL or --part OR-214=2")
+    with unit_of_work(ctx) as s:
+        code = resolve_fork(s, fork)
+        job_ref = ref or next_ref(s, d)
+        record_job(s, ref=job_ref, day=d, fork=code, service=level, items=items, hours=hours,
+                   fork_ref=fork_ref)
+        row, moves = job_detail(s, job_ref)
+    if as_json:
+        print_json(row.to_dict() | {"movements": [m.to_dict() for m in moves]})
+        return
+    say(f"recorded job {row.ref}: {row.day} {row.fork} {row.service}")
+    _show_moves(moves)
+
+
+def _show_moves(moves) -> None:
+    print_table("Taken from stock", ["part", "location", "lot", "cured", "qty"],
+                [[m.part, m.location, m.lot, m.cured or "", -m.qty] for m in moves],
+                right=("qty",))
+
+
+@app.command("list")
+def list_(ctx: typer.Context,
+          since: str = typer.Option(None, "--from", help="First date, e.g. 2026-01-01."),
+          until: str = typer.Option(None, "--to", help="Last date."),
+          fork: str = typer.Option(None, "--fork", help="Only this fork family."),
+          limit: int = typer.Option(50, "--limit", min=1, help="At most this many (newest)."),
+          as_json: bool = typer.Option(False, "--json"),
+          ) -> None:
+    """Jobs, newest first, with what each used."""
+    start = parse_day(since, "--from", today=date.max) if since else None
+    end = parse_day(until, "--to", today=date.max) if until else None
+    with reading(ctx) as s:
+        jobs = list_jobs(s, since=start, until=end, fork=fork, limit=limit)
+    if as_json:
+        print_json([j.to_dict() for j in jobs])
+        return
+    print_table("Service jobs", ["job", "date", "fork", "service", "hours", "used"],
+                [[j.ref, j.day, j.fork, j.service, "" if j.hours is None else j.hours,
+                  ", ".join(f"{q} x {p}" for p, q in j.lines)] for j in jobs],
+                right=("hours",), caption=f"{len(jobs)} job(s)")
+
+
+@app.command()
+def show(ctx: typer.Context,
+         ref: str = typer.Argument(..., help="Job reference."),
+         as_json: bool = typer.Option(False, "--json")) -> None:
+    """One job: what it used and the lots its parts came from."""
+    with reading(ctx) as s:
+        row, moves = job_detail(s, ref)
+    if as_json:
+        print_json(row.to_dict() | {"movements": [m.to_dict() for m in moves]})
+        return
+    say(f"job {row.ref}: {row.day} {row.fork} {row.service}"
+        + (f", {row.hours} h" if row.hours is not None else "")
+        + (f", fork {row.fork_ref}" if row.fork_ref else ""))
+    print_table("Job lines", ["part", "qty"], [[p, q] for p, q in row.lines], right=("qty",))
+    _show_moves(moves)

@@ -1,0 +1,188 @@
+"""`inventory plan` and `inventory order ...`: the replenishment plan and its purchase orders.
+
+Thin: parse, call :func:`inventory.app.planning.make_plan` or :mod:`inventory.store.orders`,
+render (rich tables for people, ``--json`` for programs, a workbook with ``--xlsx``).
+"""
+
+from __future__ import annotations
+
+from datetime import date
+from decimal import Decimal, InvalidOperation
+from pathlib import Path
+
+import typer
+
+from inventory.cli.common import print_json, print_table, reading, say, unit_of_work
+from inventory.errors import InventoryError
+
+order_app = typer.Typer(help="Purchase orders: record them from a plan, list them.",
+                        no_args_is_help=True)
+
+
+def _day(text: str | None, what: str) -> date | None:
+    if not text:
+        return None
+    try:
+        return date.fromisoformat(text)
+    except ValueError:
+        raise InventoryError(f"bad {what} {text!r}: expected a date like 2027-03-01") from None
+
+
+def _budget(text: str | None) -> Decimal | None:
+    if text is None:
+        return None
+    try:
+        value = Decimal(text.replace(",", "").replace("_", ""))
+    except InvalidOperation:
+        raise InventoryError(f"bad budget {text!r}: expected an amount like 5000") from None
+    if not value.is_finite() or value < 0:
+        raise InventoryError(f"bad budget {text!r}: expected an amount of 0 or more")
+    return value
+
+
+def parse_rate(text: str, what: str = "fill rate") -> float:
+    """A fill rate as 0.95, 95 or 95%."""
+    raw = text.strip().rstrip("%")
+    try:
+        value = float(raw)
+    except ValueError:
+        raise InventoryError(f"bad {what} {text!r}: expected a rate like 0.95 or 95%") from None
+    if value >= 1.0 and (text.strip().endswith("%") or value < 100):
+        value /= 100.0
+    if not 0.0 < value < 1.0:
+        raise InventoryError(f"bad {what} {text!r}: must be between 0 and 100%")
+    return value
+
+
+def _targets(items: list[str]) -> dict[str, float]:
+    out = {}
+    for item in items:
+        part, sep, rate = item.partition("=")
+        if not sep or not part.strip():
+            raise InventoryError(f"bad --target {item!r}: expected PART=RATE, e.g. OR-214=0.99")
+        out[part.strip()] = parse_rate(rate, f"fill rate for {part.strip()}")
+    return out
+
+
+def plan(ctx: typer.Context,
+         day: str = typer.Option(None, "--date", help="Plan as of this date (default today)."),
+         season_start: str = typer.Option(None, "--season-start",
+                                          help="Pre-season plan: the season starts on this date."),
+         budget: str = typer.Option(None, "--budget", help="Spend at most this much."),
+         fill_rate: str = typer.Option(None, "--fill-rate",
+                                       help="One fill-rate target for every part (0.95 or 95%); "
+                                            "default per ABC class: A 98%, B 95%, C 90%."),
+         target: list[str] = typer.Option([], "--target",  # noqa: B008
+                                          help="Fill rate of one part, PART=RATE (repeat)."),
+         supplier: list[str] = typer.Option([], "--supplier",  # noqa: B008
+                                            help="Only this supplier (repeat)."),
+         part: list[str] = typer.Option([], "--part", help="Only this part (repeat)."),  # noqa: B008
+         kits: str = typer.Option("stock", "--kits",
+                                  help="Kits: 'stock' assembles from spare loose stock, "
+                                       "'cheaper' also buys loose seals when cheaper, "
+                                       "'whole' always buys kits."),
+         line_cost: str = typer.Option(None, "--line-cost",
+                                       help="Cost of one order line; switches cheap parts to "
+                                            "a reorder point with an EOQ."),
+         xlsx: Path = typer.Option(None, "--xlsx", help="Write the plan workbook here."),
+         as_json: bool = typer.Option(False, "--json", help="Print the plan as JSON."),
+         ) -> None:
+    """Purchase orders per supplier, every line with its reason."""
+    from dataclasses import replace
+
+    from inventory.app.planning import make_plan, plan_to_dict
+    from inventory.domain.ordering_model import PlanOptions
+
+    if kits not in ("stock", "cheaper", "whole"):
+        raise InventoryError(f"bad --kits {kits!r}: use stock, cheaper or whole")
+    opts = replace(PlanOptions(), kit_mode=kits)
+    if line_cost is not None:
+        cost = _budget(line_cost)
+        assert cost is not None
+        opts = replace(opts, line_order_cost=cost)
+    as_of = _day(day, "--date") or date.today()
+    rate = parse_rate(fill_rate) if fill_rate is not None else None
+    with reading(ctx) as s:
+        result = make_plan(s, as_of=as_of, season_start=_day(season_start, "--season-start"),
+                           budget=_budget(budget), fill_rate=rate,
+                           part_targets=_targets(target), parts=part, suppliers=supplier,
+                           options=opts)
+    if xlsx is not None:
+        from inventory.app.plan_workbook import write_plan_workbook
+
+        write_plan_workbook(result, xlsx)
+    if as_json:
+        print_json(plan_to_dict(result))
+        return
+    _render(result)
+    if xlsx is not None:
+        say(f"workbook: {xlsx}")
+
+
+def _render(result) -> None:
+    for o in result.orders:
+        rows = [[ln.part, ln.qty, f"{ln.packs} x {ln.pack_size}", f"{ln.unit_cost}",
+                 f"{ln.value:,.2f}", ", ".join(ln.caps)] for ln in o.lines]
+        print_table(f"{o.supplier}: order by {o.order_by}, delivery about {o.arrival}",
+                    ["part", "qty", "packs", "unit cost", "value", "caps"], rows,
+                    right=("qty", "unit cost", "value"),
+                    caption=f"total {o.total:,.2f} {o.currency}"
+                            + (f"; {o.note}" if o.note else ""))
+    if result.uncovered:
+        print_table("Not covered", ["part", "supplier", "units", "why"],
+                    [[u.part, u.supplier or "", u.need, u.reason] for u in result.uncovered],
+                    right=("units",))
+    budget = "" if result.budget_limit is None else \
+        (f"; budget {result.budget_limit:,.2f}, spent {result.budget_spent:,.2f} "
+         f"({result.fill_before_budget:.1%} fill without the budget)")
+    say(f"{len(result.orders)} order(s), total {result.total:,.2f}; expected fill "
+        f"{result.expected_fill:.1%} (target {result.service_target:.1%}){budget}. "
+        "Reasons per line: --json or --xlsx.")
+
+
+@order_app.command("create")
+def create(ctx: typer.Context,
+           from_plan: Path = typer.Option(..., "--from-plan",
+                                          help="The plan workbook (.xlsx) or its JSON."),
+           day: str = typer.Option(None, "--date", help="Order date (default today)."),
+           as_json: bool = typer.Option(False, "--json"),
+           ) -> None:
+    """Record a plan's purchase orders as open orders (quantities now on order)."""
+    from inventory.app.plan_workbook import read_plan_file
+    from inventory.store.orders import create_orders
+
+    drafts = read_plan_file(from_plan)
+    with unit_of_work(ctx) as s:
+        made = create_orders(s, drafts, created=_day(day, "--date") or date.today(),
+                             source=from_plan)
+    if as_json:
+        print_json([m.to_dict() for m in made])
+        return
+    for m in made:
+        say(f"{m.ref}: {m.supplier}, {m.lines} line(s), {m.total:,.2f}, expected {m.expected}")
+
+
+@order_app.command("list")
+def list_cmd(ctx: typer.Context,
+             status: str = typer.Option("open", "--status", help="open, closed, cancelled or all."),
+             as_json: bool = typer.Option(False, "--json"),
+             ) -> None:
+    """Purchase orders with what is received so far."""
+    from inventory.store.orders import list_orders
+
+    with reading(ctx) as s:
+        rows = list_orders(s, status=None if status == "all" else status)
+    if as_json:
+        print_json([r.to_dict() for r in rows])
+        return
+    print_table("Purchase orders", ["ref", "supplier", "created", "expected", "status", "lines",
+                                    "received", "total"],
+                [[r.ref, r.supplier, r.created, r.expected or "", r.status, r.lines,
+                  f"{r.received}/{r.ordered}", f"{r.total:,.2f}"] for r in rows],
+                right=("lines", "received", "total"), caption=f"{len(rows)} order(s)")
+
+
+def register(app: typer.Typer) -> None:
+    """Add ``plan`` and ``order`` to the main command."""
+    app.command("plan")(plan)
+    app.add_typer(order_app, name="order")

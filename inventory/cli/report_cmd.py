@@ -1,0 +1,74 @@
+"""`inventory report month YYYY-MM`: the month-end stock report."""
+
+from __future__ import annotations
+
+from datetime import date
+from pathlib import Path
+
+import typer
+
+from inventory.app.planning import reorder_source
+from inventory.cli.common import print_json, print_table, reading, say
+from inventory.errors import InventoryError
+from inventory.reporting.month import METHODS, parse_month
+from inventory.reporting.month_report import report_dict
+from inventory.reporting.monthend import default_xlsx, write_month_end
+
+app = typer.Typer(help="Month-end reports.", no_args_is_help=True)
+
+
+def _today(text: str | None) -> date:
+    if not text:
+        return date.today()
+    try:
+        return date.fromisoformat(text)
+    except ValueError:
+        raise InventoryError(f"bad date {text!r}: expected a date like 2026-12-02") from None
+
+
+@app.command("month")
+def month(ctx: typer.Context,
+          month: str = typer.Argument(..., metavar="YYYY-MM", help="A complete month."),
+          xlsx: Path = typer.Option(None, "--xlsx",
+                                    help="Workbook to write (default reports/stock-YYYY-MM.xlsx; "
+                                         "with --json only when given)."),
+          html: Path = typer.Option(None, "--html", help="Also write a one-page HTML summary."),
+          as_json: bool = typer.Option(False, "--json", help="Print the report as JSON."),
+          method: str = typer.Option("fifo", "--method",
+                                     help="Valuation: fifo (lot cost, oldest cure first) or "
+                                          "average (moving average)."),
+          plan: bool = typer.Option(True, "--plan/--no-plan",
+                                    help="Reorder list from the order planner (default) or "
+                                         "from the simple usage rule only."),
+          today: str = typer.Option(None, "--today", hidden=True,
+                                    help="Take this day as today (for tests)."),
+          ) -> None:
+    """Stock value, usage, turns, classes, dead stock, count variances, expiring lots and the
+    reorder list for one month; refuses if the ledger does not reconcile."""
+    if method not in METHODS:
+        raise InventoryError(f"unknown valuation method {method!r}: use fifo or average")
+    day = _today(today)
+    m = parse_month(month, today=day)
+    if xlsx is None and not as_json:
+        xlsx = default_xlsx(m)
+    with reading(ctx) as s:
+        reorder = reorder_source() if plan else None
+        files = write_month_end(s, m, today=day, xlsx=xlsx, html=html, method=method,
+                                reorder=reorder)
+    if as_json:
+        print_json(report_dict(files.report))
+        return
+    t = files.report.totals
+    print_table(f"Stock report {m.label} ({files.report.method_label})", ["figure", "value"], [
+        ["opening value", f"{t.opening_value:,.2f}"],
+        ["receipts", f"{t.receipts_value:,.2f}"],
+        ["issues", f"{t.issues_value:,.2f}"],
+        ["adjustments and counts", f"{t.adjustments_value:+,.2f}"],
+        ["closing value", f"{t.closing_value:,.2f}"],
+        ["dead / slow stock", f"{t.dead_value:,.2f} / {t.slow_value:,.2f}"],
+        ["lots past storage limit", f"{t.expired_value:,.2f}"],
+        ["parts to reorder", str(len(files.report.below_reorder))],
+    ], right=("value",))
+    for p in (files.xlsx, files.html):
+        if p is not None:
+            say(f"wrote {p}")

@@ -1,0 +1,98 @@
+"""The readable sentence on every plan line, made from the line's own figures."""
+
+from __future__ import annotations
+
+from datetime import date
+from decimal import Decimal
+
+
+def _n(x: float) -> str:
+    """A quantity for people: whole numbers plain, others with one decimal."""
+    return f"{x:.0f}" if abs(x - round(x)) < 0.05 or abs(x) >= 100 else f"{x:.1f}"
+
+
+def _pct(x: float) -> str:
+    return f"{x * 100:.1f}".rstrip("0").rstrip(".") + "%"
+
+
+def _d(x: float) -> str:
+    return f"{x:.0f} d" if abs(x - round(x)) < 0.05 else f"{x:.1f} d"
+
+
+def policy_phrase(*, policy: str, level: float, order_quantity: int, eoq: float,
+                  fill_target: float, abc: str, pooled: bool, service: str,
+                  lead_quantile: float, cover_end: date, build_ahead: float) -> str:
+    what = "fill" if service == "fill" else "cycle service"
+    target = f"{_pct(fill_target)} {what}" + (f" (class {abc}, pooled)" if pooled
+                                                else f" (class {abc})")
+    quant = f"the {_pct(fill_target)} demand quantile over the lead time is {_n(lead_quantile)}"
+    if policy == "reorder-point":
+        return (f"reorder point {_n(level)} with order quantity {order_quantity} "
+                f"(EOQ {eoq:.1f}) for {target}; {quant}")
+    if policy == "pre-season":
+        ahead = f", build-ahead {_n(build_ahead)} for the peak" if build_ahead >= 0.5 else ""
+        q = f", at least the EOQ {order_quantity}" if order_quantity else ""
+        return (f"pre-season level {_n(level)} covers now to the next possible delivery on "
+                f"{cover_end.isoformat()} at {target}{ahead}{q}; {quant}")
+    return f"order-up-to level {_n(level)} for {target}; {quant}"
+
+
+def line_sentence(
+    *, part: str, supplier: str, choice: str, forecast_cover: float, cover_days: float,
+    lead_days: float, lead_sd_days: float, review_days: float, peak_days: float | None,
+    policy_text: str, on_hand: int, expired: int, on_order: int, raw_need: int,
+    for_kits: int, assembled: int, to_kits: int, qty: int, packs: int, pack: int,
+    minimum: int, rounded: int,
+    shelf_cap: int | None, shelf_limit: date | None, cure_assumed: str | None,
+    capped: bool, min_forced: bool, topped_up: int, min_order_value: Decimal,
+    budget_cut: int, late: bool, need_date: date | None, arrival: date,
+    unit_cost: Decimal, value: Decimal, currency: str, fill: float, fill_before: float,
+) -> str:
+    """One sentence naming every step from forecast to order quantity."""
+    lead = f"lead {_d(lead_days)}" + (f" ± {_d(lead_sd_days)}" if lead_sd_days else "")
+    if peak_days is not None and peak_days > lead_days:
+        lead += f", {_d(peak_days)} in season"
+    head = (f"{part} from {supplier} ({choice}): expected demand {_n(forecast_cover)} over the "
+            f"{cover_days:.0f}-day cover ({lead}, review {_d(review_days)}); {policy_text}; ")
+    stock = f"on hand {on_hand}"
+    if expired:
+        stock += f" (+{expired} past their storage period, not counted)"
+    stock += f", on order {on_order}: raw need {raw_need}"
+    if assembled:
+        stock += (f", of which {min(assembled, raw_need)} kits are assembled from loose seals "
+                  "instead (see Kits)")
+    if for_kits:
+        stock += f" + {for_kits} for kits assembled from loose seals"
+    if to_kits:
+        stock += f"; {to_kits} spare units go into kits assembled from stock"
+    parts = [head + stock]
+    need = max(raw_need - assembled, 0) + for_kits
+    if need <= 0 and qty == 0:
+        parts.append("nothing to order")
+    else:
+        if rounded > need:
+            parts.append(f"rounded to {rounded} ({rounded // max(pack, 1)} x {pack}"
+                         + (f", minimum {minimum})" if minimum > pack else ")"))
+        if capped and shelf_cap is not None:
+            limit = shelf_limit.isoformat() if shelf_limit else "?"
+            why = (f"shelf life caps it at {shelf_cap} (expected use before {limit}, a lot "
+                   f"cured about {cure_assumed}, less the margin)")
+            if min_forced:
+                why += (f"; the supplier's minimum {minimum} forces {qty - shelf_cap} above "
+                        "the cap")
+            why += f"; expected fill {_pct(fill_before)} uncapped"
+            parts.append(why)
+        if topped_up:
+            parts.append(f"+{topped_up} to reach {supplier}'s minimum order of "
+                         f"{min_order_value:.2f} {currency}")
+        if budget_cut:
+            parts.append(f"cut by {budget_cut} to stay within the budget")
+        if late and need_date is not None:
+            parts.append(f"late: stock runs out about {need_date.isoformat()}, the earliest "
+                         f"delivery is {arrival.isoformat()}")
+        if qty > 0:
+            parts.append(f"order {qty} ({packs} x {pack}) at {unit_cost} = {value:.2f} "
+                         f"{currency}, expected fill {_pct(fill)}")
+        else:
+            parts.append("nothing ordered")
+    return "; ".join(parts) + "."
