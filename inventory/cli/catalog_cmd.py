@@ -17,7 +17,7 @@ app = typer.Typer(help="Load and export the catalog (csv folder or xlsx workbook
 def load(ctx: typer.Context,
          path: Path = typer.Argument(..., help=f"Folder of csv files or a workbook with sheets "
                                                f"{', '.join(ORDER)}."),
-         as_json: bool = typer.Option(False, "--json")) -> None:
+         as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table.")) -> None:
     """Validate the whole catalog, then write it in one transaction (or write nothing)."""
     with unit_of_work(ctx) as s:
         report = load_catalog(s, path)

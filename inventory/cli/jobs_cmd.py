@@ -88,7 +88,7 @@ def add(ctx: typer.Context,
         hours: int = typer.Option(None, "--hours", min=0, help="Ride hours since last service."),
         ref: str = typer.Option(None, "--ref", help="Job reference (default J<date>-<n>)."),
         fork_ref: str = typer.Option(None, "--fork-ref", help="Anonymous reference of the fork."),
-        as_json: bool = typer.Option(False, "--json"),
+        as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
         ) -> None:
     """Record a job and take its kits and parts from stock (oldest cure first), all or
     nothing. A kit not on hand is built from loose parts through its bill of materials."""
@@ -126,7 +126,7 @@ def list_(ctx: typer.Context,
           until: str = typer.Option(None, "--to", help="Last date."),
           fork: str = typer.Option(None, "--fork", help="Only this fork family."),
           limit: int = typer.Option(50, "--limit", min=1, help="At most this many (newest)."),
-          as_json: bool = typer.Option(False, "--json"),
+          as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
           ) -> None:
     """Jobs, newest first, with what each used."""
     start = parse_day(since, "--from", today=date.max) if since else None
@@ -145,7 +145,7 @@ def list_(ctx: typer.Context,
 @app.command()
 def show(ctx: typer.Context,
          ref: str = typer.Argument(..., help="Job reference."),
-         as_json: bool = typer.Option(False, "--json")) -> None:
+         as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table.")) -> None:
     """One job: what it used and the lots its parts came from."""
     with reading(ctx) as s:
         row, moves = job_detail(s, ref)

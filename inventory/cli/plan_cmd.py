@@ -145,7 +145,7 @@ def create(ctx: typer.Context,
            from_plan: Path = typer.Option(..., "--from-plan",
                                           help="The plan workbook (.xlsx) or its JSON."),
            day: str = typer.Option(None, "--date", help="Order date (default today)."),
-           as_json: bool = typer.Option(False, "--json"),
+           as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
            ) -> None:
     """Record a plan's purchase orders as open orders (quantities now on order)."""
     from inventory.app.plan_workbook import read_plan_file
@@ -165,7 +165,7 @@ def create(ctx: typer.Context,
 @order_app.command("list")
 def list_cmd(ctx: typer.Context,
              status: str = typer.Option("open", "--status", help="open, closed, cancelled or all."),
-             as_json: bool = typer.Option(False, "--json"),
+             as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
              ) -> None:
     """Purchase orders with what is received so far."""
     from inventory.store.orders import list_orders

@@ -52,7 +52,7 @@ def receive(ctx: typer.Context,
             cost: str = typer.Option(None, "--cost", help="Unit cost; defaults to the last lot's."),
             lot: str = typer.Option(None, "--lot", help="Lot code; an existing lot is topped up."),
             cured: str = typer.Option(None, "--cured", help="Cure quarter, e.g. 2026Q3 or 3/26."),
-            location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location"),
+            location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location", help="Location code."),
             order: str = typer.Option(None, "--order", help="Purchase order reference: receives "
                                       "against its line and closes it when complete."),
             tolerance: float = typer.Option(0.05, "--tolerance",
@@ -82,7 +82,7 @@ def issue(ctx: typer.Context,
           qty: int = typer.Argument(..., help="Units to take out."),
           job: str = typer.Option(None, "--job", help="Job reference the parts went to."),
           location: str = typer.Option(None, "--location", help="Only from this location."),
-          day: str = typer.Option(None, "--date"),
+          day: str = typer.Option(None, "--date", help="Booking date (default today)."),
           ) -> None:
     """Take stock out, oldest cure quarter first."""
     with unit_of_work(ctx) as s:
@@ -95,9 +95,9 @@ def adjust(ctx: typer.Context,
            part: str = typer.Argument(...),
            qty: int = typer.Argument(..., help="Signed correction, e.g. -2 or 3."),
            reason: str = typer.Option(..., "--reason", help="Why (damaged, found, ...)."),
-           location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location"),
+           location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location", help="Location code."),
            cost: str = typer.Option(None, "--cost", help="Unit cost of units added."),
-           day: str = typer.Option(None, "--date"),
+           day: str = typer.Option(None, "--date", help="Booking date (default today)."),
            ) -> None:
     """Correct stock with a reason (a new movement; nothing is edited)."""
     with unit_of_work(ctx) as s:
@@ -109,8 +109,8 @@ def adjust(ctx: typer.Context,
 def count(ctx: typer.Context,
           part: str = typer.Argument(...),
           counted: int = typer.Argument(..., help="Units on the shelf."),
-          location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location"),
-          day: str = typer.Option(None, "--date"),
+          location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location", help="Location code."),
+          day: str = typer.Option(None, "--date", help="Booking date (default today)."),
           ) -> None:
     """Record a shelf count; the variance is booked as a movement."""
     with unit_of_work(ctx) as s:
@@ -127,7 +127,7 @@ def move(ctx: typer.Context,
          qty: int = typer.Argument(...),
          from_: str = typer.Option(..., "--from", help="Location to take from."),
          to: str = typer.Option(..., "--to", help="Location to put into."),
-         day: str = typer.Option(None, "--date"),
+         day: str = typer.Option(None, "--date", help="Booking date (default today)."),
          ) -> None:
     """Move stock between locations; lots keep their identity."""
     with unit_of_work(ctx) as s:
@@ -138,10 +138,10 @@ def move(ctx: typer.Context,
 
 @app.command("on-hand")
 def on_hand(ctx: typer.Context,
-            part: str = typer.Option(None, "--part"),
-            location: str = typer.Option(None, "--location"),
+            part: str = typer.Option(None, "--part", help="Only this part."),
+            location: str = typer.Option(None, "--location", help="Only this location."),
             by_lot: bool = typer.Option(False, "--by-lot", help="One line per lot."),
-            as_json: bool = typer.Option(False, "--json"),
+            as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
             ) -> None:
     """Stock on hand, summed from the ledger."""
     with reading(ctx) as s:
