@@ -8,6 +8,7 @@ the run; elsewhere the PostgreSQL cases skip with the reason.
 from __future__ import annotations
 
 import os
+import sys
 import uuid
 from pathlib import Path
 
@@ -43,6 +44,21 @@ TINY = {
     "kits.csv": "kit,fork,service_level,description\nK-TST,XC-32,lower_leg,Test kit\n",
     "kit_lines.csv": "kit,part,qty\nK-TST,WP-32,2\nK-TST,OR-214,1\n",
 }
+
+
+def inv(monkeypatch, capsys, *args: str) -> tuple[int, str, str]:
+    """Run ``inventory ARGS`` through the console entry point (as a user would, with its
+    error handler); returns (exit code, stdout, stderr)."""
+    from inventory.cli.main import run
+
+    monkeypatch.setattr(sys, "argv", ["inventory", *args])
+    code = 0
+    try:
+        run()
+    except SystemExit as exc:
+        code = exc.code or 0
+    out = capsys.readouterr()
+    return code, out.out, out.err
 
 
 def write_catalog(folder: Path, files: dict[str, str] | None = None) -> Path:

@@ -11,33 +11,20 @@ from __future__ import annotations
 
 import json
 import os
-import sys
 from pathlib import Path
 
 import numpy as np
 import pytest
 from openpyxl import load_workbook
 
-from inventory.cli.main import run
 from inventory.store.db import dispose_all, make_engine
-from tests.conftest import write_catalog
+from tests.conftest import inv, write_catalog
 from tests.test_forecast_app import build
 
 CARPARTS = Path(os.environ.get(
     "INVENTORY_CARPARTS_CSV",
     Path(__file__).resolve().parents[2] / "shared" / "data" / "carparts_dev.csv",
 ))
-
-
-def inv(monkeypatch, capsys, *args: str) -> tuple[int, str, str]:
-    monkeypatch.setattr(sys, "argv", ["inventory", *args])
-    code = 0
-    try:
-        run()
-    except SystemExit as exc:
-        code = exc.code or 0
-    out = capsys.readouterr()
-    return code, out.out, out.err
 
 
 @pytest.fixture

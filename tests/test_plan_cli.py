@@ -7,31 +7,18 @@ from __future__ import annotations
 
 import json
 import shutil
-import sys
 from datetime import UTC, date, datetime, time
 from decimal import Decimal
 
 import pytest
 from openpyxl import load_workbook
 
-from inventory.cli.main import run
 from inventory.store import ledger, migrate
 from inventory.store.catalog import load_catalog
 from inventory.store.db import dispose_all, make_engine, transaction
-from tests.conftest import write_catalog
+from tests.conftest import inv, write_catalog
 
 TODAY = "2026-12-02"
-
-
-def inv(monkeypatch, capsys, *args: str) -> tuple[int, str, str]:
-    monkeypatch.setattr(sys, "argv", ["inventory", *args])
-    code = 0
-    try:
-        run()
-    except SystemExit as exc:
-        code = exc.code or 0
-    out = capsys.readouterr()
-    return code, out.out, out.err
 
 
 def _ts(y: int, m: int, d: int) -> datetime:

@@ -4,24 +4,11 @@ exact line for each kind of bad input."""
 from __future__ import annotations
 
 import json
-import sys
 from pathlib import Path
 
 import pytest
 
-from inventory.cli.main import run
-from tests.conftest import write_catalog
-
-
-def inv(monkeypatch, capsys, *args: str) -> tuple[int, str, str]:
-    monkeypatch.setattr(sys, "argv", ["inventory", *args])
-    code = 0
-    try:
-        run()
-    except SystemExit as exc:
-        code = exc.code or 0
-    out = capsys.readouterr()
-    return code, out.out, out.err
+from tests.conftest import inv, write_catalog
 
 
 @pytest.fixture

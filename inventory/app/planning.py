@@ -374,7 +374,10 @@ def reorder_source(**plan_options):
     from inventory.reporting.month_report import ReorderAdvice
 
     def source(session: Session, as_of: date) -> dict:
-        plan = make_plan(session, as_of=as_of, **plan_options)
+        try:
+            plan = make_plan(session, as_of=as_of, **plan_options)
+        except InventoryError:
+            return {}  # nothing the planner can plan yet: the report's usage rule applies
         return {
             ln.part: ReorderAdvice(ln.part, int(math.ceil(ln.level)), ln.qty,
                                    f"plan ({ln.policy}, fill target {ln.fill_target:.0%})")
