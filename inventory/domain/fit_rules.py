@@ -66,9 +66,11 @@ class Limit:
 
     def grade(self, value: Any) -> np.ndarray:
         v = np.asarray(value, dtype=float)
+        # a value that prints as the bound is on the bound: forgive float round-off
+        eps = 1e-9
         status = np.full(v.shape, FAIL, dtype=np.int8)
-        status[(v >= self.low - self.below) & (v <= self.high + self.above)] = MARGINAL
-        status[(v >= self.low) & (v <= self.high)] = PASS
+        status[(v >= self.low - self.below - eps) & (v <= self.high + self.above + eps)] = MARGINAL
+        status[(v >= self.low - eps) & (v <= self.high + eps)] = PASS
         return status
 
     def text(self) -> str:
