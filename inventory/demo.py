@@ -14,30 +14,13 @@ from rich.progress import Progress, SpinnerColumn, TextColumn
 from sqlmodel import Session
 
 from inventory.errors import InventoryError
-from inventory.sheets import cells
-from inventory.sheets.columns import Column as C
+from inventory.sheets import cells, kinds
 from inventory.sheets.columns import Schema, parse_table
 from inventory.sheets.read import read_csv
 from inventory.store import ledger, migrate
 from inventory.store.catalog import load_catalog
 from inventory.store.db import make_engine, resolve_url, transaction
 from inventory.store.imports import Event, ImportSettings, apply_import
-
-OPENING = Schema("opening_stock", (
-    C("part", cells.code, required=True), C("qty", cells.positive_int, required=True),
-    C("unit_cost", cells.money, required=True), C("lot", cells.code), C("cured", cells.quarter),
-    C("received", cells.iso_date, required=True), C("location", cells.code, default="MAIN"),
-))
-RECEIPTS = Schema("receipts", (
-    C("date", cells.iso_date, required=True), C("supplier", cells.code),
-    C("part", cells.code, required=True), C("qty", cells.positive_int, required=True),
-    C("unit_cost", cells.money, required=True), C("lot", cells.code), C("cured", cells.quarter),
-    C("location", cells.code, default="MAIN"), C("order_ref", cells.code),
-))
-COUNTS = Schema("counts", (
-    C("date", cells.iso_date, required=True), C("part", cells.code, required=True),
-    C("location", cells.code, default="MAIN"), C("counted", cells.nonneg_int, required=True),
-))
 
 
 def demo_dir() -> Path:
@@ -51,10 +34,12 @@ def demo_dir() -> Path:
 
 
 def _rows(path: Path, schema: Schema) -> list[dict]:
+    """Rows of a demo csv through the import's own column definitions; the demo writes
+    ISO dates, so the date column is read as one (no day/month guessing needed)."""
     parsed = parse_table(read_csv(path), schema)
     if parsed.problems:
         raise InventoryError(parsed.problems)
-    return [r for _, r in parsed.rows]
+    return [{**r, "date": cells.iso_date(r["date"])} for _, r in parsed.rows]
 
 
 def _noon(day: date, minute: int = 0) -> datetime:
@@ -69,15 +54,15 @@ def replay(session: Session, folder: Path, *, progress: bool = True) -> dict[str
     no-op; deliveries and counts are replayed on their days in between (before and after the
     day's jobs).
     """
-    opening = _rows(folder / "opening_stock.csv", OPENING)
-    receipts = _rows(folder / "receipts.csv", RECEIPTS)
-    counts = _rows(folder / "counts.csv", COUNTS) if (folder / "counts.csv").exists() else []
+    opening = _rows(folder / "opening_stock.csv", kinds.RECEIPTS)  # "received" is the date
+    receipts = _rows(folder / "receipts.csv", kinds.RECEIPTS)
+    counts = _rows(folder / "counts.csv", kinds.COUNTS) if (folder / "counts.csv").exists() else []
     # The opening balance is booked on the day the demo's books start (the latest lot's
     # receipt date); each lot keeps its own receipt date and cure quarter.
-    opening_day = max(r["received"] for r in opening)
+    opening_day = max(r["date"] for r in opening)
     for r in opening:
         ledger.receive(session, r["part"], r["qty"], r["unit_cost"], lot=r["lot"],
-                       cured=r["cured"], location=r["location"], received=r["received"],
+                       cured=r["cured"], location=r["location"], received=r["date"],
                        ts=_noon(opening_day, 0), reference="OPENING", user="demo")
 
     def receive(r: dict):

@@ -303,6 +303,14 @@ def _seat_problem(n: int, message: str) -> list[RawCheck]:
     return [RawCheck("seat data", None, message, np.full(n, FAIL, dtype=np.int8), SRC_CP)]
 
 
+#: The seat values a radial gland is described by: the surface the seal runs on, the groove
+#: diameter and the groove width.
+RADIAL = {
+    Gland.PISTON: ("bore_mm", "groove_mm", "groove_width_mm"),
+    Gland.ROD: ("rod_mm", "groove_mm", "groove_width_mm"),
+}
+
+
 def _need(seat: SeatSpec, *names: str) -> dict[str, float] | str:
     """The seat values a rule needs, or the text naming those that are missing."""
     missing = [name for name in names if getattr(seat, name) is None]
@@ -360,10 +368,8 @@ def _swell(seat: SeatSpec, rules: FitRules) -> float:
 def _ring_rules(c: PartColumns, seat: SeatSpec, rules: FitRules) -> list[RawCheck]:
     gland = Gland(seat.gland)
     d1, d2 = c.id_mm, c.cs_mm
-    if gland == Gland.PISTON:
-        g = _need(seat, "bore_mm", "groove_mm", "groove_width_mm")
-    elif gland == Gland.ROD:
-        g = _need(seat, "rod_mm", "groove_mm", "groove_width_mm")
+    if gland in RADIAL:
+        g = _need(seat, *RADIAL[gland])
     elif gland == Gland.FACE:
         g = _need(seat, "rod_mm", "bore_mm", "housing_depth_mm")
     else:
@@ -403,12 +409,9 @@ def _ring_rules(c: PartColumns, seat: SeatSpec, rules: FitRules) -> list[RawChec
 
 def _lip_rules(c: PartColumns, seat: SeatSpec, rules: FitRules) -> list[RawCheck]:
     gland = Gland(seat.gland)
-    if gland == Gland.ROD:
-        g = _need(seat, "rod_mm", "groove_mm", "groove_width_mm")
-    elif gland == Gland.PISTON:
-        g = _need(seat, "bore_mm", "groove_mm", "groove_width_mm")
-    else:
+    if gland not in RADIAL:
         return _seat_problem(len(c), f"no lip-seal rules for a {gland} gland")
+    g = _need(seat, *RADIAL[gland])
     if isinstance(g, str):
         return _seat_problem(len(c), g)
     section = (c.od_mm - c.id_mm) / 2.0
@@ -443,7 +446,7 @@ def _bore_limits(bore: float, bore_fit: str | None, rules: FitRules) -> tuple[fl
 def _wiper_in_groove(c: PartColumns, seat: SeatSpec, rules: FitRules) -> list[RawCheck]:
     """A scraper or wiper held in a rod-gland groove (an air-shaft seal head): lip on the
     rod, outside diameter in the groove, height in the groove width."""
-    g = _need(seat, "rod_mm", "groove_mm", "groove_width_mm")
+    g = _need(seat, *RADIAL[Gland.ROD])
     if isinstance(g, str):
         return _seat_problem(len(c), g)
     rod, groove = g["rod_mm"], g["groove_mm"]
@@ -491,12 +494,9 @@ def _glide_rules(c: PartColumns, seat: SeatSpec, rules: FitRules) -> list[RawChe
     clearance ``id - rod``. Thickness is ``(od - id) / 2``.
     """
     gland = Gland(seat.gland)
-    if gland == Gland.PISTON:
-        g = _need(seat, "bore_mm", "groove_mm", "groove_width_mm")
-    elif gland == Gland.ROD:
-        g = _need(seat, "rod_mm", "groove_mm", "groove_width_mm")
-    else:
+    if gland not in RADIAL:
         return _seat_problem(len(c), f"no glide-ring rules for a {gland} gland")
+    g = _need(seat, *RADIAL[gland])
     if isinstance(g, str):
         return _seat_problem(len(c), g)
     thickness = (c.od_mm - c.id_mm) / 2.0

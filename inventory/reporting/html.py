@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import base64
 import io
-import os
 from collections import defaultdict
 from decimal import Decimal
 from html import escape
@@ -25,7 +24,7 @@ from matplotlib.ticker import FuncFormatter, PercentFormatter  # noqa: E402
 
 from inventory.domain import valuation as val  # noqa: E402
 from inventory.reporting.month_report import MonthReport  # noqa: E402
-from inventory.sheets.write import atomic_path  # noqa: E402
+from inventory.sheets.write import replacing  # noqa: E402
 
 BLUE, ORANGE, GREY = "#3b6ea5", "#e08a2c", "#8c8c8c"
 LIST_ROWS = 8
@@ -211,12 +210,6 @@ def render_html(r: MonthReport) -> str:
 
 def write_month_html(path: str | Path, r: MonthReport) -> Path:
     """Write the page atomically; returns the path."""
-    path = Path(path)
-    tmp = atomic_path(path)
-    try:
+    with replacing(path) as tmp:
         tmp.write_text(render_html(r), encoding="utf-8")
-        os.replace(tmp, path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
-    return path
+    return Path(path)

@@ -14,7 +14,6 @@ guard as :mod:`inventory.sheets.write`).
 from __future__ import annotations
 
 import math
-import os
 from collections.abc import Sequence
 from copy import copy
 from datetime import date, datetime
@@ -32,7 +31,7 @@ from openpyxl.utils.datetime import to_excel
 from openpyxl.xml.functions import fromstring
 
 from inventory.reporting.month_report import MonthReport
-from inventory.sheets.write import HEADER_FILL, SheetSpec, atomic_path
+from inventory.sheets.write import HEADER_FILL, SheetSpec, save_workbook
 
 MONEY = "#,##0.00"
 QTY = "#,##0"
@@ -418,11 +417,4 @@ def write_month_workbook(path: str | Path, r: MonthReport) -> Path:
         _stream_sheet(wb, spec, rule,
                       negative_red=["count variance value"] if spec.name == "Parts" else ())
     _charts(wb, r, summary)
-    tmp = atomic_path(path)
-    try:
-        wb.save(tmp)
-        os.replace(tmp, path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
-    return path
+    return save_workbook(wb, path)

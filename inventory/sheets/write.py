@@ -11,7 +11,8 @@ import csv
 import os
 import re
 import tempfile
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from datetime import date, datetime
 from decimal import Decimal
@@ -156,17 +157,25 @@ def _add_lists(wb: Workbook, ws, spec: SheetSpec) -> None:
         add_list_validation(ws, i, 2, last, source, strict=h not in spec.loose_lists, title=h)
 
 
-def save_workbook(wb: Workbook, path: str | Path) -> Path:
-    """Save atomically: a reader never sees half a file."""
+@contextmanager
+def replacing(path: str | Path) -> Iterator[Path]:
+    """Write to the temporary path this yields; on success it replaces ``path`` in one
+    rename, on failure it is removed. A reader never sees half a file."""
     path = Path(path)
     tmp = atomic_path(path)
     try:
-        wb.save(tmp)
+        yield tmp
         os.replace(tmp, path)
     finally:
         if tmp.exists():
             tmp.unlink()
-    return path
+
+
+def save_workbook(wb: Workbook, path: str | Path) -> Path:
+    """Save atomically: a reader never sees half a file."""
+    with replacing(path) as tmp:
+        wb.save(tmp)
+    return Path(path)
 
 
 def atomic_path(path: Path):
@@ -200,16 +209,9 @@ def write_workbook(path: str | Path, sheets: Sequence[SheetSpec], *,
 
 
 def write_csv(path: str | Path, header: Sequence[str], rows: Sequence[Sequence[Any]]) -> Path:
-    path = Path(path)
-    tmp = atomic_path(path)
-    try:
-        with open(tmp, "w", newline="", encoding="utf-8") as fh:
-            w = csv.writer(fh)
-            w.writerow(header)
-            for row in rows:
-                w.writerow(["" if v is None else guard_text(_cell_value(v)) for v in row])
-        os.replace(tmp, path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
-    return path
+    with replacing(path) as tmp, open(tmp, "w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow(header)
+        for row in rows:
+            w.writerow(["" if v is None else guard_text(_cell_value(v)) for v in row])
+    return Path(path)

@@ -9,7 +9,6 @@ Rows whose key already exists are updated, so a load followed by an export round
 
 from __future__ import annotations
 
-from collections.abc import Iterable
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -19,7 +18,7 @@ from sqlmodel import Session, select
 from inventory.domain.model import Gland, Medium, Motion, PartKind, ServiceLevel, SpringLayout
 from inventory.errors import InventoryError, Problem, Source
 from inventory.sheets import cells
-from inventory.sheets.columns import Column, Parsed, Schema, parse_table
+from inventory.sheets.columns import Column, Parsed, Schema, parse_table, to_cells
 from inventory.sheets.read import read_tables
 from inventory.sheets.write import SheetSpec, write_csv, write_workbook
 from inventory.store.models import (
@@ -356,21 +355,13 @@ def catalog_records(session: Session) -> dict[str, list[dict[str, Any]]]:
     return out
 
 
-def _rows(schema: Schema, records: Iterable[dict[str, Any]]) -> list[list[Any]]:
-    return [[_plain(rec.get(c.name)) for c in schema.columns] for rec in records]
-
-
-def _plain(value: Any) -> Any:
-    return value.value if hasattr(value, "value") and isinstance(value.value, str) else value
-
-
 def export_catalog(session: Session, target: str | Path) -> list[Path]:
     """Write the catalog to a folder of csv files or to one ``.xlsx`` workbook."""
     target = Path(target)
     records = catalog_records(session)
     if target.suffix.lower() == ".xlsx":
-        sheets = [SheetSpec(t, SCHEMAS[t].header, _rows(SCHEMAS[t], records[t])) for t in ORDER]
+        sheets = [SheetSpec(t, SCHEMAS[t].header, to_cells(SCHEMAS[t], records[t])) for t in ORDER]
         return [write_workbook(target, sheets)]
     target.mkdir(parents=True, exist_ok=True)
-    return [write_csv(target / f"{t}.csv", SCHEMAS[t].header, _rows(SCHEMAS[t], records[t]))
+    return [write_csv(target / f"{t}.csv", SCHEMAS[t].header, to_cells(SCHEMAS[t], records[t]))
             for t in ORDER]

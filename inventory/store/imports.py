@@ -467,8 +467,7 @@ def _place(p: Problem) -> tuple:
 
 
 def _suggest_hint(code: str, choices: list[str]) -> str | None:
-    close = lookup.suggest(code, choices)
-    return f"did you mean {', '.join(close)}?" if close else None
+    return lookup.did_you_mean(code, choices)
 
 
 # --- history ------------------------------------------------------------------------------

@@ -578,10 +578,9 @@ def job_detail(session: Session, ref: str) -> tuple[JobRow, list[JobMovement]]:
     if job is None:
         refs = list(session.exec(select(ServiceJob.ref).order_by(ServiceJob.day.desc())
                                  .limit(5000)))
-        close = lookup.suggest(ref, refs)
         raise InventoryError(f"unknown job {ref!r}", kind="unknown",
-                             hint=f"did you mean {', '.join(close)}?" if close else
-                             "list jobs with `inventory job list`")
+                             hint=lookup.did_you_mean(ref, refs,
+                                                      "list jobs with `inventory job list`"))
     row = next(r for r in list_jobs(session, since=job.day, until=job.day) if r.ref == ref)
     moves = [JobMovement(p, loc, lot, cured, q) for p, loc, lot, cured, q in session.exec(
         select(Part.code, Location.code, Lot.code, Lot.cured, Movement.qty)

@@ -20,10 +20,15 @@ def suggest(text: str, choices: list[str], *, limit: int = 3, cutoff: float = 50
     return [key for _, score, key in found if score >= best - 10]
 
 
+def did_you_mean(text: str, choices: list[str], otherwise: str | None = None) -> str | None:
+    """The hint for an unknown code: the closest valid codes, else ``otherwise``."""
+    close = suggest(text, choices)
+    return f"did you mean {', '.join(close)}?" if close else otherwise
+
+
 def _unknown(what: str, code: str, choices: list[str]) -> InventoryError:
-    close = suggest(code, choices)
-    hint = f"did you mean {', '.join(close)}?" if close else None
-    return InventoryError(f"unknown {what} {code!r}", kind="unknown", hint=hint)
+    return InventoryError(f"unknown {what} {code!r}", kind="unknown",
+                          hint=did_you_mean(code, choices))
 
 
 def _cache(session: Session, name: str) -> dict:

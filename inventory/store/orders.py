@@ -194,9 +194,9 @@ def find_order(session: Session, ref: str) -> PurchaseOrder:
         po = session.exec(select(PurchaseOrder).where(
             PurchaseOrder.ref == ref.strip().upper())).first()
     if po is None:
-        close = lookup.suggest(ref, list(session.exec(select(PurchaseOrder.ref))))
-        hint = f"did you mean {', '.join(close)}?" if close else \
-            "see `inventory order list`, or omit --order for a delivery without an order"
+        hint = lookup.did_you_mean(
+            ref, list(session.exec(select(PurchaseOrder.ref))),
+            "see `inventory order list`, or omit --order for a delivery without an order")
         raise InventoryError(f"unknown purchase order {ref!r}", kind="unknown", hint=hint)
     return po
 
