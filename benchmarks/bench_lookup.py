@@ -11,7 +11,7 @@ in-memory SQLite database with indexes on kind and the dimensions, then
   key dimensions lie in a window around what would fit (a candidate filter only: it gives
   no verdicts, so it does less work than the fit rules).
 
-The synthetic parts and seats come from :mod:`inventory.domain.synthetic` (seeded). Prints
+The synthetic parts and seats come from :mod:`tests.support.synthetic` (seeded). Prints
 one table with PASS/FAIL per target; ``--strict`` exits non-zero when a target is missed.
 
     python benchmarks/bench_lookup.py [--parts 100000] [--seats 200] [--queries 500] [--strict]
@@ -30,16 +30,16 @@ import numpy as np
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from inventory.domain.fit import kind_applies  # noqa: E402
-from inventory.domain.matching import (  # noqa: E402
+from inventory.bench.fit import kind_applies  # noqa: E402
+from inventory.bench.matching import (  # noqa: E402
     MatchQuery,
     MatchTolerance,
     PartArrays,
     fit_matrix,
     match,
 )
-from inventory.domain.model import Gland, PartKind, PartSpec, SeatSpec  # noqa: E402
-from inventory.domain.synthetic import synthetic_parts, synthetic_seats  # noqa: E402
+from inventory.core.model import Gland, PartKind, PartSpec, SeatSpec  # noqa: E402
+from tests.support.synthetic import synthetic_parts, synthetic_seats  # noqa: E402
 
 MATCH_P50_MS = 2.0
 MATCH_P95_MS = 10.0

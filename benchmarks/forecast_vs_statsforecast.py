@@ -6,12 +6,12 @@ Data: ../shared/data/carparts_dev.csv next to the repository (override with --cs
 INVENTORY_CARPARTS_CSV environment variable); skipped with a message when absent.
 
 Protocol (issue 5, item 8), the same simulator for every row
-(:func:`inventory.backtest.simulate_order_up_to`): train on all but the last ``horizon``
+(:func:`inventory.ordering.backtest.simulate_order_up_to`): train on all but the last ``horizon``
 months, one order-up-to level per series, monthly review, lead time 1 month, backorders,
 whole units, on hand starting at the level. Pooled fill = units served from the shelf /
 units demanded; on hand = average end-of-month units per series per month.
 
-- Ours: :func:`inventory.backtest.run_backtests` at 90/95/98 % (forecast chosen by rolling
+- Ours: :func:`inventory.ordering.backtest.run_backtests` at 90/95/98 % (forecast chosen by rolling
   origin, negative binomial demand over lead time + review, fill-rate-exact levels). The
   headline (and the fill targets checked) is ``allocation="uniform"``: one per-part target
   set so the expected POOLED fill meets the asked rate, since the pooled fill rate is what
@@ -47,9 +47,10 @@ import numpy as np  # noqa: E402
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from inventory import backtest as bt  # noqa: E402
-from inventory.domain import accuracy, policy  # noqa: E402
-from inventory.domain import forecast as fc  # noqa: E402
+from inventory.forecast import accuracy  # noqa: E402
+from inventory.forecast import methods as fc  # noqa: E402
+from inventory.ordering import backtest as bt  # noqa: E402
+from inventory.ordering import policy  # noqa: E402
 
 DEFAULT_CSV = ROOT.parent / "shared" / "data" / "carparts_dev.csv"
 LEAD_TIME = 1

@@ -29,10 +29,11 @@ from sqlmodel import Session
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from inventory.store import ledger, migrate  # noqa: E402
-from inventory.store.catalog import load_catalog  # noqa: E402
-from inventory.store.db import make_engine, transaction  # noqa: E402
-from inventory.store.imports import ImportSettings, run_import  # noqa: E402
+from inventory.catalog.load import load_catalog  # noqa: E402
+from inventory.core import migrate  # noqa: E402
+from inventory.core.db import make_engine, transaction  # noqa: E402
+from inventory.history.imports import ImportSettings, run_import  # noqa: E402
+from inventory.stock import ledger  # noqa: E402
 
 DEMO = ROOT / "catalog_demo"
 HEADER = ["job", "date", "fork", "service", "hours", "fork_ref", "item", "qty"]

@@ -3,10 +3,10 @@
 Target (issue 6): <= 5 s for the whole plan. Measured on invented data (seeded), through the
 same pure path the ``plan`` command takes after reading the store:
 
-1. forecast: :func:`inventory.domain.forecast.fit_forecast` and
-   :func:`~inventory.domain.forecast.fit_distribution` on 36 months of seasonal, lumpy
+1. forecast: :func:`inventory.forecast.methods.fit_forecast` and
+   :func:`~inventory.forecast.methods.fit_distribution` on 36 months of seasonal, lumpy
    demand per part (negative binomial, a spring peak; a tenth of the parts never sold);
-2. plan: :func:`inventory.domain.ordering.plan_orders` with two supply options for half the
+2. plan: :func:`inventory.ordering.plan.plan_orders` with two supply options for half the
    parts (different price, pack, minimum, lead time), five suppliers with minimum order
    values, elastomer parts under ISO 2230 shelf-life caps, stock and open orders.
 
@@ -30,9 +30,8 @@ import numpy as np
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from inventory.domain import forecast as fc  # noqa: E402
-from inventory.domain.ordering import plan_orders  # noqa: E402
-from inventory.domain.ordering_model import (  # noqa: E402
+from inventory.forecast import methods as fc  # noqa: E402
+from inventory.ordering.model import (  # noqa: E402
     DemandForecast,
     PartStock,
     PlanOptions,
@@ -40,6 +39,7 @@ from inventory.domain.ordering_model import (  # noqa: E402
     SupplierTerms,
     SupplyOption,
 )
+from inventory.ordering.plan import plan_orders  # noqa: E402
 
 AS_OF = date(2026, 12, 2)
 SUPPLIERS = {

@@ -243,11 +243,11 @@ def child(url: str, outdir: str, method: str) -> None:
 
     from sqlmodel import Session
 
-    from inventory.reporting.html import write_month_html
-    from inventory.reporting.month import load_month, parse_month
-    from inventory.reporting.month_report import assemble, report_dict
-    from inventory.reporting.workbook import write_month_workbook
-    from inventory.store.db import make_engine
+    from inventory.core.db import make_engine
+    from inventory.monthend.aggregates import load_month, parse_month
+    from inventory.monthend.html import write_month_html
+    from inventory.monthend.report import assemble, report_dict
+    from inventory.monthend.workbook import write_month_workbook
 
     today = _date.fromisoformat(TODAY)
     t: dict[str, float] = {}
@@ -321,8 +321,8 @@ def _drop(admin: str, name: str | None) -> None:
 
 
 def bench(backend: str, args) -> list[tuple]:
-    from inventory.store import migrate
-    from inventory.store.db import make_engine
+    from inventory.core import migrate
+    from inventory.core.db import make_engine
 
     tmp = Path(tempfile.mkdtemp(prefix="inv_bench_"))
     url, name = _create(backend, tmp, args.pg_admin)

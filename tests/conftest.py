@@ -14,8 +14,8 @@ from pathlib import Path
 
 import pytest
 
-from inventory.store import migrate
-from inventory.store.db import dispose_all, make_engine, transaction
+from inventory.core import migrate
+from inventory.core.db import dispose_all, make_engine, transaction
 
 PG_ADMIN_URL = os.environ.get("INVENTORY_TEST_PG", "postgresql+psycopg://postgres@127.0.0.1:5432/postgres")
 IN_CI = os.environ.get("CI", "").lower() == "true"
@@ -129,7 +129,7 @@ def store(db_url, tmp_path):
     """A migrated database holding the tiny catalog; yields the engine."""
     engine = make_engine(db_url, fresh=True)
     migrate.upgrade(engine)
-    from inventory.store.catalog import load_catalog
+    from inventory.catalog.load import load_catalog
 
     with transaction(engine) as s:
         load_catalog(s, write_catalog(tmp_path / "cat"))

@@ -16,7 +16,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from inventory import backtest as bt
+from inventory.ordering import backtest as bt
 
 CARPARTS = Path(os.environ.get(
     "INVENTORY_CARPARTS_CSV",
@@ -144,7 +144,7 @@ def test_small_backtest_on_carparts() -> None:
     sim = bt.simulate_order_up_to(hi.levels, test)
     assert hi.fill_rate == pytest.approx(sim.served.sum() / test.sum())
     # RMSSE as the M5 guide defines it, recomputed from the forecast
-    from inventory.domain import forecast as fc
+    from inventory.forecast import methods as fc
 
     res = fc.fit_forecast(t.values[:, :-6], season_pos=t.season_pos()[:-6],
                           options=fc.FitOptions(horizon=6))

@@ -20,15 +20,16 @@ import numpy as np
 import pytest
 from openpyxl import load_workbook
 
+from inventory.bench.fit import CAUTION, fit
+from inventory.bench.matching import PartArrays
+from inventory.catalog.load import load_catalog
 from inventory.cli import common
 from inventory.cli.bench_cmd import bench_tour
 from inventory.cli.main import run
-from inventory.domain.fit import CAUTION, fit
-from inventory.domain.matching import PartArrays
-from inventory.store import ledger, migrate
-from inventory.store.catalog import load_catalog
-from inventory.store.convert import all_parts, all_seats
-from inventory.store.db import dispose_all, make_engine, transaction
+from inventory.core import migrate
+from inventory.core.convert import all_parts, all_seats
+from inventory.core.db import dispose_all, make_engine, transaction
+from inventory.stock import ledger
 
 CATALOG = {
     "locations.csv": "code,description\nMAIN,Store room\nBENCH,Bench drawer\n",
@@ -444,7 +445,7 @@ def test_arrays_of_the_shop_exclude_consumables(shop):
     engine = make_engine(f"sqlite:///{shop}")
     from sqlmodel import Session
 
-    from inventory.cli.bench_service import load_shop
+    from inventory.bench.service import load_shop
 
     with Session(engine) as s:
         loaded = load_shop(s)

@@ -6,11 +6,11 @@ from __future__ import annotations
 import pytest
 from sqlmodel import Session, select
 
-from inventory.errors import InventoryError
-from inventory.store import migrate
-from inventory.store.catalog import catalog_records, export_catalog, load_catalog
-from inventory.store.db import make_engine, transaction
-from inventory.store.models import Part
+from inventory.catalog.load import catalog_records, export_catalog, load_catalog
+from inventory.core import migrate
+from inventory.core.db import make_engine, transaction
+from inventory.core.errors import InventoryError
+from inventory.core.tables import Part
 from tests.conftest import TINY, write_catalog
 
 

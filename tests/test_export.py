@@ -13,12 +13,13 @@ import pytest
 from openpyxl import load_workbook
 from sqlmodel import Session
 
-from inventory.store import ledger, migrate
-from inventory.store.catalog import load_catalog
-from inventory.store.db import make_engine, transaction
-from inventory.store.exports import TABLES, export_table, write_template
-from inventory.store.imports import KINDS, ImportSettings, run_import
-from inventory.store.jobs import JobItem, list_jobs, record_job
+from inventory.catalog.load import load_catalog
+from inventory.core import migrate
+from inventory.core.db import make_engine, transaction
+from inventory.history.exports import TABLES, export_table, write_template
+from inventory.history.imports import KINDS, ImportSettings, run_import
+from inventory.history.jobs import JobItem, list_jobs, record_job
+from inventory.stock import ledger
 from tests.conftest import write_catalog
 from tests.test_import_support import cli
 from tests.test_sheets_write import soffice_sheets

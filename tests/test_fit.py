@@ -13,16 +13,16 @@ import math
 import numpy as np
 import pytest
 
-from inventory.domain.fit import CAUTION, FitRules, Verdict, fit, kind_applies
-from inventory.domain.fit_geometry import (
+from inventory.bench.fit import CAUTION, FitRules, Verdict, fit, kind_applies
+from inventory.bench.fit_geometry import (
     oring_gland,
     polytropic_pressure,
     spacer_end_pressure,
     stretched_cross_section,
 )
-from inventory.domain.fit_rules import Limit
-from inventory.domain.model import Gland, Medium, Motion, PartKind, PartSpec, SeatSpec
-from inventory.domain.tolerances import limits
+from inventory.bench.fit_rules import Limit
+from inventory.bench.tolerances import limits
+from inventory.core.model import Gland, Medium, Motion, PartKind, PartSpec, SeatSpec
 
 # --------------------------------------------------------------------- the worked gland
 

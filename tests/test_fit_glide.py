@@ -13,10 +13,10 @@ import dataclasses
 import numpy as np
 import pytest
 
-from inventory.domain.fit import FitRules, Verdict, fit
-from inventory.domain.matching import PartArrays, fit_matrix
-from inventory.domain.model import Gland, Medium, Motion, PartKind, PartSpec, SeatSpec
-from inventory.domain.synthetic import parts_near
+from inventory.bench.fit import FitRules, Verdict, fit
+from inventory.bench.matching import PartArrays, fit_matrix
+from inventory.core.model import Gland, Medium, Motion, PartKind, PartSpec, SeatSpec
+from tests.support.synthetic import parts_near
 
 # An air-piston guide groove: bore 31.20 H8, groove root 28.10, groove width 5.80 mm
 PISTON = SeatSpec("FAM-G", "air_piston_guide", "air_piston", PartKind.GLIDE_RING,

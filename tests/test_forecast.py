@@ -27,9 +27,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from inventory.domain import demand as dm
-from inventory.domain import forecast as fc
-from inventory.domain.model import KitSpec, ServiceLevel
+from inventory.core.model import KitSpec, ServiceLevel
+from inventory.forecast import demand as dm
+from inventory.forecast import methods as fc
 
 statsforecast_models = pytest.importorskip("statsforecast.models")
 

@@ -20,11 +20,11 @@ import pytest
 from scipy import stats
 from sqlmodel import Session
 
-from inventory.app import forecasting as F
-from inventory.app.forecast_data import load_history
-from inventory.store import ledger
-from inventory.store.db import transaction
-from inventory.store.jobs import JobItem, JobSpec, record_jobs
+from inventory.core.db import transaction
+from inventory.forecast import service as F
+from inventory.forecast.data import load_history
+from inventory.history.jobs import JobItem, JobSpec, record_jobs
+from inventory.stock import ledger
 
 # jobs per calendar month (Jan..Dec): a spring peak and a winter trough
 SEASON = [1, 2, 3, 5, 6, 5, 4, 3, 3, 2, 1, 1]

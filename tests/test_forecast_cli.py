@@ -17,7 +17,7 @@ import numpy as np
 import pytest
 from openpyxl import load_workbook
 
-from inventory.store.db import dispose_all, make_engine
+from inventory.core.db import dispose_all, make_engine
 from tests.conftest import inv, write_catalog
 from tests.test_forecast_app import build
 
@@ -132,7 +132,7 @@ def test_backtest_small_wide_csv_by_hand(tmp_path, monkeypatch, capsys):
     assert doc["series"] == 3 and doc["horizon"] == 4 and doc["allocation"] == "part"
     # re-simulate by hand from the levels the library computed: order up to S each month,
     # lead time 1, backorders, on hand starting at S
-    from inventory import backtest as bt
+    from inventory.ordering import backtest as bt
 
     table = bt.read_demand_csv(f)
     res = bt.run_backtest(table.values, table.names, horizon=4, allocation="part",

@@ -11,13 +11,13 @@ import pytest
 from openpyxl import load_workbook
 from sqlmodel import Session, select
 
-from inventory.errors import InventoryError
+from inventory.core.db import transaction
+from inventory.core.errors import InventoryError
+from inventory.core.tables import ForkAlias, ImportBatch, Lot, Part
+from inventory.history.imports import ImportSettings, run_import
+from inventory.history.jobs import list_jobs
 from inventory.sheets.review import answer_review
-from inventory.store import ledger
-from inventory.store.db import transaction
-from inventory.store.imports import ImportSettings, run_import
-from inventory.store.jobs import list_jobs
-from inventory.store.models import ForkAlias, ImportBatch, Lot, Part
+from inventory.stock import ledger
 from tests.test_import_support import HISTORY_HEADER, book, csv_file, snapshot
 
 TODAY = date(2026, 6, 30)

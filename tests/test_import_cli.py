@@ -9,7 +9,7 @@ import zipfile
 import pytest
 from openpyxl import Workbook
 
-from inventory.store.db import make_engine
+from inventory.core.db import make_engine
 from tests.conftest import write_catalog
 from tests.test_import_support import HISTORY_HEADER, book, cli, csv_file, snapshot
 

@@ -10,10 +10,10 @@ from pathlib import Path
 import pytest
 from sqlmodel import Session, select
 
-from inventory.demo import build_demo
+from inventory.core.db import make_engine
+from inventory.core.tables import ForkAlias, ImportBatch
+from inventory.demo.build import build_demo
 from inventory.sheets.review import answer_review
-from inventory.store.db import make_engine
-from inventory.store.models import ForkAlias, ImportBatch
 from tests.test_import_support import cli, snapshot
 
 DEMO = Path(__file__).resolve().parent.parent / "catalog_demo"

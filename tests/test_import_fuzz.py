@@ -12,8 +12,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from openpyxl import Workbook
 
-from inventory.store.db import make_engine
-from inventory.store.imports import KINDS, SCHEMAS
+from inventory.core.db import make_engine
+from inventory.history.imports import KINDS, SCHEMAS
 from tests.conftest import (
     IN_CI,
     PG_ADMIN_URL,

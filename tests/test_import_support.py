@@ -13,7 +13,7 @@ from openpyxl import Workbook
 from sqlalchemy import func
 from sqlmodel import Session, select
 
-from inventory.store.models import (
+from inventory.core.tables import (
     ForkAlias,
     ImportBatch,
     ImportedRow,

@@ -15,8 +15,8 @@ from datetime import date, timedelta
 import numpy as np
 import pytest
 
-from inventory.domain import installed_base as ib
-from inventory.domain.model import KitSpec, ServiceLevel
+from inventory.core.model import KitSpec, ServiceLevel
+from inventory.forecast import installed_base as ib
 
 FLAT = ib.ReturnOptions(prior_days=0.0)  # a fork's rate from its own intervals only
 

@@ -12,10 +12,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from sqlmodel import Session, select
 
-from inventory.errors import InventoryError
-from inventory.store import ledger
-from inventory.store.jobs import JobItem, JobSpec, record_job, record_jobs, service_level
-from inventory.store.models import Lot, Movement
+from inventory.core.errors import InventoryError
+from inventory.core.tables import Lot, Movement
+from inventory.history.jobs import JobItem, JobSpec, record_job, record_jobs, service_level
+from inventory.stock import ledger
 from tests.conftest import write_catalog
 from tests.test_import_support import cli
 

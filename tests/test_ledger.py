@@ -16,10 +16,10 @@ from hypothesis import strategies as st
 from sqlalchemy import delete
 from sqlmodel import Session, select
 
-from inventory.errors import InventoryError
-from inventory.store import ledger
-from inventory.store.db import transaction
-from inventory.store.models import Lot, Movement, StockBalance
+from inventory.core.db import transaction
+from inventory.core.errors import InventoryError
+from inventory.core.tables import Lot, Movement, StockBalance
+from inventory.stock import ledger
 
 
 def test_receive_issue_fifo_by_cure_quarter(store):

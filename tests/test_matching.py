@@ -14,8 +14,8 @@ import time
 import numpy as np
 import pytest
 
-from inventory.domain.fit import Verdict, fit, kind_applies
-from inventory.domain.matching import (
+from inventory.bench.fit import Verdict, fit, kind_applies
+from inventory.bench.matching import (
     MatchQuery,
     MatchTolerance,
     MatchWeights,
@@ -25,10 +25,10 @@ from inventory.domain.matching import (
     parts_fitting,
     standard_part_arrays,
 )
-from inventory.domain.model import Gland, Medium, Motion, PartKind, PartSpec, SeatSpec
-from inventory.domain.sizes import standard_orings
-from inventory.domain.synthetic import KINDS, parts_near, synthetic_parts, synthetic_seats
-from inventory.domain.units import parse_length
+from inventory.bench.sizes import standard_orings
+from inventory.core.model import Gland, Medium, Motion, PartKind, PartSpec, SeatSpec
+from inventory.core.units import parse_length
+from tests.support.synthetic import KINDS, parts_near, synthetic_parts, synthetic_seats
 
 # ------------------------------------------------------------------ standard series
 

@@ -9,9 +9,10 @@ from alembic.runtime.migration import MigrationContext
 from sqlalchemy import text
 from sqlmodel import Session, SQLModel
 
-from inventory.errors import InventoryError
-from inventory.store import ledger, migrate
-from inventory.store.db import make_engine, transaction
+from inventory.core import migrate
+from inventory.core.db import make_engine, transaction
+from inventory.core.errors import InventoryError
+from inventory.stock import ledger
 
 
 def test_empty_to_head_matches_models(db_url):

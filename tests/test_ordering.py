@@ -30,10 +30,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from inventory.domain import distributions as dd
-from inventory.domain.model import KitSpec, ServiceLevel
-from inventory.domain.ordering import PlanningError, plan_orders
-from inventory.domain.ordering_model import (
+from inventory.core.model import KitSpec, ServiceLevel
+from inventory.forecast import distributions as dd
+from inventory.ordering.calendar import DemandCalendar, positions
+from inventory.ordering.model import (
     DemandForecast,
     PartStock,
     PlanOptions,
@@ -41,8 +41,8 @@ from inventory.domain.ordering_model import (
     SupplierTerms,
     SupplyOption,
 )
-from inventory.domain.ordering_rules import greedy_budget, round_order
-from inventory.domain.ordering_time import DemandCalendar, positions
+from inventory.ordering.plan import PlanningError, plan_orders
+from inventory.ordering.rules import greedy_budget, round_order
 
 stockpyl_eoq = pytest.importorskip("stockpyl.eoq")
 stockpyl_nv = pytest.importorskip("stockpyl.newsvendor")

@@ -11,12 +11,12 @@ from decimal import Decimal
 import pytest
 from sqlmodel import Session, select
 
-from inventory.domain.ordering_model import DraftLine, DraftOrder
-from inventory.errors import InventoryError
-from inventory.store import ledger
-from inventory.store.db import transaction
-from inventory.store.models import Lot, PurchaseOrder, PurchaseOrderLine
-from inventory.store.orders import create_orders, list_orders, receive_against_order
+from inventory.core.db import transaction
+from inventory.core.errors import InventoryError
+from inventory.core.tables import Lot, PurchaseOrder, PurchaseOrderLine
+from inventory.ordering.model import DraftLine, DraftOrder
+from inventory.ordering.orders import create_orders, list_orders, receive_against_order
+from inventory.stock import ledger
 
 DAY = date(2026, 12, 2)
 TS = datetime(2026, 12, 2, 12, tzinfo=UTC)
@@ -129,7 +129,7 @@ def test_plan_reads_open_orders_and_usable_stock(store):
     # the planning use case on each backend: quantities still due on open orders count as
     # on order; a lot past its ISO 2230 period (AU, group A: 5 years from the end of
     # 2019Q1, REFERENCE.md 5) is not counted as on hand
-    from inventory.app.planning import make_plan
+    from inventory.ordering.service import make_plan
 
     with transaction(store) as s:
         ledger.receive(s, "WP-32", 3, "6.50", lot="OLD", cured="2019Q1", location="BENCH",

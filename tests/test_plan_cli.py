@@ -13,9 +13,10 @@ from decimal import Decimal
 import pytest
 from openpyxl import load_workbook
 
-from inventory.store import ledger, migrate
-from inventory.store.catalog import load_catalog
-from inventory.store.db import dispose_all, make_engine, transaction
+from inventory.catalog.load import load_catalog
+from inventory.core import migrate
+from inventory.core.db import dispose_all, make_engine, transaction
+from inventory.stock import ledger
 from tests.conftest import inv, write_catalog
 
 TODAY = "2026-12-02"

@@ -20,8 +20,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import integrate, stats
 
-from inventory.domain import distributions as dd
-from inventory.domain import policy
+from inventory.forecast import distributions as dd
+from inventory.ordering import policy
 
 stockpyl_eoq = pytest.importorskip("stockpyl.eoq")
 stockpyl_loss = pytest.importorskip("stockpyl.loss_functions")
@@ -227,7 +227,7 @@ def test_cycle_fill_rate_matches_brute_force(lam: float, vmr: float, lead: int,
 
 def test_cycle_fill_rate_agrees_with_a_long_simulation() -> None:
     # a long run of the backtest simulator (periodic review, backorders) at the level
-    from inventory.backtest import simulate_order_up_to
+    from inventory.ordering.backtest import simulate_order_up_to
 
     rng = np.random.default_rng(1)
     lam, vmr, s = 1.2, 2.5, 5

@@ -7,18 +7,18 @@ import multiprocessing as mp
 
 from sqlmodel import Session, select
 
-from inventory.store import ledger
-from inventory.store.db import transaction
-from inventory.store.models import Movement
+from inventory.core.db import transaction
+from inventory.core.tables import Movement
+from inventory.stock import ledger
 
 WORKERS = 6
 UNITS = 3
 
 
 def _worker(url: str, barrier, results) -> None:
-    from inventory.errors import InventoryError
-    from inventory.store.db import make_engine
-    from inventory.store.db import transaction as tx
+    from inventory.core.db import make_engine
+    from inventory.core.db import transaction as tx
+    from inventory.core.errors import InventoryError
 
     engine = make_engine(url, fresh=True)
     barrier.wait()

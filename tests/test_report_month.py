@@ -14,14 +14,14 @@ from hypothesis import strategies as st
 from sqlalchemy import delete, update
 from sqlmodel import Session, select
 
-from inventory.domain import valuation as val
-from inventory.errors import InventoryError
-from inventory.reporting.month import Month, load_month, parse_month
-from inventory.reporting.month_report import ReorderAdvice, assemble, month_report, report_dict
-from inventory.store import ledger
-from inventory.store.db import transaction
-from inventory.store.jobs import JobItem, record_job
-from inventory.store.models import JobLine, Lot, Movement, ServiceJob, StockBalance
+from inventory.core.db import transaction
+from inventory.core.errors import InventoryError
+from inventory.core.tables import JobLine, Lot, Movement, ServiceJob, StockBalance
+from inventory.history.jobs import JobItem, record_job
+from inventory.monthend.aggregates import Month, load_month, parse_month
+from inventory.monthend.report import ReorderAdvice, assemble, month_report, report_dict
+from inventory.stock import ledger
+from inventory.stock import valuation as val
 
 D = Decimal
 TODAY = date(2026, 12, 2)
@@ -188,7 +188,7 @@ _ids: dict = {}
 
 def _part_id(engine, code: str) -> int:
     if code not in _ids:
-        from inventory.store.models import Part
+        from inventory.core.tables import Part
 
         with Session(engine) as s:
             _ids[code] = s.exec(select(Part.id).where(Part.code == code)).one()
@@ -249,7 +249,7 @@ def _stocked(engine) -> None:
 
 def _raw(engine, part: str, lot: str, qty: int, kind: str, cost: str) -> None:
     """A movement written behind the ledger's back, as a faulty import might."""
-    from inventory.store.models import Location, Part
+    from inventory.core.tables import Location, Part
 
     with transaction(engine) as s:
         p = s.exec(select(Part).where(Part.code == part)).one()

@@ -17,13 +17,14 @@ from openpyxl import load_workbook
 from openpyxl.chart import BarChart, LineChart
 from sqlmodel import Session
 
-from inventory.reporting.html import render_html, write_month_html
-from inventory.reporting.month_report import month_report
-from inventory.reporting.workbook import RED, SHEETS, key_figures, write_month_workbook
-from inventory.store import ledger, migrate
-from inventory.store.catalog import load_catalog
-from inventory.store.db import make_engine, transaction
-from inventory.store.jobs import JobItem, record_job
+from inventory.catalog.load import load_catalog
+from inventory.core import migrate
+from inventory.core.db import make_engine, transaction
+from inventory.history.jobs import JobItem, record_job
+from inventory.monthend.html import render_html, write_month_html
+from inventory.monthend.report import month_report
+from inventory.monthend.workbook import RED, SHEETS, key_figures, write_month_workbook
+from inventory.stock import ledger
 from tests.conftest import TINY, write_catalog
 
 TODAY = date(2026, 12, 2)

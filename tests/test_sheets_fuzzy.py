@@ -6,9 +6,9 @@ from __future__ import annotations
 import pytest
 from rapidfuzz import fuzz
 
+from inventory.history.imports import COUNTS, HISTORY
 from inventory.sheets.columns import normalise
 from inventory.sheets.fuzzy import Choice, header_score, match_headers, rank
-from inventory.store.imports import COUNTS, HISTORY
 
 TILL = ["Job No.", "Date in", "Fork model", "Servce type", "Hrs", "Serial", "Part no",
         "Quantitiy", "Tech", "Notes"]

@@ -12,7 +12,7 @@ from pathlib import Path
 import pytest
 from openpyxl import Workbook, load_workbook
 
-from inventory.errors import InventoryError
+from inventory.core.errors import InventoryError
 from inventory.sheets.read import csv_grid, read_tables
 from inventory.sheets.source import read_source
 from inventory.sheets.xlsx import formula_cells, is_1904

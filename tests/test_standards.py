@@ -12,8 +12,8 @@ from datetime import date
 import numpy as np
 import pytest
 
-from inventory.domain import seals, sizes, tolerances
-from inventory.domain.sizes import (
+from inventory.bench import seals, sizes, tolerances
+from inventory.bench.sizes import (
     as568_rings,
     iso3601_class_b_id_tolerance,
     iso3601_rings,

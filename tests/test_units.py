@@ -12,9 +12,9 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from inventory.domain.model import PartKind
-from inventory.domain.seals import check_plausible, parse_dimension
-from inventory.domain.units import (
+from inventory.bench.seals import check_plausible, parse_dimension
+from inventory.core.model import PartKind
+from inventory.core.units import (
     MM_PER_INCH,
     check_range,
     format_length,

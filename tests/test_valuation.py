@@ -13,7 +13,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 from scipy import stats
 
-from inventory.domain import valuation as val
+from inventory.stock import valuation as val
 
 D = Decimal
 

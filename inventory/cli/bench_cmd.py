@@ -1,9 +1,9 @@
 """Bench lookup commands: ``inventory match``, ``inventory fit``, ``inventory compat`` and
 ``inventory parts find``; :func:`bench_tour` shows them on the demo shop.
 
-Thin commands: parse the options (:mod:`inventory.cli.bench_service`), call one function,
+Thin commands: parse the options (:mod:`inventory.bench.service`), call one function,
 render a rich table or ``--json``. Every match and fit output ends with the one-line
-caution (:data:`inventory.domain.fit.CAUTION`).
+caution (:data:`inventory.bench.fit.CAUTION`).
 """
 
 from __future__ import annotations
@@ -14,17 +14,17 @@ from pathlib import Path
 import typer
 from sqlmodel import Session
 
-from inventory.cli import bench_service as svc
+from inventory.bench import service as svc
+from inventory.bench.fit import CAUTION, FitResult, FitRules, fit, kind_applies
+from inventory.bench.matching import MatchQuery, PartArrays, standard_part_arrays
+from inventory.bench.part_search import find_parts
 from inventory.cli.common import console, print_json, print_table, reading, say
-from inventory.domain.fit import CAUTION, FitResult, FitRules, fit, kind_applies
-from inventory.domain.matching import MatchQuery, PartArrays, standard_part_arrays
-from inventory.domain.model import PartKind
-from inventory.domain.part_search import find_parts
-from inventory.domain.units import format_length
-from inventory.errors import InventoryError
-from inventory.store import lookup
-from inventory.store.convert import all_seats
-from inventory.store.db import make_engine
+from inventory.core import lookup
+from inventory.core.convert import all_seats
+from inventory.core.db import make_engine
+from inventory.core.errors import InventoryError
+from inventory.core.model import PartKind
+from inventory.core.units import format_length
 
 parts_app = typer.Typer(help="Look parts up in the shop's catalog.", no_args_is_help=True)
 
@@ -268,7 +268,7 @@ def compat(ctx: typer.Context,
            as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
     """Every seat of every fork family against every part of a kind that goes there,
     computed by the fit rules: a table, --json, or a workbook (--xlsx)."""
-    from inventory.reporting.compat import build_compat, sheet_title, write_compat
+    from inventory.bench.compat import build_compat, sheet_title, write_compat
 
     wanted = svc.parse_kind(kind)
     with reading(ctx) as s:

@@ -6,8 +6,8 @@ from pathlib import Path
 
 import typer
 
+from inventory.catalog.load import ORDER, export_catalog, load_catalog
 from inventory.cli.common import print_json, reading, say, unit_of_work
-from inventory.store.catalog import ORDER, export_catalog, load_catalog
 
 app = typer.Typer(help="Load and export the catalog (csv folder or xlsx workbook).",
                   no_args_is_help=True)

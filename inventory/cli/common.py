@@ -20,9 +20,9 @@ from rich.table import Table
 from sqlalchemy.engine import Engine, make_url
 from sqlmodel import Session
 
-from inventory.errors import InventoryError
-from inventory.store import migrate
-from inventory.store.db import make_engine, resolve_url, transaction
+from inventory.core import migrate
+from inventory.core.db import make_engine, resolve_url, transaction
+from inventory.core.errors import InventoryError
 
 console = Console()
 err_console = Console(stderr=True)

@@ -1,8 +1,8 @@
 """``inventory forecast`` and ``inventory backtest``; :func:`forecast_tour` shows the demo
 shop's next season.
 
-Thin commands: parse, call one library function (:func:`inventory.app.forecasting.
-forecast_items`, :func:`inventory.backtest.run_backtest`), render a table or ``--json``,
+Thin commands: parse, call one library function (:func:`inventory.forecast.service.
+forecast_items`, :func:`inventory.ordering.backtest.run_backtest`), render a table or ``--json``,
 write the workbook and charts.
 """
 
@@ -21,10 +21,10 @@ from rich.progress import BarColumn, Progress, SpinnerColumn, TextColumn, TimeEl
 from rich.table import Table
 
 from inventory.cli.common import console, err_console, print_json, print_table, reading, say
-from inventory.errors import InventoryError, Problem
+from inventory.core.errors import InventoryError, Problem
 
 if TYPE_CHECKING:  # the forecaster loads scipy: imported when a command runs, not at start-up
-    from inventory.app.forecasting import By, ForecastReport
+    from inventory.forecast.service import By, ForecastReport
 
 BY_CHOICES = ("part", "kit", "family", "item")
 ALLOCATIONS = ("uniform", "part", "marginal")
@@ -129,7 +129,7 @@ def forecast(
     today: str = typer.Option(None, "--today", help="Forecast from this day (default today)."),
 ) -> None:
     """Forecast demand per part, kit or fork family, with a range, a workbook and charts."""
-    from inventory.app.forecasting import forecast_items
+    from inventory.forecast.service import forecast_items
 
     if by not in BY_CHOICES:
         raise InventoryError(f"--by must be one of {', '.join(BY_CHOICES)}, got {by!r}")
@@ -157,8 +157,8 @@ def write_outputs(report: ForecastReport, chosen: list, *, xlsx: Path | None,
                   step: Any = None) -> list[Path]:
     """Write the workbook and the PNG charts (to the defaults under ``reports_dir`` unless
     given, when ``defaults``); returns the files written."""
-    from inventory.reporting.forecast_book import write_forecast_book
-    from inventory.reporting.forecast_charts import write_charts
+    from inventory.forecast.book import write_forecast_book
+    from inventory.forecast.charts import write_charts
 
     stamp = report.forecast_periods[0].strftime("%Y-%m") if report.forecast_periods else "x"
     if xlsx is None and defaults:
@@ -181,7 +181,7 @@ def write_outputs(report: ForecastReport, chosen: list, *, xlsx: Path | None,
 
 
 def _read_csv(path: Path):
-    from inventory.backtest import DemandFileError, read_demand_csv
+    from inventory.ordering.backtest import DemandFileError, read_demand_csv
 
     if not path.exists():
         raise InventoryError(f"no file {path}", kind="unknown",
@@ -216,7 +216,7 @@ def backtest(
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:
     """Backtest forecast + order-up-to policy on a demand history outside the database."""
-    from inventory import backtest as bt
+    from inventory.ordering import backtest as bt
 
     if allocation not in ALLOCATIONS:
         raise InventoryError(f"--allocation must be one of {', '.join(ALLOCATIONS)}, "
@@ -294,8 +294,8 @@ def forecast_tour(url: str, reports_dir: str | Path = "reports", *,
     (the demo's "today", 2026-12-02), a short table, and where the workbook and charts went."""
     from sqlmodel import Session
 
-    from inventory.app.forecasting import forecast_items
-    from inventory.store.db import make_engine
+    from inventory.core.db import make_engine
+    from inventory.forecast.service import forecast_items
 
     day = today or date(2026, 12, 2)
     engine = make_engine(url)

@@ -8,9 +8,9 @@ from pathlib import Path
 import typer
 
 from inventory.cli.common import console, print_json, print_table, reading, unit_of_work
-from inventory.errors import InventoryError, Problem
-from inventory.store.exports import TABLES, export_table, write_template
-from inventory.store.imports import KINDS, ImportReport, ImportSettings, run_import
+from inventory.core.errors import InventoryError, Problem
+from inventory.history.exports import TABLES, export_table, write_template
+from inventory.history.imports import KINDS, ImportReport, ImportSettings, run_import
 
 ORDERS = {"dmy": "dmy", "day-first": "dmy", "dayfirst": "dmy", "mdy": "mdy",
           "month-first": "mdy", "monthfirst": "mdy"}

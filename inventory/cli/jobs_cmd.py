@@ -7,10 +7,9 @@ from datetime import date
 import typer
 
 from inventory.cli.common import console, print_json, print_table, reading, unit_of_work
-from inventory.errors import InventoryError
-from inventory.sheets import dates
-from inventory.store import lookup
-from inventory.store.jobs import (
+from inventory.core import lookup
+from inventory.core.errors import InventoryError
+from inventory.history.jobs import (
     JobItem,
     fork_choices,
     job_detail,
@@ -20,6 +19,7 @@ from inventory.store.jobs import (
     resolve_fork_text,
     service_level,
 )
+from inventory.sheets import dates
 
 app = typer.Typer(help="Record service jobs (stock is taken through the ledger) and look "
                        "them up.", no_args_is_help=True)

@@ -19,7 +19,7 @@ from inventory.cli import (
     stock,
 )
 from inventory.cli.common import AppState, err_console, say, state
-from inventory.errors import InventoryError
+from inventory.core.errors import InventoryError
 
 app = typer.Typer(
     name="inventory",
@@ -42,7 +42,7 @@ def main(ctx: typer.Context,
 def init(ctx: typer.Context) -> None:
     """Create the database, or upgrade it to this version's schema."""
     from inventory.cli.common import engine
-    from inventory.store import migrate
+    from inventory.core import migrate
 
     eng = engine(ctx, check_schema=False)
     before = migrate.current_revision(eng)
@@ -61,7 +61,7 @@ def demo(ctx: typer.Context,
          reports: str = typer.Option("reports", "--reports", help="Folder for reports."),
          quick: bool = typer.Option(False, "--quick", help="Build only, no tour.")) -> None:
     """Build a fresh demo shop database from catalog_demo and show what the tool does."""
-    from inventory.demo import build_demo, tour
+    from inventory.demo.build import build_demo, tour
 
     url = build_demo(db)
     if not quick:

@@ -1,6 +1,6 @@
 """`inventory plan` and `inventory order ...`: the replenishment plan and its purchase orders.
 
-Thin: parse, call :func:`inventory.app.planning.make_plan` or :mod:`inventory.store.orders`,
+Thin: parse, call :func:`inventory.ordering.service.make_plan` or :mod:`inventory.ordering.orders`,
 render (rich tables for people, ``--json`` for programs, a workbook with ``--xlsx``).
 """
 
@@ -13,7 +13,7 @@ from pathlib import Path
 import typer
 
 from inventory.cli.common import print_json, print_table, reading, say, unit_of_work
-from inventory.errors import InventoryError
+from inventory.core.errors import InventoryError
 
 order_app = typer.Typer(help="Purchase orders: record them from a plan, list them.",
                         no_args_is_help=True)
@@ -90,8 +90,8 @@ def plan(ctx: typer.Context,
     """Purchase orders per supplier, every line with its reason."""
     from dataclasses import replace
 
-    from inventory.app.planning import make_plan, plan_to_dict
-    from inventory.domain.ordering_model import PlanOptions
+    from inventory.ordering.model import PlanOptions
+    from inventory.ordering.service import make_plan, plan_to_dict
 
     if kits not in ("stock", "cheaper", "whole"):
         raise InventoryError(f"bad --kits {kits!r}: use stock, cheaper or whole")
@@ -108,7 +108,7 @@ def plan(ctx: typer.Context,
                            part_targets=_targets(target), parts=part, suppliers=supplier,
                            options=opts)
     if xlsx is not None:
-        from inventory.app.plan_workbook import write_plan_workbook
+        from inventory.ordering.workbook import write_plan_workbook
 
         write_plan_workbook(result, xlsx)
     if as_json:
@@ -148,8 +148,8 @@ def create(ctx: typer.Context,
            as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
            ) -> None:
     """Record a plan's purchase orders as open orders (quantities now on order)."""
-    from inventory.app.plan_workbook import read_plan_file
-    from inventory.store.orders import create_orders
+    from inventory.ordering.orders import create_orders
+    from inventory.ordering.workbook import read_plan_file
 
     drafts = read_plan_file(from_plan)
     with unit_of_work(ctx) as s:
@@ -168,7 +168,7 @@ def list_cmd(ctx: typer.Context,
              as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
              ) -> None:
     """Purchase orders with what is received so far."""
-    from inventory.store.orders import list_orders
+    from inventory.ordering.orders import list_orders
 
     with reading(ctx) as s:
         rows = list_orders(s, status=None if status == "all" else status)

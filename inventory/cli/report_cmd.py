@@ -7,12 +7,12 @@ from pathlib import Path
 
 import typer
 
-from inventory.app.planning import reorder_source
 from inventory.cli.common import print_json, print_table, reading, say
-from inventory.errors import InventoryError
-from inventory.reporting.month import METHODS, parse_month
-from inventory.reporting.month_report import report_dict
-from inventory.reporting.monthend import default_xlsx, write_month_end
+from inventory.core.errors import InventoryError
+from inventory.monthend.aggregates import METHODS, parse_month
+from inventory.monthend.report import report_dict
+from inventory.monthend.service import default_xlsx, write_month_end
+from inventory.ordering.service import reorder_source
 
 app = typer.Typer(help="Month-end reports.", no_args_is_help=True)
 

@@ -8,8 +8,8 @@ from decimal import Decimal, InvalidOperation
 import typer
 
 from inventory.cli.common import print_json, print_table, reading, say, unit_of_work
-from inventory.errors import InventoryError
-from inventory.store import ledger
+from inventory.core.errors import InventoryError
+from inventory.stock import ledger
 
 SIGNED = {"ignore_unknown_options": True}  # lets "-2" through as a quantity
 
@@ -63,7 +63,7 @@ def receive(ctx: typer.Context,
     """Book a delivery into stock."""
     with unit_of_work(ctx) as s:
         if order:
-            from inventory.store.orders import receive_against_order
+            from inventory.ordering.orders import receive_against_order
 
             got = receive_against_order(s, order, part, qty, tolerance=tolerance,
                                         unit_cost=_money(cost), lot=lot, cured=cured,

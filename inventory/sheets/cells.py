@@ -9,7 +9,7 @@ from datetime import date, datetime
 from decimal import Decimal, InvalidOperation
 from typing import Any
 
-from inventory.domain.cure import parse_quarter
+from inventory.core.cure import parse_quarter
 
 Parser = Callable[[Any], Any]
 

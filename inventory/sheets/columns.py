@@ -7,7 +7,7 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
-from inventory.errors import Problem, Source
+from inventory.core.errors import Problem, Source
 from inventory.sheets import cells
 from inventory.sheets.read import Table
 

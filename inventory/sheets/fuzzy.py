@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 
 from rapidfuzz import fuzz, utils
 
-from inventory.errors import Problem, Source
+from inventory.core.errors import Problem, Source
 from inventory.sheets.columns import Schema, normalise
 
 IGNORE = "-"  # ``--map "Notes=-"`` ignores a column

@@ -13,8 +13,8 @@ from __future__ import annotations
 from decimal import Decimal
 from typing import Any
 
-from inventory.domain.model import PartKind, ServiceLevel
-from inventory.domain.units import parse_length
+from inventory.core.model import PartKind, ServiceLevel
+from inventory.core.units import parse_length
 from inventory.sheets import cells
 from inventory.sheets.columns import Column, Schema
 

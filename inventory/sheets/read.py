@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from inventory.errors import InventoryError, Source
+from inventory.core.errors import InventoryError, Source
 from inventory.sheets.cells import is_blank
 
 SPREADSHEET_SUFFIXES = {".xlsx", ".xlsm", ".xls", ".ods"}

@@ -16,7 +16,7 @@ from pathlib import Path
 from openpyxl import Workbook
 from openpyxl.utils import get_column_letter, quote_sheetname
 
-from inventory.errors import InventoryError, Problem, Source
+from inventory.core.errors import InventoryError, Problem, Source
 from inventory.sheets.columns import Column, Schema, parse_table
 from inventory.sheets.fuzzy import Candidate
 from inventory.sheets.read import read_tables

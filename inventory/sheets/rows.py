@@ -18,7 +18,7 @@ from datetime import date
 from operator import itemgetter
 from typing import Any
 
-from inventory.errors import Problem, Source
+from inventory.core.errors import Problem, Source
 from inventory.sheets import dates
 from inventory.sheets.columns import Schema
 from inventory.sheets.fuzzy import HeaderMap

@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from inventory.errors import InventoryError, Source
+from inventory.core.errors import InventoryError, Source
 from inventory.sheets.cells import is_blank
 from inventory.sheets.read import (
     SPREADSHEET_SUFFIXES,

@@ -1,4 +1,4 @@
 """Standard tables shipped as package data (CSV), each opening with a ``# source:`` line.
 
-Read them through :mod:`inventory.domain.sizes`, never by path.
+Read them through :mod:`inventory.bench.sizes`, never by path.
 """

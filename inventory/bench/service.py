@@ -1,0 +1,399 @@
+"""What the bench commands (``match``, ``fit``, ``compat``, ``parts find``) compute, without
+printing: the shop's parts and stock read once from the store, then handed to the pure core
+(:mod:`inventory.bench.matching`, :mod:`inventory.bench.fit`).
+
+Stock candidates carry their on-hand quantity and locations (summed from the ledger) and
+the units in lots past their ISO 2230 storage period (REFERENCE.md 5: counted from the end
+of the cure quarter; a lot inspected and extended is good until its ``extended_until``).
+Standard sizes are "orderable, not stocked".
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from datetime import date
+
+from rapidfuzz import fuzz, process
+from sqlmodel import Session, select
+
+from inventory.bench.fit import CAUTION, FitResult, FitRules, Limit, fit, kind_applies
+from inventory.bench.matching import (
+    Candidate,
+    MatchQuery,
+    MatchTolerance,
+    PartArrays,
+    match,
+    parts_fitting,
+    standard_part_arrays,
+)
+from inventory.bench.seals import (
+    MATERIALS,
+    PLAUSIBLE_MM,
+    is_past_storage_limit,
+    normalise_material,
+    parse_dimension,
+)
+from inventory.bench.sizes import normalise_designation
+from inventory.core import lookup
+from inventory.core.convert import all_seats, part_spec, seat_spec
+from inventory.core.errors import InventoryError
+from inventory.core.model import PartKind, PartSpec, SeatSpec
+from inventory.core.tables import Lot, Part
+from inventory.core.units import check_range, read_length
+from inventory.stock import ledger
+
+#: Kinds that have no dimensions to match or fit (consumables and kits).
+NOT_BENCH_KINDS = frozenset({PartKind.OIL, PartKind.GREASE, PartKind.KIT})
+#: Kinds the standard O-ring series can stand in for.
+RING_KINDS = frozenset({PartKind.O_RING, PartKind.X_RING})
+ORDERABLE = "orderable, not stocked"
+
+_DIM_OPTION = {"id": "--id", "od": "--od", "height": "--height", "cs": "--cs"}
+_DIM_LABEL = {"id": "inside diameter", "od": "outside diameter", "height": "height",
+              "cs": "cross-section"}
+
+
+# ------------------------------------------------------------------------ parsing input
+
+def parse_kind(text: str | None) -> PartKind | None:
+    """A part kind from ``o_ring``, ``o-ring``, ``O ring``; unknown text -> one-line error
+    with the closest kinds."""
+    if text is None:
+        return None
+    key = text.strip().lower().replace("-", "_").replace(" ", "_")
+    kinds = [k.value for k in PartKind if k not in NOT_BENCH_KINDS]
+    if key in kinds:
+        return PartKind(key)
+    close = [c for c, _, _ in process.extract(key, kinds, scorer=fuzz.ratio, limit=3,
+                                              score_cutoff=50)]
+    hint = f"did you mean {', '.join(close)}?" if close else f"one of {', '.join(kinds)}"
+    raise InventoryError(f"unknown seal kind {text!r}", kind="unknown", hint=hint)
+
+
+def parse_material(text: str | None) -> str | None:
+    if text is None:
+        return None
+    key = normalise_material(text)
+    if key in MATERIALS:
+        return key
+    close = [c for c, _, _ in process.extract(key or "", list(MATERIALS), scorer=fuzz.ratio,
+                                              limit=3, score_cutoff=50)]
+    hint = f"did you mean {', '.join(close)}?" if close else "an ISO 1629 code such as NBR"
+    raise InventoryError(f"unknown material {text!r}", kind="unknown", hint=hint)
+
+
+def _union_range(dim: str) -> tuple[float, float]:
+    spans = [r[f"{dim}_mm"] for r in PLAUSIBLE_MM.values() if f"{dim}_mm" in r]
+    return min(lo for lo, _ in spans), max(hi for _, hi in spans)
+
+
+def parse_dim(text: str | None, dim: str, kind: PartKind | None, *,
+              unit: str = "mm") -> float | None:
+    """A measured dimension in mm (``"32"``, ``"1.26in"``, ``"1-1/4in"``), checked for the
+    kind; without a kind, against the widest plausible range of any seal. Errors name the
+    option: ``--cs: O-ring cross-section 35 mm is outside the plausible 0.5-15 mm``."""
+    if text is None:
+        return None
+    try:
+        if kind is not None and f"{dim}_mm" in PLAUSIBLE_MM.get(kind, {}):
+            return parse_dimension(text, kind, dim, default_unit=unit)
+        low, high = _union_range(dim)
+        return check_range(read_length(text, unit), low, high,
+                           what=f"seal {_DIM_LABEL[dim]}")
+    except ValueError as exc:
+        raise InventoryError(f"{_DIM_OPTION[dim]}: {exc}") from None
+
+
+def parse_tolerance(text: str | None, *, unit: str = "mm") -> MatchTolerance:
+    """``--tol X``: a fixed tolerance in mm (or inches) for every dimension; the default
+    suits a caliper reading on a used seal (:class:`MatchTolerance`)."""
+    if text is None:
+        return MatchTolerance()
+    try:
+        tol = read_length(text, unit).mm
+    except ValueError as exc:
+        raise InventoryError(f"--tol: {exc}") from None
+    if tol > 5.0:
+        raise InventoryError(f"--tol: {tol:g} mm is wider than any seal tolerance (5 mm at most)")
+    return MatchTolerance(abs_mm=tol, rel=0.0)
+
+
+def hardness_rules(rules: FitRules, tolerance: float | None) -> FitRules:
+    """``rules`` with the hardness pass band set to +/- ``tolerance`` Shore A (the marginal
+    bands stay as they are)."""
+    if tolerance is None:
+        return rules
+    if not 0 <= tolerance <= 50:
+        raise InventoryError(f"--hardness-tol must be 0 to 50 Shore A, got {tolerance:g}")
+    old = rules.hardness
+    return dataclasses.replace(rules, hardness=Limit(-tolerance, tolerance, old.below,
+                                                     old.above, old.unit))
+
+
+def check_hardness(value: float | None) -> float | None:
+    if value is not None and not 10 <= value <= 100:
+        raise InventoryError(f"--hardness must be 10 to 100 Shore A, got {value:g}")
+    return value
+
+
+# ------------------------------------------------------------------------- the shop
+
+@dataclass(frozen=True, slots=True)
+class StockInfo:
+    """Stock of one part: on hand, by location (largest first), units past storage."""
+
+    on_hand: int = 0
+    locations: tuple[tuple[str, int], ...] = ()
+    past_storage: int = 0
+    lots_past: tuple[str, ...] = ()
+
+    @property
+    def location(self) -> str | None:
+        return ", ".join(loc for loc, _ in self.locations) or None
+
+
+def lot_past_storage(cured: str | None, material: str | None, on: date, *,
+                     extended_until: date | None = None) -> bool:
+    """True when a lot is past its ISO 2230 storage period on ``on``. A lot inspected and
+    extended is good until ``extended_until``; lots without a cure quarter, plastics,
+    metals and unknown materials are never flagged."""
+    if not cured or not material:
+        return False
+    if extended_until is not None:
+        return on > extended_until
+    try:
+        return is_past_storage_limit(cured, material, on)
+    except ValueError:
+        return False
+
+
+def stock_by_part(session: Session, specs: dict[str, PartSpec], *,
+                  on: date) -> dict[str, StockInfo]:
+    """On hand (from the ledger), locations and units past storage for every part."""
+    extended = {
+        (p, lot): until for p, lot, until in session.exec(
+            select(Part.code, Lot.code, Lot.extended_until).join(Part, Part.id == Lot.part_id)
+            .where(Lot.extended_until.is_not(None)))
+    }
+    acc: dict[str, dict] = {}
+    for line in ledger.on_hand(session, by_lot=True):
+        if line.on_hand <= 0:
+            continue
+        a = acc.setdefault(line.part, {"n": 0, "loc": {}, "past": 0, "lots": []})
+        a["n"] += line.on_hand
+        a["loc"][line.location] = a["loc"].get(line.location, 0) + line.on_hand
+        spec = specs.get(line.part)
+        if spec and lot_past_storage(line.cured, spec.material, on,
+                                     extended_until=extended.get((line.part, line.lot))):
+            a["past"] += line.on_hand
+            a["lots"].append(line.lot)
+    return {
+        code: StockInfo(a["n"], tuple(sorted(a["loc"].items(), key=lambda kv: (-kv[1], kv[0]))),
+                        a["past"], tuple(dict.fromkeys(a["lots"])))
+        for code, a in acc.items()
+    }
+
+
+@dataclass(frozen=True, eq=False)
+class Shop:
+    """The shop's matchable parts as arrays, their stock, and the day it was read."""
+
+    parts: tuple[PartSpec, ...]
+    arrays: PartArrays
+    stock: dict[str, StockInfo] = field(default_factory=dict)
+    on: date = field(default_factory=date.today)
+
+    def stock_of(self, code: str) -> StockInfo:
+        return self.stock.get(code, StockInfo())
+
+
+def load_shop(session: Session, *, on: date | None = None) -> Shop:
+    on = on or date.today()
+    rows = session.exec(select(Part).order_by(Part.code))
+    specs = [part_spec(p) for p in rows if PartKind(p.kind) not in NOT_BENCH_KINDS]
+    by_code = {p.code: p for p in specs}
+    return Shop(tuple(specs), PartArrays.from_specs(specs),
+                stock_by_part(session, by_code, on=on), on)
+
+
+def find_seat(session: Session, fork: str | None, seat: str | None) -> SeatSpec | None:
+    """The seat named by ``--fork F --seat S`` (both or neither), suggestions for typos."""
+    if fork is None and seat is None:
+        return None
+    if fork is None:
+        raise InventoryError("--seat needs --fork", hint="give both, e.g. --fork XC-32 "
+                                                        "--seat air_piston_seal")
+    if seat is None:
+        codes = [s.seat for s in all_seats(session) if s.fork == lookup.fork(session, fork).code]
+        raise InventoryError(f"--fork {fork} needs --seat",
+                             hint=f"seats: {', '.join(codes)}" if codes else None)
+    fam, row = lookup.seat(session, fork, seat)
+    return seat_spec(row, fam.code)
+
+
+def resolve_part(session: Session, code: str) -> PartSpec:
+    """A shop part by code, else a standard size by designation (``AS568-214``,
+    ``ISO3601 31.5x3.55``); unknown -> the shop's closest codes suggested."""
+    try:
+        return part_spec(lookup.part(session, code))
+    except InventoryError as exc:
+        arrays = standard_part_arrays()
+        hits = [i for i, c in enumerate(arrays.codes) if c == normalise_designation(code)]
+        if hits:
+            return arrays.spec(hits[0])
+        raise exc from None
+
+
+# --------------------------------------------------------------------------- match
+
+@dataclass(frozen=True)
+class MatchRequest:
+    """One ``inventory match``: measured dimensions (or none, with a seat), options."""
+
+    query: MatchQuery
+    tolerance: MatchTolerance = MatchTolerance()
+    limit: int | None = None  # per source; None: 6 with dimensions, all without
+    seat: SeatSpec | None = None
+    reference_shore_a: float | None = None
+    rules: FitRules = FitRules()
+    standard: bool = True
+
+
+DEFAULT_LIMIT = 6
+
+
+@dataclass(frozen=True)
+class MatchResult:
+    rows: list[dict]
+    mode: str  # "match" (ranked by score) or "fitting" (every part that fits the seat)
+    request: MatchRequest
+
+    def to_dict(self) -> dict:
+        q = self.request.query
+        seat = self.request.seat
+        return {
+            "query": {"id_mm": q.id_mm, "od_mm": q.od_mm, "height_mm": q.height_mm,
+                      "cs_mm": q.cs_mm, "kind": str(q.kind) if q.kind else None,
+                      "material": q.material,
+                      "hardness_shore_a": self.request.reference_shore_a},
+            "seat": {"fork": seat.fork, "seat": seat.seat} if seat else None,
+            "mode": self.mode,
+            "candidates": self.rows,
+            "caution": CAUTION,
+        }
+
+
+def _row(spec: PartSpec, source: str, shop: Shop, req: MatchRequest, *,
+         candidate: Candidate | None = None, verdict: str | None = None,
+         stocked_as: Sequence[str] = ()) -> dict:
+    """One candidate as the JSON contract has it (absent dimensions as null)."""
+    if candidate is not None:
+        d = candidate.to_dict()
+    else:
+        d = {"source": source, "kind": str(spec.kind), "id_mm": spec.id_mm,
+             "od_mm": spec.od_mm, "height_mm": spec.height_mm, "cs_mm": spec.cs_mm,
+             "score": None, "parts": {}, "driver": None}
+        d["designation" if source == "standard" else "part"] = spec.code
+    out = {"source": d["source"]}
+    out["designation" if source == "standard" else "part"] = spec.code
+    out["kind"] = d["kind"]
+    for key in ("id_mm", "od_mm", "height_mm", "cs_mm"):  # as recorded: absent is null
+        value = getattr(spec, key)
+        out[key] = None if value is None else round(float(value), 4)
+    out["score"] = None if d["score"] is None else round(float(d["score"]), 4)
+    out["driver"] = d["driver"]
+    out["parts"] = {k: round(v, 4) for k, v in d["parts"].items()}
+    out["material"] = spec.material
+    out["hardness_shore_a"] = spec.hardness_shore_a
+    if source == "stock":
+        info = shop.stock_of(spec.code)
+        out["on_hand"] = info.on_hand
+        out["location"] = info.location
+        out["past_storage"] = info.past_storage > 0
+        out["past_storage_units"] = info.past_storage
+        out["status"] = "on hand" if info.on_hand else "none on hand"
+    else:
+        out["status"] = ORDERABLE
+        if stocked_as:
+            out["stocked_as"] = list(stocked_as)
+    ref = req.reference_shore_a
+    if ref is not None:
+        h = spec.hardness_shore_a
+        limit = req.rules.hardness
+        out["hardness_ok"] = None if h is None else bool(limit.low <= h - ref <= limit.high)
+    v = verdict if verdict is not None else d.get("verdict")
+    if v is not None:
+        out["verdict"] = v
+    return out
+
+
+def _stocked_as(shop: Shop) -> dict[str, list[str]]:
+    out: dict[str, list[str]] = {}
+    for p in shop.parts:
+        if p.standard:
+            out.setdefault(normalise_designation(p.standard), []).append(p.code)
+    return out
+
+
+def _sources(shop: Shop, req: MatchRequest, kind: PartKind | None) -> list[PartArrays]:
+    out = [shop.arrays]
+    if req.standard and (kind is None or kind in RING_KINDS):
+        out.append(standard_part_arrays())
+    return out
+
+
+def run_match(shop: Shop, req: MatchRequest) -> MatchResult:
+    """Rank stock and standard candidates for the measured dimensions (best first, stock
+    before standard on a tie), or, with a seat and no dimensions, list every part that
+    fits the seat (passes first)."""
+    kind = req.query.kind
+    stocked = _stocked_as(shop)
+    if not req.query.dims():
+        if req.seat is None:
+            raise InventoryError("give at least one dimension (--id, --od, --height, --cs), "
+                                 "or --fork and --seat to list the parts that fit a seat")
+        rows = []
+        for arrays in _sources(shop, req, PartKind(req.seat.part_kind)):
+            hits = parts_fitting(req.seat, arrays, rules=req.rules,
+                                 reference_shore_a=req.reference_shore_a)
+            if req.limit is not None:
+                hits = hits[:req.limit]
+            for i, verdict in hits:
+                spec = arrays.spec(i)
+                rows.append(_row(spec, arrays.source, shop, req, verdict=verdict,
+                                 stocked_as=stocked.get(spec.code, ())))
+        order = {"pass": 0, "marginal": 1}
+        rows.sort(key=lambda r: (order[r["verdict"]], r["source"] != "stock"))
+        return MatchResult(rows, "fitting", req)
+    limit = DEFAULT_LIMIT if req.limit is None else req.limit
+    ranked = []
+    for arrays in _sources(shop, req, kind):
+        try:
+            found = match(req.query, arrays, tolerance=req.tolerance, limit=limit,
+                          seat=req.seat, rules=req.rules,
+                          reference_shore_a=req.reference_shore_a)
+        except ValueError as exc:
+            raise InventoryError(str(exc)) from None
+        for c in found:
+            ranked.append((c.score, arrays.source != "stock", len(ranked),
+                           _row(arrays.spec(c.index), arrays.source, shop, req, candidate=c,
+                                stocked_as=stocked.get(c.code, ()))))
+    ranked.sort(key=lambda t: t[:3])
+    return MatchResult([t[3] for t in ranked], "match", req)
+
+
+# ----------------------------------------------------------------------------- fit
+
+def fit_everywhere(part: PartSpec, seats: Sequence[SeatSpec], *, rules: FitRules = FitRules(),
+                   reference_shore_a: float | None = None,
+                   include_fail: bool = False) -> list[FitResult]:
+    """The fit of ``part`` in every seat its kind goes in: passes, then marginals (and
+    failures when asked), each by fork and seat."""
+    out = [fit(part, s, rules=rules, reference_shore_a=reference_shore_a)
+           for s in seats if kind_applies(part.kind, s.part_kind, rules=rules)]
+    if not include_fail:
+        out = [r for r in out if str(r.verdict) != "fail"]
+    order = {"pass": 0, "marginal": 1, "fail": 2}
+    return sorted(out, key=lambda r: (order[str(r.verdict)], r.fork, r.seat))

@@ -1,0 +1,367 @@
+"""Catalog in and out, in our own file layout: parts, suppliers, supplier items, fork
+families, seats, kits, kit lines and locations, as csv files in a folder or as sheets of one
+workbook (a sheet or file per table, named as below).
+
+A load validates everything first and reports every bad row at once (file, sheet, row,
+column, the value and what was expected); nothing is written unless the whole load is valid.
+Rows whose key already exists are updated, so a load followed by an export round-trips.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from sqlmodel import Session, select
+
+from inventory.core.errors import InventoryError, Problem, Source
+from inventory.core.model import Gland, Medium, Motion, PartKind, ServiceLevel, SpringLayout
+from inventory.core.tables import (
+    ForkFamily,
+    Kit,
+    KitLine,
+    Location,
+    Part,
+    Seat,
+    Supplier,
+    SupplierItem,
+)
+from inventory.sheets import cells
+from inventory.sheets.columns import Column, Parsed, Schema, parse_table, to_cells
+from inventory.sheets.read import read_tables
+from inventory.sheets.write import SheetSpec, write_csv, write_workbook
+
+C = Column
+MM = cells.positive_number
+OPT_TEXT = dict(default="")
+
+SCHEMAS: dict[str, Schema] = {
+    "locations": Schema("locations", (
+        C("code", cells.code, required=True, example="MAIN"),
+        C("description", **OPT_TEXT, example="Store room"),
+    ), key=("code",)),
+    "parts": Schema("parts", (
+        C("code", cells.code, required=True, aliases=("part", "part code", "sku"), example="OR-214-N70"),
+        C("kind", cells.choice(*PartKind), required=True, aliases=("type",), example="o_ring"),
+        C("description", aliases=("desc", "name"), **OPT_TEXT, example="O-ring 24.99 x 3.53 NBR 70"),
+        C("id_mm", MM, aliases=("id", "inner diameter", "inside diameter")),
+        C("od_mm", MM, aliases=("od", "outer diameter", "outside diameter")),
+        C("height_mm", MM, aliases=("height", "width", "axial width")),
+        C("cs_mm", MM, aliases=("cs", "cross section", "cross-section")),
+        C("material", cells.text, aliases=("polymer", "compound")),
+        C("hardness", cells.positive_int, aliases=("shore a", "shore")),
+        C("volume_cm3", MM, aliases=("volume",)),
+        C("unit", cells.choice("each", "ml"), default="each"),
+        C("standard", cells.text, aliases=("designation",)),
+        C("notes", **OPT_TEXT),
+    ), key=("code",)),
+    "suppliers": Schema("suppliers", (
+        C("code", cells.code, required=True, aliases=("supplier",)),
+        C("name", cells.text, required=True),
+        C("lead_time_days", cells.nonneg_int, required=True, aliases=("lead time",)),
+        C("lead_time_sd_days", cells.nonneg_number, default=0.0),
+        C("min_order_value", cells.money, aliases=("minimum order",), default=None),
+        C("order_cycle_days", cells.positive_int, default=7),
+        C("currency", cells.text, default="EUR"),
+    ), key=("code",)),
+    "supplier_items": Schema("supplier_items", (
+        C("supplier", cells.code, required=True),
+        C("part", cells.code, required=True),
+        C("supplier_code", **OPT_TEXT),
+        C("unit_cost", cells.money, required=True, aliases=("cost", "price")),
+        C("pack_size", cells.positive_int, default=1, aliases=("pack",)),
+        C("min_order_qty", cells.nonneg_int, default=1, aliases=("moq",)),
+        C("lead_time_days", cells.nonneg_int),
+    ), key=("supplier", "part")),
+    "fork_families": Schema("fork_families", (
+        C("code", cells.code, required=True, aliases=("fork",)),
+        C("description", **OPT_TEXT),
+        C("stanchion_mm", MM, required=True, aliases=("stanchion",)),
+        C("travel_min_mm", cells.positive_int, required=True),
+        C("travel_max_mm", cells.positive_int, required=True),
+        C("spring", cells.choice(*SpringLayout), required=True),
+        C("year_from", cells.positive_int, required=True),
+        C("year_to", cells.positive_int),
+    ), key=("code",)),
+    "seats": Schema("seats", (
+        C("fork", cells.code, required=True),
+        C("seat", cells.code, required=True),
+        C("position", cells.text, required=True),
+        C("part_kind", cells.choice(*PartKind), required=True),
+        C("gland", cells.choice(*Gland), required=True),
+        C("motion", cells.choice(*Motion), default="static"),
+        C("medium", cells.choice(*Medium), default="oil"),
+        C("qty_per_fork", cells.positive_int, default=1),
+        C("rod_mm", MM), C("bore_mm", MM), C("groove_mm", MM), C("groove_width_mm", MM),
+        C("housing_depth_mm", MM), C("rod_fit", cells.text), C("bore_fit", cells.text),
+        C("chamber_volume_cm3", MM), C("piston_mm", MM), C("travel_mm", MM),
+        C("set_pressure_bar", cells.nonneg_number),
+        C("notes", **OPT_TEXT),
+    ), key=("fork", "seat")),
+    "kits": Schema("kits", (
+        C("kit", cells.code, required=True),
+        C("fork", cells.code, required=True),
+        C("service_level", cells.choice(*ServiceLevel), required=True, aliases=("service",)),
+        C("description", **OPT_TEXT),
+    ), key=("kit",)),
+    "kit_lines": Schema("kit_lines", (
+        C("kit", cells.code, required=True),
+        C("part", cells.code, required=True),
+        C("qty", cells.positive_int, required=True),
+    ), key=("kit", "part")),
+}
+ORDER = ["locations", "parts", "suppliers", "supplier_items", "fork_families", "seats", "kits",
+         "kit_lines"]
+
+
+@dataclass
+class LoadReport:
+    inserted: dict[str, int] = field(default_factory=dict)
+    updated: dict[str, int] = field(default_factory=dict)
+    tables: list[str] = field(default_factory=list)
+
+    def to_dict(self) -> dict:
+        return {"inserted": self.inserted, "updated": self.updated, "tables": self.tables}
+
+
+Records = dict[str, list[tuple[Source, dict]]]
+
+
+def read_catalog(path: str | Path) -> tuple[Records, dict[str, Parsed], list[Problem]]:
+    """Typed rows per table from a folder or workbook, and every problem found."""
+    tables = read_tables(path)
+    records: Records = {}
+    parsed_by_table: dict[str, Parsed] = {}
+    problems: list[Problem] = []
+    for table in tables:
+        name = table.name.lower()
+        if name not in SCHEMAS:
+            continue
+        parsed = parse_table(table, SCHEMAS[name])
+        parsed_by_table[name] = parsed
+        problems += parsed.problems
+        records.setdefault(name, []).extend(parsed.rows)
+    if not records and not problems:
+        raise InventoryError(
+            f"{path}: no catalog tables found",
+            hint=f"name the files or sheets {', '.join(ORDER)}",
+        )
+    for name, rows in records.items():
+        key = SCHEMAS[name].key
+        seen: dict[tuple, Source] = {}
+        for src, rec in rows:
+            k = tuple(str(rec[c]).upper() for c in key)
+            if k in seen:
+                problems.append(Problem(
+                    f"duplicate {'/'.join(key)} {'/'.join(str(rec[c]) for c in key)} "
+                    f"(first at row {seen[k].row})", kind="conflict", source=src))
+            else:
+                seen[k] = src
+    return records, parsed_by_table, problems
+
+
+def _check_refs(session: Session, recs: Records, parsed: dict[str, Parsed]) -> list[Problem]:
+    problems: list[Problem] = []
+    parts = set(session.exec(select(Part.code))) | {r["code"] for _, r in recs.get("parts", [])}
+    kit_parts = set(session.exec(select(Part.code).where(Part.kind == PartKind.KIT))) | {
+        r["code"] for _, r in recs.get("parts", []) if r["kind"] == PartKind.KIT}
+    suppliers = set(session.exec(select(Supplier.code))) | {
+        r["code"] for _, r in recs.get("suppliers", [])}
+    forks = set(session.exec(select(ForkFamily.code))) | {
+        r["code"] for _, r in recs.get("fork_families", [])}
+    kits = set(session.exec(select(Part.code).join(Kit, Kit.part_id == Part.id))) | {
+        r["kit"] for _, r in recs.get("kits", [])}
+
+    def ref(src: Source, table: str, col: str, value: str, valid: set[str], what: str) -> None:
+        if value not in valid:
+            problems.append(Problem(f"unknown {what} {value!r}", kind="unknown",
+                                    source=parsed[table].source(src, col)))
+
+    for src, r in recs.get("supplier_items", []):
+        ref(src, "supplier_items", "supplier", r["supplier"], suppliers, "supplier")
+        ref(src, "supplier_items", "part", r["part"], parts, "part")
+    for src, r in recs.get("seats", []):
+        ref(src, "seats", "fork", r["fork"], forks, "fork family")
+    for src, r in recs.get("kits", []):
+        ref(src, "kits", "fork", r["fork"], forks, "fork family")
+        ref(src, "kits", "kit", r["kit"], kit_parts, "kit part (a row in parts with kind kit)")
+    for src, r in recs.get("kit_lines", []):
+        ref(src, "kit_lines", "kit", r["kit"], kits, "kit")
+        ref(src, "kit_lines", "part", r["part"], parts, "part")
+        if r["part"] in kit_parts:
+            problems.append(Problem(f"a kit line cannot hold another kit ({r['part']})",
+                                    source=parsed["kit_lines"].source(src, "part")))
+    for src, r in recs.get("fork_families", []):
+        if r["travel_min_mm"] > r["travel_max_mm"]:
+            problems.append(Problem(
+                f"travel_min_mm {r['travel_min_mm']} is above travel_max_mm {r['travel_max_mm']}",
+                source=parsed["fork_families"].source(src, "travel_min_mm")))
+    return problems
+
+
+def load_catalog(session: Session, path: str | Path) -> LoadReport:
+    """Validate the whole catalog, then write it in the caller's transaction."""
+    recs, parsed, problems = read_catalog(path)
+    problems += _check_refs(session, recs, parsed)
+    if problems:
+        raise InventoryError(problems, hint="fix the rows above; nothing was written")
+    report = LoadReport(tables=[t for t in ORDER if t in recs])
+    for table in ORDER:
+        ins = upd = 0
+        for _, rec in recs.get(table, []):
+            created = _APPLY[table](session, rec)
+            ins += created
+            upd += not created
+        if table in recs:
+            report.inserted[table] = ins
+            report.updated[table] = upd
+        session.flush()
+    return report
+
+
+def _upsert(session: Session, model, where: dict[str, Any], values: dict[str, Any]) -> bool:
+    stmt = select(model)
+    for k, v in where.items():
+        stmt = stmt.where(getattr(model, k) == v)
+    row = session.exec(stmt).first()
+    created = row is None
+    if created:
+        row = model(**where, **values)
+    else:
+        for k, v in values.items():
+            setattr(row, k, v)
+    session.add(row)
+    session.flush()
+    return created
+
+
+def _id(session: Session, model, code: str) -> int:
+    return session.exec(select(model.id).where(model.code == code)).one()
+
+
+def _apply_location(s, r):
+    return _upsert(s, Location, {"code": r["code"]}, {"description": r["description"] or ""})
+
+
+def _apply_part(s, r):
+    vals = {k: r[k] for k in ("kind", "id_mm", "od_mm", "height_mm", "cs_mm", "material",
+                              "hardness", "volume_cm3", "standard")}
+    vals.update(description=r["description"] or "", notes=r["notes"] or "",
+                unit=r["unit"] or "each", kind=str(r["kind"]))
+    return _upsert(s, Part, {"code": r["code"]}, vals)
+
+
+def _apply_supplier(s, r):
+    from decimal import Decimal
+    vals = {k: r[k] for k in ("name", "lead_time_days", "order_cycle_days", "currency")}
+    vals.update(lead_time_sd_days=r["lead_time_sd_days"] or 0.0,
+                min_order_value=r["min_order_value"] if r["min_order_value"] is not None
+                else Decimal("0"))
+    return _upsert(s, Supplier, {"code": r["code"]}, vals)
+
+
+def _apply_supplier_item(s, r):
+    vals = {k: r[k] for k in ("supplier_code", "unit_cost", "pack_size", "min_order_qty",
+                              "lead_time_days")}
+    vals["supplier_code"] = vals["supplier_code"] or ""
+    return _upsert(s, SupplierItem, {"supplier_id": _id(s, Supplier, r["supplier"]),
+                                     "part_id": _id(s, Part, r["part"])}, vals)
+
+
+def _apply_fork(s, r):
+    vals = {k: r[k] for k in ("description", "stanchion_mm", "travel_min_mm", "travel_max_mm",
+                              "spring", "year_from", "year_to")}
+    vals["description"] = vals["description"] or ""
+    vals["spring"] = str(vals["spring"])
+    return _upsert(s, ForkFamily, {"code": r["code"]}, vals)
+
+
+SEAT_FIELDS = ("position", "part_kind", "gland", "motion", "medium", "qty_per_fork", "rod_mm",
+               "bore_mm", "groove_mm", "groove_width_mm", "housing_depth_mm", "rod_fit",
+               "bore_fit", "chamber_volume_cm3", "piston_mm", "travel_mm", "set_pressure_bar",
+               "notes")
+
+
+def _apply_seat(s, r):
+    vals = {k: (str(r[k]) if k in ("part_kind", "gland", "motion", "medium") else r[k])
+            for k in SEAT_FIELDS}
+    vals["notes"] = vals["notes"] or ""
+    return _upsert(s, Seat, {"fork_family_id": _id(s, ForkFamily, r["fork"]), "code": r["seat"]},
+                   vals)
+
+
+def _apply_kit(s, r):
+    return _upsert(s, Kit, {"part_id": _id(s, Part, r["kit"])},
+                   {"fork_family_id": _id(s, ForkFamily, r["fork"]),
+                    "service_level": str(r["service_level"]),
+                    "description": r["description"] or ""})
+
+
+def _apply_kit_line(s, r):
+    kit_id = s.exec(select(Kit.id).join(Part, Part.id == Kit.part_id)
+                    .where(Part.code == r["kit"])).one()
+    return _upsert(s, KitLine, {"kit_id": kit_id, "part_id": _id(s, Part, r["part"])},
+                   {"qty": r["qty"]})
+
+
+_APPLY = {"locations": _apply_location, "parts": _apply_part, "suppliers": _apply_supplier,
+          "supplier_items": _apply_supplier_item, "fork_families": _apply_fork,
+          "seats": _apply_seat, "kits": _apply_kit, "kit_lines": _apply_kit_line}
+
+
+def catalog_records(session: Session) -> dict[str, list[dict[str, Any]]]:
+    """Every catalog table as records in our column names (what an export writes)."""
+    out: dict[str, list[dict[str, Any]]] = {}
+    out["locations"] = [{"code": r.code, "description": r.description}
+                        for r in session.exec(select(Location).order_by(Location.code))]
+    out["parts"] = [r.model_dump(exclude={"id"})
+                    for r in session.exec(select(Part).order_by(Part.code))]
+    out["suppliers"] = [r.model_dump(exclude={"id"})
+                        for r in session.exec(select(Supplier).order_by(Supplier.code))]
+    out["supplier_items"] = [
+        {"supplier": sup, "part": part, **si.model_dump(exclude={"id", "supplier_id", "part_id"})}
+        for si, sup, part in session.exec(
+            select(SupplierItem, Supplier.code, Part.code)
+            .join(Supplier, Supplier.id == SupplierItem.supplier_id)
+            .join(Part, Part.id == SupplierItem.part_id)
+            .order_by(Supplier.code, Part.code))
+    ]
+    out["fork_families"] = [r.model_dump(exclude={"id"})
+                            for r in session.exec(select(ForkFamily).order_by(ForkFamily.code))]
+    out["seats"] = [
+        {"fork": fam, "seat": seat.code, **seat.model_dump(exclude={"id", "fork_family_id", "code"})}
+        for seat, fam in session.exec(
+            select(Seat, ForkFamily.code).join(ForkFamily, ForkFamily.id == Seat.fork_family_id)
+            .order_by(ForkFamily.code, Seat.code))
+    ]
+    out["kits"] = [
+        {"kit": code, "fork": fam, "service_level": kit.service_level,
+         "description": kit.description}
+        for kit, code, fam in session.exec(
+            select(Kit, Part.code, ForkFamily.code).join(Part, Part.id == Kit.part_id)
+            .join(ForkFamily, ForkFamily.id == Kit.fork_family_id).order_by(Part.code))
+    ]
+    kit_part = Part.__table__.alias("kit_part")
+    out["kit_lines"] = [
+        {"kit": kcode, "part": pcode, "qty": qty}
+        for kcode, pcode, qty in session.exec(
+            select(kit_part.c.code, Part.code, KitLine.qty)
+            .join(Kit, Kit.id == KitLine.kit_id)
+            .join(kit_part, kit_part.c.id == Kit.part_id)
+            .join(Part, Part.id == KitLine.part_id)
+            .order_by(kit_part.c.code, Part.code))
+    ]
+    return out
+
+
+def export_catalog(session: Session, target: str | Path) -> list[Path]:
+    """Write the catalog to a folder of csv files or to one ``.xlsx`` workbook."""
+    target = Path(target)
+    records = catalog_records(session)
+    if target.suffix.lower() == ".xlsx":
+        sheets = [SheetSpec(t, SCHEMAS[t].header, to_cells(SCHEMAS[t], records[t])) for t in ORDER]
+        return [write_workbook(target, sheets)]
+    target.mkdir(parents=True, exist_ok=True)
+    return [write_csv(target / f"{t}.csv", SCHEMAS[t].header, to_cells(SCHEMAS[t], records[t]))
+            for t in ORDER]

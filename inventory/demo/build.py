@@ -1,0 +1,183 @@
+"""The demo shop: build a fresh database from ``catalog_demo/`` and show a short tour.
+
+The demo data is invented (see catalog_demo/README.md). Building replays its three years in
+date order through the same ledger and job code the shop uses: opening stock, deliveries,
+service jobs and shelf counts.
+"""
+
+from __future__ import annotations
+
+from datetime import UTC, date, datetime, time
+from pathlib import Path
+
+from rich.progress import Progress, SpinnerColumn, TextColumn
+from sqlmodel import Session
+
+from inventory.catalog.load import load_catalog
+from inventory.core import migrate
+from inventory.core.db import make_engine, resolve_url, transaction
+from inventory.core.errors import InventoryError
+from inventory.history.imports import Event, ImportSettings, apply_import
+from inventory.sheets import cells, kinds
+from inventory.sheets.columns import Schema, parse_table
+from inventory.sheets.read import read_csv
+from inventory.stock import ledger
+
+
+def demo_dir() -> Path:
+    """``catalog_demo/`` beside the package (a checkout) or in the working directory."""
+    for base in (Path(__file__).resolve().parent.parent, Path.cwd()):
+        cand = base / "catalog_demo"
+        if (cand / "parts.csv").exists():
+            return cand
+    raise InventoryError("cannot find the catalog_demo folder",
+                         hint="run from the project checkout")
+
+
+def _rows(path: Path, schema: Schema) -> list[dict]:
+    """Rows of a demo csv through the import's own column definitions; the demo writes
+    ISO dates, so the date column is read as one (no day/month guessing needed)."""
+    parsed = parse_table(read_csv(path), schema)
+    if parsed.problems:
+        raise InventoryError(parsed.problems)
+    return [{**r, "date": cells.iso_date(r["date"])} for _, r in parsed.rows]
+
+
+def _noon(day: date, minute: int = 0) -> datetime:
+    return datetime.combine(day, time(12, minute), tzinfo=UTC)
+
+
+def replay(session: Session, folder: Path, *, progress: bool = True) -> dict[str, int]:
+    """Opening stock, deliveries, jobs and counts of the demo, in date order.
+
+    The service history goes through the spreadsheet import (``inventory import history``),
+    so the demo database records it as an import batch and re-importing history.csv is a
+    no-op; deliveries and counts are replayed on their days in between (before and after the
+    day's jobs).
+    """
+    opening = _rows(folder / "opening_stock.csv", kinds.RECEIPTS)  # "received" is the date
+    receipts = _rows(folder / "receipts.csv", kinds.RECEIPTS)
+    counts = _rows(folder / "counts.csv", kinds.COUNTS) if (folder / "counts.csv").exists() else []
+    # The opening balance is booked on the day the demo's books start (the latest lot's
+    # receipt date); each lot keeps its own receipt date and cure quarter.
+    opening_day = max(r["date"] for r in opening)
+    for r in opening:
+        ledger.receive(session, r["part"], r["qty"], r["unit_cost"], lot=r["lot"],
+                       cured=r["cured"], location=r["location"], received=r["date"],
+                       ts=_noon(opening_day, 0), reference="OPENING", user="demo")
+
+    def receive(r: dict):
+        def run(s: Session) -> list[str]:
+            ledger.receive(s, r["part"], r["qty"], r["unit_cost"], lot=r["lot"],
+                           cured=r["cured"], location=r["location"], received=r["date"],
+                           ts=_noon(r["date"], 0), reference=r["order_ref"],
+                           supplier=r["supplier"], user="demo")
+            return [r["part"]]
+        return run
+
+    def count(r: dict):
+        def run(s: Session) -> list[str]:
+            ledger.count(s, r["part"], r["counted"], location=r["location"],
+                         ts=_noon(r["date"], 30), user="demo", reference="COUNT")
+            return [r["part"]]
+        return run
+
+    events = [Event(r["date"], 0, receive(r)) for r in receipts]
+    events += [Event(r["date"], 2, count(r)) for r in counts]
+    # The demo's dates are its own three years: no "future date" check against this machine.
+    settings = ImportSettings(kind="history", user="demo", today=date.max)
+    with Progress(SpinnerColumn(), TextColumn("{task.description}"), transient=True,
+                  disable=not progress) as bar:
+        bar.add_task("replaying the demo's three years", total=None)
+        report = apply_import(session, folder / "history.csv", settings, events=events)
+    return {"opening_lots": len(opening), "receipts": len(receipts), "jobs": report.new,
+            "counts": len(counts)}
+
+
+def build_demo(db: str = "demo.db", *, progress: bool = True) -> str:
+    """A fresh demo database at ``db`` (a SQLite path or URL); returns its URL."""
+    url = resolve_url(db)
+    if url.startswith("sqlite:///"):
+        path = Path(url[len("sqlite:///"):])
+        for suffix in ("", "-wal", "-shm"):
+            p = Path(str(path) + suffix)
+            if p.exists():
+                p.unlink()
+    engine = make_engine(url, fresh=True)
+    migrate.upgrade(engine)
+    folder = demo_dir()
+    with transaction(engine) as session:
+        load_catalog(session, folder)
+        replay(session, folder, progress=progress)
+    return url
+
+
+def tour(url: str, reports: str = "reports") -> None:
+    """A short walk through what the tool does, on the demo database: stock, the bench
+    lookup, the messy-history import, the forecast, the pre-season plan, the month end."""
+    from inventory.cli.bench_cmd import bench_tour
+    from inventory.cli.common import print_table, say
+    from inventory.cli.forecast_cmd import forecast_tour
+    from inventory.monthend.service import demo_month_end
+    from inventory.ordering.service import plan_tour, reorder_source
+
+    Path(reports).mkdir(parents=True, exist_ok=True)
+    engine = make_engine(url)
+    with Session(engine) as s:
+        lines = ledger.on_hand(s)
+    total = sum(ln.value for ln in lines)
+    say(f"\n[bold]1. The demo shop[/bold] is built at {url}: three years of invented history.")
+    say(f"Stock on hand: {len(lines)} part/location lines, value {total:,.2f} EUR")
+    top = sorted(lines, key=lambda ln: ln.value, reverse=True)[:5]
+    print_table("Highest stock value", ["part", "location", "on hand", "value"],
+                [[ln.part, ln.location, ln.on_hand, f"{ln.value:,.2f}"] for ln in top],
+                right=("on hand", "value"))
+    say("\n[bold]2. At the bench[/bold]: a worn seal measured with a caliper.")
+    bench_tour(url)
+    say("\n[bold]3. A messy history file[/bold] from another system: preview, review, apply.")
+    messy_history_tour(url, reports)
+    say("\n[bold]4. The next season[/bold]: demand forecast per kit.")
+    forecast_tour(url, reports)
+    say("\n[bold]5. Before the spring rush[/bold]: the pre-season order plan.")
+    plan_tour(url, reports)
+    say("\n[bold]6. Closing the month[/bold]: the month-end stock report.")
+    files = demo_month_end(url, reports, reorder=reorder_source())
+    say(f"Month {files.report.month}: workbook {files.xlsx}, one-page summary {files.html}")
+    say("\nSafety: air springs hold pressure; release all air before opening one. A match or "
+        "a pass is a suggestion: the technician decides, and the maker's service data and "
+        "local rules come first.")
+    say(f"Next: inventory --db {url} stock on-hand --json")
+
+
+def messy_history_tour(url: str, reports: str) -> None:
+    """Preview the demo's messy history workbook (odd headers, free-text fork names, day-first
+    dates), answer the review workbook, apply, and show that a re-run changes nothing; then
+    preview the broken variant, which lists every bad cell and writes nothing."""
+    from inventory.cli.common import say
+    from inventory.history.imports import ImportSettings, run_import
+    from inventory.sheets.review import answer_review
+
+    folder = demo_dir()
+    messy = folder / "messy_history.xlsx"
+    review = Path(reports) / "messy_history.review.xlsx"
+    engine = make_engine(url)
+    with Session(engine) as s:
+        rep = run_import(s, messy, ImportSettings(kind="history", review=review))
+    held = [f.text for f in rep.forks if f.how == "review"]
+    say(f"Preview of {messy.name}: {rep.rows} rows, header on row {rep.header_row}, "
+        f"dates {rep.dates}; {len(held)} fork names need a person: {', '.join(held)}")
+    say(f"Review workbook with candidates in drop-down lists: {rep.review_path}")
+    answer_review(review)  # the tour takes the best candidate, as a person might
+    with transaction(engine) as s:
+        rep = run_import(s, messy, ImportSettings(kind="history", resolutions=review),
+                         apply=True)
+    say(f"Applied with the answers: {rep.new} new job(s) as import batch {rep.batch_id}; "
+        "the answers are remembered for next time.")
+    with transaction(engine) as s:
+        rep = run_import(s, messy, ImportSettings(kind="history"), apply=True)
+    say(f"Re-run: {rep.new} new, {rep.already} already applied: nothing written.")
+    with Session(engine) as s:
+        rep = run_import(s, folder / "messy_history_broken.xlsx", ImportSettings(kind="history"))
+    say(f"A broken copy: {len(rep.problems)} problems, each at its cell, nothing written, e.g.")
+    for p in rep.problems[:3]:
+        say(f"  {p}")

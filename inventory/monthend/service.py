@@ -1,0 +1,67 @@
+"""Write the month-end report: the workbook, the HTML page, or both, from one database.
+
+The CLI (``inventory report month``) and the demo tour call :func:`write_month_end`;
+:func:`demo_month_end` picks the demo's last complete month.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import date
+from pathlib import Path
+
+from sqlalchemy import func, select
+from sqlmodel import Session
+
+from inventory.core.db import make_engine
+from inventory.core.tables import Movement
+from inventory.monthend.aggregates import Month, last_complete
+from inventory.monthend.html import write_month_html
+from inventory.monthend.report import MonthReport, ReorderSource, month_report
+from inventory.monthend.workbook import write_month_workbook
+
+
+@dataclass(frozen=True, slots=True)
+class MonthEndFiles:
+    report: MonthReport
+    xlsx: Path | None
+    html: Path | None
+
+
+def default_xlsx(month: Month, reports: str | Path = "reports") -> Path:
+    return Path(reports) / f"stock-{month.label}.xlsx"
+
+
+def write_month_end(session: Session, month: str | Month, *, today: date,
+                    xlsx: str | Path | None = None, html: str | Path | None = None,
+                    method: str = "fifo", reorder: ReorderSource | None = None,
+                    **options) -> MonthEndFiles:
+    """Build the report (refusing if the ledger does not reconcile) and write the files
+    asked for; nothing is written when the report cannot be built."""
+    report = month_report(session, month, today=today, method=method, reorder=reorder,
+                          **options)
+    x = write_month_workbook(xlsx, report) if xlsx else None
+    h = write_month_html(html, report) if html else None
+    return MonthEndFiles(report, x, h)
+
+
+def latest_complete_month(session: Session, today: date) -> Month:
+    """The month of the latest movement, or the last month over by ``today`` if earlier."""
+    last = session.execute(select(func.max(Movement.ts))).scalar()
+    done = last_complete(today)
+    if last is None:
+        return done
+    day = last.date() if hasattr(last, "date") else date.fromisoformat(str(last)[:10])
+    return min(Month.of(day), done)
+
+
+def demo_month_end(url: str, reports: str | Path = "reports", *, today: date | None = None,
+                   reorder: ReorderSource | None = None) -> MonthEndFiles:
+    """For the demo tour: the workbook and the HTML page for the demo's last complete month,
+    written to ``reports/stock-YYYY-MM.xlsx`` and ``.html``."""
+    today = today or date.today()
+    with Session(make_engine(url)) as s:
+        month = latest_complete_month(s, today)
+        base = default_xlsx(month, reports)
+        return write_month_end(s, month, today=today, xlsx=base, html=base.with_suffix(".html"),
+                               reorder=reorder)

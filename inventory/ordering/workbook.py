@@ -1,0 +1,373 @@
+"""The plan as a workbook a manager can send and defend, and reading it back.
+
+Sheets:
+
+- ``Summary``: plan date, season start, service target and expected fill, budget, and one
+  row per purchase order (supplier, order-by date, expected delivery, lines, total, note).
+- ``PO <SUPPLIER>``: one per supplier, laid out as a purchase order: a header block
+  (supplier, order reference, order-by date, expected delivery, currency, minimum order)
+  and the lines (part, supplier's code, description, quantity, pack size, packs, unit cost,
+  line total as a formula, a short note), with a total. Quantities may be edited before
+  the order is recorded: :func:`read_plan_workbook` reads them back.
+- ``Reasons``: every line of the plan (ordered or not) with each figure of its reasoning and
+  the sentence; ``Not covered``: what the plan could not cover and why; ``Kits``: how each
+  kit's need is covered.
+
+Text cells go through the sheets writer's formula guard; the only formulas are the line
+totals and order totals this module writes itself.
+"""
+
+from __future__ import annotations
+
+from datetime import date, datetime
+from decimal import Decimal, InvalidOperation
+from pathlib import Path
+from typing import Any
+
+from openpyxl import Workbook, load_workbook
+from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
+from openpyxl.utils import get_column_letter
+
+from inventory.core.errors import InventoryError, Problem, Source
+from inventory.ordering.model import DraftLine, DraftOrder, Plan, SupplierOrder
+from inventory.sheets.write import SheetSpec, fill_sheet, save_workbook, xml_text
+
+TITLE = "Purchase order"
+HEADER_FILL = PatternFill("solid", fgColor="DDE4EE")
+LABEL_FONT = Font(bold=True, color="44546A")
+THIN = Side(style="thin", color="8EA0B8")
+PO_COLUMNS = ("Line", "Part", "Supplier code", "Description", "Qty", "Pack size", "Packs",
+              "Unit cost", "Line total", "Note")
+LABELS = ("Supplier", "Supplier name", "Order reference", "Plan date", "Order by",
+          "Expected delivery", "Currency", "Minimum order value")
+MONEY = "#,##0.00"
+PRICE = "#,##0.0000"
+_NOTES = {"shelf_life": "shelf-life cap", "min_forced": "minimum above shelf-life cap",
+          "top_up": "topped up to minimum order", "budget": "cut for budget",
+          "late": "late"}
+
+
+def _text(ws, row: int, col: int, value: Any):
+    cell = ws.cell(row=row, column=col)
+    if isinstance(value, str):
+        cell.value = xml_text(value)
+        cell.data_type = "s"
+        if value.startswith(("=", "+", "-", "@")):
+            cell.quotePrefix = True
+    else:
+        cell.value = float(value) if isinstance(value, Decimal) else value
+    return cell
+
+
+def _printable(ws) -> None:
+    """Landscape, one page wide: a purchase order prints as one sheet of paper across."""
+    ws.page_setup.orientation = "landscape"
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+
+
+def _po_sheet(wb: Workbook, plan: Plan, order: SupplierOrder) -> None:
+    ws = wb.create_sheet(f"PO {order.supplier}"[:31])
+    _printable(ws)
+    _text(ws, 1, 1, TITLE).font = Font(bold=True, size=14)
+    values = (order.supplier, order.name, "", plan.as_of, order.order_by, order.arrival,
+              order.currency, order.min_order_value)
+    for i, (label, value) in enumerate(zip(LABELS, values, strict=True), start=3):
+        _text(ws, i, 1, label).font = LABEL_FONT
+        cell = _text(ws, i, 2, value)
+        cell.alignment = Alignment(horizontal="left")
+        if isinstance(value, date):
+            cell.number_format = "yyyy-mm-dd"
+        elif isinstance(value, Decimal):
+            cell.number_format = MONEY
+    _text(ws, 5, 3, "(given by `inventory order create`)").font = Font(italic=True,
+                                                                       color="808080")
+    head = 3 + len(LABELS) + 1
+    for j, h in enumerate(PO_COLUMNS, start=1):
+        c = _text(ws, head, j, h)
+        c.font = Font(bold=True)
+        c.fill = HEADER_FILL
+        c.border = Border(bottom=THIN)
+    first = head + 1
+    for n, ln in enumerate(order.lines, start=1):
+        r = head + n
+        note = ", ".join(_NOTES[c] for c in ln.caps if c in _NOTES)
+        for j, v in enumerate((n, ln.part, ln.supplier_code, ln.description, ln.qty,
+                               ln.pack_size, ln.packs, ln.unit_cost), start=1):
+            _text(ws, r, j, v)
+        ws.cell(row=r, column=1).alignment = Alignment(horizontal="left")
+        ws.cell(row=r, column=8).number_format = PRICE
+        total = ws.cell(row=r, column=9, value=f"=E{r}*H{r}")
+        total.number_format = MONEY
+        _text(ws, r, 10, note)
+    last = head + max(len(order.lines), 1)
+    tr = last + 1
+    _text(ws, tr, 8, "Total").font = Font(bold=True)
+    tot = ws.cell(row=tr, column=9, value=f"=SUM(I{first}:I{last})")
+    tot.font = Font(bold=True)
+    tot.number_format = MONEY
+    tot.border = Border(top=THIN)
+    if order.note:
+        _text(ws, tr + 2, 1, f"Note: {order.note}").font = Font(italic=True)
+    _text(ws, tr + 3, 1, "The reasoning behind every line is on the Reasons sheet.").font = \
+        Font(italic=True, color="808080")
+    widths = (6, 22, 14, 38, 8, 10, 8, 12, 13, 34)
+    for j, w in enumerate(widths, start=1):
+        ws.column_dimensions[get_column_letter(j)].width = w
+    ws.column_dimensions["A"].width = 20
+    ws.freeze_panes = ws.cell(row=head + 1, column=1)
+
+
+def _summary(wb: Workbook, plan: Plan) -> None:
+    ws = wb.create_sheet("Summary", 0)
+    _printable(ws)
+    _text(ws, 1, 1, "Replenishment plan").font = Font(bold=True, size=14)
+    facts = [
+        ("Plan date", plan.as_of),
+        ("Season start", plan.season_start or "(regular review)"),
+        ("Service target (fill)", plan.service_target),
+        ("Expected fill", plan.expected_fill),
+        ("Budget", plan.budget_limit if plan.budget_limit is not None else "(none)"),
+        ("Spent", plan.budget_spent),
+        ("Expected fill without the budget", plan.fill_before_budget),
+    ]
+    for i, (label, value) in enumerate(facts, start=3):
+        _text(ws, i, 1, label).font = LABEL_FONT
+        cell = _text(ws, i, 2, value)
+        if isinstance(value, float):
+            cell.number_format = "0.0%"
+        elif isinstance(value, Decimal):
+            cell.number_format = MONEY
+        elif isinstance(value, date):
+            cell.number_format = "yyyy-mm-dd"
+    head = 3 + len(facts) + 1
+    cols = ("Supplier", "Name", "Order by", "Expected delivery", "Lines", "Total", "Currency",
+            "Minimum order", "Note")
+    for j, h in enumerate(cols, start=1):
+        c = _text(ws, head, j, h)
+        c.font = Font(bold=True)
+        c.fill = HEADER_FILL
+    for i, o in enumerate(plan.orders, start=head + 1):
+        for j, v in enumerate((o.supplier, o.name, o.order_by, o.arrival, len(o.lines),
+                               o.total, o.currency, o.min_order_value, o.note), start=1):
+            cell = _text(ws, i, j, v)
+            if isinstance(v, date):
+                cell.number_format = "yyyy-mm-dd"
+            elif isinstance(v, Decimal):
+                cell.number_format = MONEY
+    r = head + len(plan.orders) + 1
+    _text(ws, r, 5, "Total").font = Font(bold=True)
+    if plan.orders:
+        tot = ws.cell(row=r, column=6, value=f"=SUM(F{head + 1}:F{r - 1})")
+        tot.font = Font(bold=True)
+        tot.number_format = MONEY
+    for j, w in enumerate((30, 30, 12, 17, 7, 13, 9, 14, 60), start=1):
+        ws.column_dimensions[get_column_letter(j)].width = w
+
+
+REASON_HEADER = [
+    "Supplier", "Part", "Description", "Policy", "Class", "Fill target", "Forecast over cover",
+    "Cover days", "Lead days", "Lead spread days", "Review days", "Lead-time quantile",
+    "Level", "EOQ", "On hand", "Past shelf life", "On order", "Position", "Raw need",
+    "For kits", "Kits assembled", "Spare to kits", "Rounded", "Minimum", "Shelf-life cap",
+    "Use by", "Caps", "Topped up",
+    "Budget cut", "Qty", "Unit cost", "Value", "Expected fill", "Fill before caps",
+    "Need date", "Order by", "Build-ahead", "Supplier choice", "Reason",
+]
+
+
+def _reason_rows(plan: Plan) -> list[list[Any]]:
+    rows = []
+    for ln in sorted(plan.lines, key=lambda x: (x.qty == 0, x.supplier, x.part)):
+        rows.append([
+            ln.supplier, ln.part, ln.description, ln.policy, ln.abc, ln.fill_target,
+            round(ln.forecast_cover, 2), ln.cover_days, ln.lead_days, ln.lead_sd_days,
+            ln.review_days, round(ln.lead_quantile, 2), round(ln.level, 2), round(ln.eoq, 1),
+            ln.on_hand, ln.expired, ln.on_order, ln.position, ln.raw_need, ln.for_kits,
+            ln.assembled, ln.to_kits, ln.rounded, ln.minimum, ln.shelf_cap, ln.shelf_limit,
+            ", ".join(ln.caps),
+            ln.topped_up, ln.budget_cut, ln.qty, ln.unit_cost, ln.value, ln.expected_fill,
+            ln.fill_before_caps, ln.need_date, ln.order_by, round(ln.build_ahead, 1),
+            ln.supplier_choice, ln.reason,
+        ])
+    return rows
+
+
+def write_plan_workbook(plan: Plan, path: str | Path) -> Path:
+    """Write the plan workbook (see the module docstring); returns the path."""
+    wb = Workbook()
+    wb.remove(wb.active)
+    _summary(wb, plan)
+    for order in plan.orders:
+        _po_sheet(wb, plan, order)
+    pct = "0.0%"
+    sheets = [
+        SheetSpec("Reasons", REASON_HEADER, _reason_rows(plan),
+                  widths={"Reason": 120, "Supplier choice": 50, "Description": 30},
+                  number_formats={"Fill target": pct, "Expected fill": pct,
+                                  "Fill before caps": pct, "Unit cost": "0.0000",
+                                  "Value": MONEY}),
+        SheetSpec("Not covered", ["Part", "Supplier", "Units", "Why"],
+                  [[u.part, u.supplier or "", u.need, u.reason] for u in plan.uncovered],
+                  widths={"Why": 110}),
+        SheetSpec("Kits", ["Kit", "Need", "How", "Kit price", "Loose seals per kit",
+                           "From loose stock", "From loose on this plan", "Why"],
+                  [[k.kit, k.need, k.how, k.cost_whole, k.cost_loose, k.from_stock,
+                    k.from_loose, k.reason] for k in plan.kits],
+                  widths={"Why": 110}, number_formats={"Kit price": MONEY,
+                                                       "Loose seals per kit": MONEY}),
+    ]
+    for spec in sheets:
+        fill_sheet(wb.create_sheet(spec.name), spec)
+    return save_workbook(wb, path)
+
+
+# -- reading a plan back ------------------------------------------------------------------------
+
+
+def _as_date(v: Any) -> date | None:
+    if isinstance(v, datetime):
+        return v.date()
+    if isinstance(v, date):
+        return v
+    if isinstance(v, str) and v.strip():
+        return date.fromisoformat(v.strip()[:10])
+    return None
+
+
+def read_plan_workbook(path: str | Path) -> list[DraftOrder]:
+    """The purchase orders on a plan workbook's ``PO`` sheets, with the quantities as they
+    stand (a manager may have edited them; lines set to 0 or left blank are skipped).
+    Every problem is reported at once, with its sheet and cell."""
+    p = Path(path)
+    try:
+        wb = load_workbook(p, data_only=False, read_only=True)
+    except Exception as exc:
+        raise InventoryError(f"{p.name}: cannot read the workbook ({exc})") from None
+    reasons: dict[tuple[str, str], str] = {}
+    if "Reasons" in wb.sheetnames:
+        rows = wb["Reasons"].iter_rows(values_only=True)
+        header = list(next(rows, ()))
+        if {"Supplier", "Part", "Reason"} <= set(header):
+            si, pi, ri = (header.index(h) for h in ("Supplier", "Part", "Reason"))
+            for row in rows:
+                if row and row[si] and row[pi]:
+                    reasons[(str(row[si]), str(row[pi]))] = str(row[ri] or "")
+    orders, problems = [], []
+    for name in wb.sheetnames:
+        ws = wb[name]
+        cells = [list(r) for r in ws.iter_rows(values_only=True)]
+        if not cells or not cells[0] or cells[0][0] != TITLE:
+            continue
+        info: dict[str, Any] = {}
+        head = None
+        for i, row in enumerate(cells):
+            if row and row[0] == PO_COLUMNS[0] and len(row) > 1 and row[1] == PO_COLUMNS[1]:
+                head = i
+                break
+            if row and isinstance(row[0], str) and row[0] in LABELS:
+                info[row[0]] = row[1] if len(row) > 1 else None
+        supplier = str(info.get("Supplier") or "").strip()
+        if head is None or not supplier:
+            problems.append(Problem("not a purchase-order sheet this tool wrote (no supplier "
+                                    "or no line table)", source=Source(p.name, name)))
+            continue
+        lines = []
+        for i in range(head + 1, len(cells)):
+            row = cells[i] + [None] * 10
+            part = row[1]
+            if part is None or str(part).strip() == "":
+                break
+            qty, cost = row[4], row[7]
+            src = Source(p.name, name, i + 1, 5, "Qty")
+            if qty is None or qty == "" or qty == 0:
+                continue
+            if isinstance(qty, bool) or not isinstance(qty, int | float) or qty != int(qty) \
+                    or qty < 0:
+                problems.append(Problem(f"expected a whole number of units, got {qty!r}",
+                                        source=src))
+                continue
+            try:
+                price = None if cost in (None, "") else Decimal(str(cost))
+            except InvalidOperation:
+                problems.append(Problem(f"expected a unit cost, got {cost!r}",
+                                        source=Source(p.name, name, i + 1, 8, "Unit cost")))
+                continue
+            lines.append(DraftLine(str(part).strip(), int(qty), price,
+                                   reasons.get((supplier, str(part).strip()), "")))
+        try:
+            order_by = _as_date(info.get("Order by"))
+            expected = _as_date(info.get("Expected delivery"))
+        except ValueError:
+            problems.append(Problem("bad order-by or delivery date", source=Source(p.name, name)))
+            continue
+        if lines:
+            orders.append(DraftOrder(supplier, order_by, expected, tuple(lines),
+                                     f"{p.name}:{name}"))
+    wb.close()
+    if problems:
+        raise InventoryError(problems)
+    if not orders and not any(n.startswith("PO ") for n in wb.sheetnames):
+        raise InventoryError(f"{p.name}: no purchase-order sheets in this workbook",
+                             hint="write one with `inventory plan --xlsx FILE`")
+    return orders
+
+
+def read_plan_json(data: dict[str, Any], name: str = "plan.json") -> list[DraftOrder]:
+    """The purchase orders of a ``plan --json`` document."""
+    if not isinstance(data, dict) or not isinstance(data.get("orders"), list):
+        raise InventoryError(f"{name}: not a plan (no \"orders\" list)",
+                             hint="write one with `inventory plan --json > plan.json`")
+    out, problems = [], []
+    for i, o in enumerate(data["orders"]):
+        where = f"{name}: orders[{i}]"
+        if not isinstance(o, dict) or not o.get("supplier") or not isinstance(o.get("lines"),
+                                                                              list):
+            problems.append(Problem(f"{where}: needs a supplier and a list of lines"))
+            continue
+        lines = []
+        for j, ln in enumerate(o["lines"]):
+            q = ln.get("qty") if isinstance(ln, dict) else None
+            if not isinstance(ln, dict) or not ln.get("part") or isinstance(q, bool) \
+                    or not isinstance(q, int) or q < 0:
+                problems.append(Problem(f"{where}.lines[{j}]: needs a part and a whole qty"))
+                continue
+            if q == 0:
+                continue
+            try:
+                cost = None if ln.get("unit_cost") in (None, "") else Decimal(str(ln["unit_cost"]))
+            except InvalidOperation:
+                problems.append(Problem(f"{where}.lines[{j}]: bad unit_cost "
+                                        f"{ln.get('unit_cost')!r}"))
+                continue
+            lines.append(DraftLine(str(ln["part"]), q, cost, str(ln.get("reason") or "")))
+        try:
+            order_by = _as_date(o.get("order_by"))
+            expected = _as_date(o.get("expected_delivery"))
+        except ValueError:
+            problems.append(Problem(f"{where}: bad order_by or expected_delivery date"))
+            continue
+        if lines:
+            out.append(DraftOrder(str(o["supplier"]), order_by, expected, tuple(lines), where))
+    if problems:
+        raise InventoryError(problems)
+    return out
+
+
+def read_plan_file(path: str | Path) -> list[DraftOrder]:
+    """The purchase orders of a plan file: the workbook (``.xlsx``) or its JSON."""
+    import json
+
+    p = Path(path)
+    if not p.exists():
+        raise InventoryError(f"no file {p}")
+    if p.suffix.lower() in (".xlsx", ".xlsm"):
+        return read_plan_workbook(p)
+    try:
+        data = json.loads(p.read_text(encoding="utf-8"))
+    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise InventoryError(f"{p.name}: not JSON ({exc})",
+                             hint="give the plan workbook (.xlsx) or `plan --json` output") \
+            from None
+    return read_plan_json(data, p.name)

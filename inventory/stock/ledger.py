@@ -1,0 +1,379 @@
+"""The stock ledger: receipts, issues, adjustments, counts and moves.
+
+Stock on hand is the sum of an append-only list of movements; nothing is edited or deleted,
+a correction is a new movement. Each function writes its movements and updates the cached
+balance rows in the caller's transaction (``inventory.core.db.transaction``), so a failure
+anywhere leaves the database as it was. Taking stock locks the balance rows it reads
+(``FOR UPDATE`` on PostgreSQL; SQLite transactions begin ``IMMEDIATE``), and the database
+itself refuses a negative balance, so two people issuing the last unit at once cannot both
+succeed.
+
+Stock is taken oldest cure quarter first; lots without a cure quarter (oil, metal and plastic
+parts) after those, by receipt date, then by lot id.
+"""
+
+from __future__ import annotations
+
+import getpass
+import os
+from dataclasses import dataclass
+from datetime import UTC, date, datetime
+from decimal import Decimal
+
+from sqlalchemy import case, func, insert, update
+from sqlalchemy.dialects.postgresql import insert as pg_insert
+from sqlalchemy.dialects.sqlite import insert as sqlite_insert
+from sqlmodel import Session, select
+
+from inventory.core import lookup
+from inventory.core.cure import parse_quarter
+from inventory.core.errors import InventoryError
+from inventory.core.tables import Location, Lot, Movement, Part, StockBalance, SupplierItem
+
+DEFAULT_LOCATION = "MAIN"
+
+
+def current_user() -> str:
+    try:
+        return os.environ.get("INVENTORY_USER") or getpass.getuser()
+    except Exception:
+        return "unknown"
+
+
+def _now() -> datetime:
+    return datetime.now(UTC)
+
+
+def _positive(qty: int, what: str = "quantity") -> int:
+    if isinstance(qty, bool) or not isinstance(qty, int):
+        raise InventoryError(f"{what} must be a whole number, got {qty!r}")
+    if qty <= 0:
+        raise InventoryError(f"{what} must be more than 0, got {qty}")
+    return qty
+
+
+def _bump_balance(session: Session, part_id: int, location_id: int, lot_id: int, qty: int) -> None:
+    """Add ``qty`` to a balance row: a decrement updates the existing row (the database's
+    check refuses to take it below zero); an increment creates the row when absent."""
+    if qty < 0:
+        bal = StockBalance.__table__
+        done = session.execute(
+            update(bal).where(bal.c.part_id == part_id, bal.c.location_id == location_id,
+                              bal.c.lot_id == lot_id).values(qty=bal.c.qty + qty)
+        )
+        if done.rowcount != 1:
+            raise InventoryError("no stock in that lot to take from", kind="shortage")
+        return
+    values = dict(part_id=part_id, location_id=location_id, lot_id=lot_id, qty=qty)
+    dialect = session.get_bind().dialect.name
+    ins = pg_insert if dialect == "postgresql" else sqlite_insert
+    stmt = ins(StockBalance).values(**values)
+    stmt = stmt.on_conflict_do_update(
+        index_elements=["part_id", "location_id", "lot_id"],
+        set_={"qty": StockBalance.__table__.c.qty + stmt.excluded.qty},
+    )
+    session.execute(stmt)
+
+
+def _record(session: Session, *, part: Part, location: Location, lot: Lot, qty: int, kind: str,
+            ts: datetime | None, reference: str | None = None, reason: str | None = None,
+            user: str | None = None, batch_id: int | None = None) -> Movement:
+    values = dict(
+        ts=ts or _now(), part_id=part.id, location_id=location.id, lot_id=lot.id, qty=qty,
+        kind=kind, unit_cost=lot.unit_cost, reference=reference, reason=reason,
+        user=user or current_user(), batch_id=batch_id,
+    )
+    # A Core insert: the ledger is append-only, so the ORM's change tracking buys nothing.
+    new_id = session.execute(insert(Movement).values(**values).returning(Movement.id)).scalar_one()
+    _bump_balance(session, part.id, location.id, lot.id, qty)
+    return Movement(id=new_id, **values)
+
+
+def _next_lot_code(session: Session, part: Part, received: date) -> str:
+    stem = received.strftime("%Y%m%d")
+    n = session.exec(
+        select(func.count()).select_from(Lot).where(Lot.part_id == part.id, Lot.code.like(f"{stem}%"))
+    ).one()
+    return f"{stem}-{n + 1}"
+
+
+def fifo_order():
+    """ORDER BY terms: oldest cure quarter first, then lots without one by receipt date."""
+    return (case((Lot.cured.is_(None), 1), else_=0), Lot.cured, Lot.received, Lot.id)
+
+
+@dataclass(frozen=True, slots=True)
+class Take:
+    balance_id: int
+    location: Location
+    lot: Lot
+    qty: int
+
+
+def _available(session: Session, part: Part, location: Location | None, *, lock: bool):
+    q = (
+        select(StockBalance, Lot, Location)
+        .join(Lot, Lot.id == StockBalance.lot_id)
+        .join(Location, Location.id == StockBalance.location_id)
+        .where(StockBalance.part_id == part.id, StockBalance.qty > 0)
+    )
+    if location is not None:
+        q = q.where(StockBalance.location_id == location.id)
+    q = q.order_by(*fifo_order())
+    if lock and session.get_bind().dialect.name == "postgresql":
+        q = q.with_for_update(of=StockBalance)
+    return list(session.exec(q))
+
+
+def _allocate(session: Session, part: Part, qty: int, location: Location | None) -> list[Take]:
+    rows = _available(session, part, location, lock=True)
+    have = sum(b.qty for b, _, _ in rows)
+    if have < qty:
+        where = f" at {location.code}" if location is not None else ""
+        raise InventoryError(
+            f"not enough stock of {part.code}{where}: asked {qty}, on hand {have}",
+            kind="shortage",
+            hint="receive stock first, or record a count if the shelf holds more than the ledger",
+        )
+    takes, left = [], qty
+    for bal, lot, loc in rows:
+        if left == 0:
+            break
+        n = min(left, bal.qty)
+        takes.append(Take(bal.id, loc, lot, n))
+        left -= n
+    return takes
+
+
+def receive(session: Session, part_code: str, qty: int, unit_cost: Decimal | str | None = None, *,
+            lot: str | None = None, cured: str | None = None, location: str = DEFAULT_LOCATION,
+            received: date | None = None, ts: datetime | None = None,
+            reference: str | None = None, supplier: str | None = None, user: str | None = None,
+            batch_id: int | None = None) -> Movement:
+    """Book ``qty`` units into a lot (an existing lot code adds to it) at ``location``."""
+    _positive(qty)
+    part = lookup.part(session, part_code)
+    loc = lookup.location(session, location)
+    try:
+        cure = parse_quarter(cured) if cured else None
+    except ValueError as exc:
+        raise InventoryError(str(exc)) from None
+    ts = ts or _now()
+    received = received or ts.date()
+    sup = lookup.supplier(session, supplier) if supplier else None
+    row = None
+    if lot:
+        row = session.exec(select(Lot).where(Lot.part_id == part.id, Lot.code == lot)).first()
+        if row is not None and cure and row.cured and row.cured != cure:
+            raise InventoryError(
+                f"lot {lot} of {part.code} was cured {row.cured}, not {cure}",
+                kind="conflict", hint="give the delivery its own lot code",
+            )
+    if row is None:
+        cost = _cost(session, part, unit_cost)
+        row = Lot(part_id=part.id, code=lot or _next_lot_code(session, part, received),
+                  cured=cure, received=received, unit_cost=cost,
+                  supplier_id=sup.id if sup else None)
+        session.add(row)
+        session.flush()
+    elif unit_cost is not None and Decimal(str(unit_cost)) != row.unit_cost:
+        raise InventoryError(
+            f"lot {row.code} of {part.code} is costed at {row.unit_cost}, not {unit_cost}",
+            kind="conflict", hint="a delivery at another cost needs its own lot code",
+        )
+    return _record(session, part=part, location=loc, lot=row, qty=qty, kind="receipt", ts=ts,
+                   reference=reference, user=user, batch_id=batch_id)
+
+
+def _cost(session: Session, part: Part, unit_cost) -> Decimal:
+    if unit_cost is not None:
+        try:
+            cost = Decimal(str(unit_cost))
+        except Exception as exc:
+            raise InventoryError(f"unit cost must be a number, got {unit_cost!r}") from exc
+        if not cost.is_finite() or cost < 0:
+            raise InventoryError(f"unit cost must be 0 or more, got {unit_cost}")
+        return cost
+    last = session.exec(
+        select(Lot.unit_cost).where(Lot.part_id == part.id).order_by(Lot.received.desc(), Lot.id.desc())
+    ).first()
+    if last is not None:
+        return last
+    item = session.exec(
+        select(SupplierItem.unit_cost).where(SupplierItem.part_id == part.id)
+        .order_by(SupplierItem.unit_cost)
+    ).first()
+    if item is not None:
+        return item
+    raise InventoryError(f"no cost known for {part.code}", hint="give --cost")
+
+
+def issue(session: Session, part_code: str, qty: int, *, location: str | None = None,
+          reference: str | None = None, ts: datetime | None = None, user: str | None = None,
+          kind: str = "issue", reason: str | None = None,
+          batch_id: int | None = None) -> list[Movement]:
+    """Take ``qty`` units out, oldest cure quarter first; all or nothing."""
+    _positive(qty)
+    part = lookup.part(session, part_code)
+    loc = lookup.location(session, location) if location else None
+    ts = ts or _now()
+    return [
+        _record(session, part=part, location=t.location, lot=t.lot, qty=-t.qty, kind=kind, ts=ts,
+                reference=reference, reason=reason, user=user, batch_id=batch_id)
+        for t in _allocate(session, part, qty, loc)
+    ]
+
+
+def _add_to_newest_lot(session, part, loc, qty, *, kind, ts, reason, user, unit_cost,
+                       reference=None, batch_id=None) -> Movement:
+    lot = session.exec(
+        select(Lot).where(Lot.part_id == part.id).order_by(Lot.received.desc(), Lot.id.desc())
+    ).first()
+    if lot is None or unit_cost is not None:
+        day = (ts or _now()).date()
+        lot = Lot(part_id=part.id, code=_next_lot_code(session, part, day), cured=None,
+                  received=day, unit_cost=_cost(session, part, unit_cost))
+        session.add(lot)
+        session.flush()
+    return _record(session, part=part, location=loc, lot=lot, qty=qty, kind=kind, ts=ts,
+                   reason=reason, user=user, reference=reference, batch_id=batch_id)
+
+
+def adjust(session: Session, part_code: str, qty: int, *, reason: str,
+           location: str = DEFAULT_LOCATION, ts: datetime | None = None,
+           user: str | None = None, unit_cost=None) -> list[Movement]:
+    """A signed correction with a reason. Out: oldest cure first. In: to the newest lot
+    (or a new lot at ``unit_cost``)."""
+    if isinstance(qty, bool) or not isinstance(qty, int) or qty == 0:
+        raise InventoryError(f"adjustment must be a whole number other than 0, got {qty!r}")
+    if not reason or not reason.strip():
+        raise InventoryError("an adjustment needs a reason", hint="add --reason TEXT")
+    part = lookup.part(session, part_code)
+    loc = lookup.location(session, location)
+    if qty < 0:
+        return issue(session, part.code, -qty, location=loc.code, ts=ts, user=user,
+                     kind="adjust", reason=reason)
+    return [_add_to_newest_lot(session, part, loc, qty, kind="adjust", ts=ts, reason=reason,
+                               user=user, unit_cost=unit_cost)]
+
+
+def on_hand_at(session: Session, part: Part, location: Location | None = None) -> int:
+    q = select(func.coalesce(func.sum(StockBalance.qty), 0)).where(StockBalance.part_id == part.id)
+    if location is not None:
+        q = q.where(StockBalance.location_id == location.id)
+    return int(session.exec(q).one())
+
+
+def count(session: Session, part_code: str, counted: int, *, location: str = DEFAULT_LOCATION,
+          ts: datetime | None = None, user: str | None = None,
+          reference: str | None = None, batch_id: int | None = None) -> list[Movement]:
+    """Record a shelf count; the variance against the ledger becomes a ``count`` movement.
+    A matching count writes nothing and returns no movement."""
+    if isinstance(counted, bool) or not isinstance(counted, int) or counted < 0:
+        raise InventoryError(f"counted quantity must be a whole number, 0 or more, got {counted!r}")
+    part = lookup.part(session, part_code)
+    loc = lookup.location(session, location)
+    rows = _available(session, part, loc, lock=True)
+    have = sum(b.qty for b, _, _ in rows)
+    variance = counted - have
+    reason = f"counted {counted}, ledger {have}"
+    if variance == 0:
+        return []
+    if variance < 0:
+        return issue(session, part.code, -variance, location=loc.code, ts=ts, user=user,
+                     kind="count", reason=reason, reference=reference, batch_id=batch_id)
+    return [_add_to_newest_lot(session, part, loc, variance, kind="count", ts=ts, reason=reason,
+                               user=user, unit_cost=None, reference=reference,
+                               batch_id=batch_id)]
+
+
+def move(session: Session, part_code: str, qty: int, *, from_location: str, to_location: str,
+         ts: datetime | None = None, user: str | None = None) -> list[Movement]:
+    """Move units between locations, keeping their lots (oldest cure first)."""
+    _positive(qty)
+    part = lookup.part(session, part_code)
+    src = lookup.location(session, from_location)
+    dst = lookup.location(session, to_location)
+    if src.id == dst.id:
+        raise InventoryError(f"--from and --to are both {src.code}")
+    ts = ts or _now()
+    out: list[Movement] = []
+    for t in _allocate(session, part, qty, src):
+        out.append(_record(session, part=part, location=src, lot=t.lot, qty=-t.qty, kind="move",
+                           ts=ts, reason=f"to {dst.code}", user=user))
+        out.append(_record(session, part=part, location=dst, lot=t.lot, qty=t.qty, kind="move",
+                           ts=ts, reason=f"from {src.code}", user=user))
+    return out
+
+
+@dataclass(frozen=True, slots=True)
+class StockLine:
+    part: str
+    location: str
+    on_hand: int
+    value: Decimal
+    lot: str | None = None
+    cured: str | None = None
+
+    def to_dict(self) -> dict:
+        d = {"part": self.part, "location": self.location, "on_hand": self.on_hand,
+             "value": str(self.value)}
+        if self.lot is not None:
+            d.update(lot=self.lot, cured=self.cured)
+        return d
+
+
+def on_hand(session: Session, *, part: str | None = None, location: str | None = None,
+            by_lot: bool = False, as_of: datetime | None = None) -> list[StockLine]:
+    """Stock on hand summed from the ledger in SQL (not from the cached balances)."""
+    qty = func.sum(Movement.qty)
+    value = func.sum(Movement.qty * Movement.unit_cost)
+    cols = [Part.code, Location.code]
+    if by_lot:
+        cols += [Lot.code, Lot.cured]
+    q = (
+        select(*cols, qty, value)
+        .join(Part, Part.id == Movement.part_id)
+        .join(Location, Location.id == Movement.location_id)
+    )
+    if by_lot:
+        q = q.join(Lot, Lot.id == Movement.lot_id)
+    if part:
+        q = q.where(Movement.part_id == lookup.part(session, part).id)
+    if location:
+        q = q.where(Movement.location_id == lookup.location(session, location).id)
+    if as_of is not None:
+        q = q.where(Movement.ts <= as_of)
+    q = q.group_by(*cols).having(qty != 0).order_by(*cols)
+    out = []
+    for row in session.exec(q):
+        if by_lot:
+            p, loc, lot, cured, n, v = row
+        else:
+            p, loc, n, v = row
+            lot = cured = None
+        out.append(StockLine(p, loc, int(n), Decimal(str(v or 0)).quantize(Decimal("0.01")),
+                             lot, cured))
+    return out
+
+
+def verify_balances(session: Session) -> list[str]:
+    """Differences between the cached balances and the ledger (empty when they agree)."""
+    led = dict(
+        ((p, loc, lot), int(n))
+        for p, loc, lot, n in session.exec(
+            select(Movement.part_id, Movement.location_id, Movement.lot_id, func.sum(Movement.qty))
+            .group_by(Movement.part_id, Movement.location_id, Movement.lot_id)
+        )
+    )
+    bal = {
+        (b.part_id, b.location_id, b.lot_id): b.qty for b in session.exec(select(StockBalance))
+    }
+    problems = []
+    for key in sorted(set(led) | set(bal)):
+        a, b = led.get(key, 0), bal.get(key, 0)
+        if a != b:
+            problems.append(f"part {key[0]} location {key[1]} lot {key[2]}: ledger {a}, cached {b}")
+        if a < 0:
+            problems.append(f"part {key[0]} location {key[1]} lot {key[2]}: negative ledger {a}")
+    return problems
