@@ -282,3 +282,22 @@ class ImportedRow(SQLModel, table=True):
     kind: str = Field(max_length=24)
     row_key: str = Field(max_length=64)
     batch_id: int = Field(foreign_key="import_batch.id", index=True)
+
+
+class Person(SQLModel, table=True):
+    """Someone who signs in to the web app: a name, a role (technician, manager, admin), an
+    Argon2 password hash, and the failed-login count behind the sign-in throttle. Movements
+    record the person's name in ``Movement.user``."""
+
+    __tablename__ = "person"
+    __table_args__ = (
+        CheckConstraint("role IN ('technician', 'manager', 'admin')", name="ck_person_role"),
+    )
+    id: int | None = Field(default=None, primary_key=True)
+    name: str = Field(index=True, unique=True, max_length=64)
+    role: str = Field(max_length=16)
+    password_hash: str = Field(max_length=200)
+    active: bool = True
+    created: datetime
+    failed_logins: int = 0
+    locked_until: datetime | None = None
