@@ -174,6 +174,9 @@ class Movement(SQLModel, table=True):
     reason: str | None = Field(default=None, max_length=200)
     user: str | None = Field(default=None, max_length=64)
     batch_id: int | None = Field(default=None, foreign_key="import_batch.id")
+    # A correction points at the movement it undoes (a reversal, a return or a void); the
+    # pair nets to zero, nothing is edited.
+    reverses_id: int | None = Field(default=None, foreign_key="movement.id", index=True)
 
 
 class StockBalance(SQLModel, table=True):
@@ -301,3 +304,21 @@ class Person(SQLModel, table=True):
     created: datetime
     failed_logins: int = 0
     locked_until: datetime | None = None
+
+
+class MonthClose(SQLModel, table=True):
+    """One act on a month's books: ``close`` (with a snapshot of the month's report totals,
+    JSON) or ``reopen`` (with its reason). A month is closed when its latest act is a close;
+    the acts are kept, so a reopening stays on record."""
+
+    __tablename__ = "month_close"
+    __table_args__ = (
+        CheckConstraint("action IN ('close', 'reopen')", name="ck_month_close_action"),
+    )
+    id: int | None = Field(default=None, primary_key=True)
+    month: str = Field(max_length=7, index=True)  # "2026-11"
+    action: str = Field(max_length=8)
+    ts: datetime
+    user: str | None = Field(default=None, max_length=64)
+    reason: str = Field(default="", max_length=200)
+    totals: str = Field(default="", max_length=4000)
