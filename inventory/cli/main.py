@@ -17,6 +17,7 @@ from inventory.cli import (
     plan_cmd,
     report_cmd,
     stock,
+    users_cmd,
 )
 from inventory.cli.common import AppState, err_console, say, state
 from inventory.core.errors import InventoryError
@@ -78,6 +79,7 @@ app.command("template")(io_cmd.template)
 forecast_cmd.register(app)  # forecast, backtest
 plan_cmd.register(app)  # plan, order
 app.add_typer(report_cmd.app, name="report")
+users_cmd.register(app)  # user add/list/disable, serve
 
 
 def run() -> None:

@@ -34,8 +34,12 @@ DEFAULT_LOCATION = "MAIN"
 
 
 def current_user() -> str:
+    """The person signed in to the web app for this request, else ``$INVENTORY_USER``, else
+    the operating-system login."""
+    from inventory.core.actor import acting_person
+
     try:
-        return os.environ.get("INVENTORY_USER") or getpass.getuser()
+        return acting_person() or os.environ.get("INVENTORY_USER") or getpass.getuser()
     except Exception:
         return "unknown"
 
