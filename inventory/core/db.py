@@ -4,16 +4,29 @@ SQLite (the default, a file ``inventory.db`` in the working directory) runs in W
 foreign keys on; every transaction starts ``BEGIN IMMEDIATE`` so two writers serialise
 instead of failing half-way. PostgreSQL is reached by URL (psycopg 3); writers lock the
 balance rows they change (``SELECT ... FOR UPDATE``).
+
+Waits are bounded: a write that waits longer than ``$INVENTORY_LOCK_TIMEOUT`` seconds
+(default :data:`DEFAULT_LOCK_TIMEOUT`) for another writer (SQLite's busy timeout,
+PostgreSQL's ``lock_timeout``) fails with one line saying another booking is in progress.
+:func:`run_transaction` retries a unit of work a bounded number of times when PostgreSQL
+reports a deadlock or a serialisation failure. :func:`explain` turns the database and file
+system failures people can act on (locked, disk full, permission, connection, constraint,
+value too long) into one :class:`InventoryError` line naming the file, table or value.
 """
 
 from __future__ import annotations
 
+import errno
 import os
-from collections.abc import Iterator
+import random
+import re
+import time
+from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from pathlib import Path
+from typing import TypeVar
 
-from sqlalchemy import event, inspect
+from sqlalchemy import event, exc as sa_exc, inspect
 from sqlalchemy.engine import Engine, make_url
 from sqlmodel import Session, create_engine
 
@@ -21,6 +34,30 @@ from inventory.core.errors import InventoryError
 
 DEFAULT_URL = "sqlite:///inventory.db"
 ENV_VAR = "INVENTORY_DB"
+#: Seconds a write waits for another writer before giving up (both databases).
+DEFAULT_LOCK_TIMEOUT = 5.0
+LOCK_TIMEOUT_VAR = "INVENTORY_LOCK_TIMEOUT"
+#: Attempts of one unit of work when PostgreSQL picks it as a deadlock victim or reports a
+#: serialisation failure.
+DEFAULT_ATTEMPTS = 4
+BUSY_MESSAGE = "another booking is in progress"
+BUSY_HINT = "try again in a moment"
+
+
+def lock_timeout(value: float | str | None = None) -> float:
+    """Seconds to wait for a lock: ``value``, else ``$INVENTORY_LOCK_TIMEOUT``, else the
+    default; a positive finite number of at most an hour."""
+    raw = value if value is not None else os.environ.get(LOCK_TIMEOUT_VAR)
+    if raw is None or raw == "":
+        return DEFAULT_LOCK_TIMEOUT
+    try:
+        seconds = float(raw)
+    except (TypeError, ValueError):
+        seconds = float("nan")
+    if not (0 < seconds <= 3600):  # also refuses nan
+        raise InventoryError(f"bad {LOCK_TIMEOUT_VAR} {raw!r}: expected seconds between 0 "
+                             "and 3600, e.g. 5")
+    return seconds
 
 
 def resolve_url(url: str | None = None) -> str:
@@ -36,12 +73,12 @@ def resolve_url(url: str | None = None) -> str:
     return url
 
 
-def _sqlite_pragmas(dbapi_conn, _record) -> None:
+def _sqlite_pragmas(dbapi_conn, _record, *, busy_ms: int = int(DEFAULT_LOCK_TIMEOUT * 1000)) -> None:
     # Let SQLAlchemy's "begin" event issue BEGIN IMMEDIATE itself.
     dbapi_conn.isolation_level = None
     cur = dbapi_conn.cursor()
     cur.execute("PRAGMA foreign_keys=ON")
-    cur.execute("PRAGMA busy_timeout=30000")
+    cur.execute(f"PRAGMA busy_timeout={int(busy_ms)}")
     try:
         cur.execute("PRAGMA journal_mode=WAL")
     except Exception:  # in-memory databases have no WAL; that is fine
@@ -56,9 +93,18 @@ def _sqlite_begin(conn) -> None:
 _engines: dict[str, Engine] = {}
 
 
-def make_engine(url: str | None = None, *, fresh: bool = False) -> Engine:
-    """Build (or reuse) the engine for ``url``."""
+_last_url: str | None = None
+T = TypeVar("T")
+
+
+def make_engine(url: str | None = None, *, fresh: bool = False,
+                timeout: float | None = None) -> Engine:
+    """Build (or reuse) the engine for ``url``; writes wait at most ``timeout`` seconds
+    (default :func:`lock_timeout`) for another writer's lock."""
+    global _last_url
     url = resolve_url(url)
+    _last_url = url
+    wait = lock_timeout(timeout)
     if not fresh and url in _engines:
         return _engines[url]
     parsed = make_url(url)
@@ -71,11 +117,15 @@ def make_engine(url: str | None = None, *, fresh: bool = False) -> Engine:
                     f"folder {parent} for the database file does not exist",
                     hint="create the folder or give another --db path",
                 )
-        engine = create_engine(url, connect_args={"timeout": 30})
-        event.listen(engine, "connect", _sqlite_pragmas)
+        engine = create_engine(url, connect_args={"timeout": wait})
+        event.listen(engine, "connect",
+                     lambda c, r: _sqlite_pragmas(c, r, busy_ms=int(wait * 1000)))
         event.listen(engine, "begin", _sqlite_begin)
     else:
-        engine = create_engine(url, pool_pre_ping=True)
+        ms = max(1, int(wait * 1000))
+        engine = create_engine(url, pool_pre_ping=True, connect_args={
+            "options": f"-c lock_timeout={ms} -c deadlock_timeout={min(ms, 1000)}",
+            "connect_timeout": max(1, int(wait))})
     _engines[url] = engine
     return engine
 
@@ -88,7 +138,8 @@ def dispose_all() -> None:
 
 @contextmanager
 def transaction(engine: Engine) -> Iterator[Session]:
-    """One unit of work: commit on success, roll back everything on any error."""
+    """One unit of work: commit on success, roll back everything on any error. (The CLI's
+    top-level handler turns database failures into one line with :func:`explain`.)"""
     with Session(engine, expire_on_commit=False) as session:
         try:
             yield session
@@ -96,6 +147,128 @@ def transaction(engine: Engine) -> Iterator[Session]:
         except BaseException:
             session.rollback()
             raise
+
+
+def run_transaction(engine: Engine, work: Callable[[Session], T], *,
+                    attempts: int = DEFAULT_ATTEMPTS) -> T:
+    """Run ``work(session)`` in one transaction; when PostgreSQL reports a deadlock or a
+    serialisation failure, roll back and run it again (at most ``attempts`` times in all,
+    with a short random pause). Anything else, or the last failure, is raised as
+    :func:`transaction` raises it."""
+    if attempts < 1:
+        raise ValueError(f"attempts must be 1 or more, got {attempts}")
+    for attempt in range(1, attempts + 1):
+        try:
+            with transaction(engine) as session:
+                return work(session)
+        except sa_exc.DBAPIError as exc:
+            if not _retryable(exc):
+                raise
+            if attempt == attempts:
+                raise InventoryError(
+                    f"{BUSY_MESSAGE} on the same stock; gave up after {attempts} attempts",
+                    kind="busy", hint=BUSY_HINT) from exc
+            time.sleep(random.uniform(0.01, 0.05) * attempt)
+    raise AssertionError("unreachable")  # pragma: no cover
+
+
+def _sqlstate(exc: BaseException) -> str | None:
+    orig = getattr(exc, "orig", exc)
+    return getattr(orig, "sqlstate", None) or getattr(orig, "pgcode", None)
+
+
+def _retryable(exc: BaseException) -> bool:
+    """A deadlock victim (40P01) or serialisation failure (40001): safe to run again."""
+    return _sqlstate(exc) in ("40P01", "40001")
+
+
+def _where(url) -> str:
+    """The database as a person knows it: the SQLite file, or host/database."""
+    if url is None:
+        url = _last_url
+    if url is None:
+        return "the database"
+    parsed = make_url(str(url)) if not hasattr(url, "get_backend_name") else url
+    if parsed.get_backend_name() == "sqlite":
+        return f"database file {parsed.database or ':memory:'}"
+    host = parsed.host or "localhost"
+    port = f":{parsed.port}" if parsed.port else ""
+    return f"database {parsed.database} on {host}{port}"
+
+
+_UNIQUE_SQLITE = re.compile(r"UNIQUE constraint failed: ([\w.]+(?:, [\w.]+)*)")
+_CHECK_SQLITE = re.compile(r"CHECK constraint failed: (\w+)")
+
+
+def _constraint(text: str, diag) -> str:
+    """Table/columns or constraint named in an integrity error."""
+    if diag is not None:
+        parts = [p for p in (getattr(diag, "table_name", None),
+                             getattr(diag, "constraint_name", None)) if p]
+        detail = getattr(diag, "message_detail", None)
+        where = " ".join(parts) if parts else ""
+        return f"{where}{': ' + detail if detail else ''}".strip()
+    m = _UNIQUE_SQLITE.search(text) or _CHECK_SQLITE.search(text)
+    return m.group(1) if m else text.splitlines()[0]
+
+
+def explain(exc: BaseException, url=None) -> InventoryError | None:
+    """One actionable line for a database or file-system failure, or ``None`` when the
+    failure is not one of these (a bug: the caller shows it as unexpected)."""
+    if isinstance(exc, InventoryError):
+        return exc
+    where = _where(url)
+    if isinstance(exc, sa_exc.DBAPIError):
+        orig = exc.orig
+        text = str(orig)
+        low = text.lower()
+        state = _sqlstate(exc)
+        diag = getattr(orig, "diag", None)
+        if state == "55P03" or "database is locked" in low or "database table is locked" in low:
+            return InventoryError(f"{BUSY_MESSAGE} ({where} is locked by another writer)",
+                                  kind="busy", hint=BUSY_HINT)
+        if _retryable(exc):
+            return InventoryError(f"{BUSY_MESSAGE} on the same stock ({where})", kind="busy",
+                                  hint=BUSY_HINT)
+        if state == "53100" or "disk is full" in low or "no space left" in low:
+            return InventoryError(f"disk full: cannot write to {where}", kind="disk",
+                                  hint="free some space and run the command again")
+        if "readonly database" in low or "read-only" in low or state == "42501" \
+                or "permission denied" in low:
+            return InventoryError(f"permission denied: cannot write to {where}",
+                                  kind="permission",
+                                  hint="check the file and folder permissions, or the "
+                                       "database user's rights")
+        if "unable to open database file" in low:
+            return InventoryError(f"cannot open {where}", kind="permission",
+                                  hint="check the path and the folder's permissions")
+        if isinstance(exc, sa_exc.IntegrityError):
+            return InventoryError(f"{where} refused the change: "
+                                  f"{_constraint(text, diag)}", kind="conflict",
+                                  hint="nothing was written; another user may have made "
+                                       "the same change at the same moment")
+        if isinstance(exc, sa_exc.DataError):
+            col = getattr(diag, "column_name", None) if diag is not None else None
+            first = (getattr(diag, "message_primary", None) if diag is not None else None) \
+                or text.splitlines()[0]
+            return InventoryError(f"{where} refused a value{' in ' + col if col else ''}: "
+                                  f"{first}", kind="invalid")
+        if isinstance(exc, sa_exc.OperationalError) and (
+                state is None or state.startswith("08") or state in ("57P01", "57P03")):
+            first = text.strip().splitlines()[0] if text.strip() else type(orig).__name__
+            return InventoryError(f"cannot reach {where}: {first}", kind="connection",
+                                  hint="check that the server is running and the URL "
+                                       "(--db or $INVENTORY_DB)")
+        return None
+    if isinstance(exc, OSError) and exc.errno in (errno.ENOSPC, errno.EDQUOT, errno.EACCES,
+                                                   errno.EPERM, errno.EROFS):
+        target = exc.filename or "a file"
+        if exc.errno in (errno.ENOSPC, errno.EDQUOT):
+            return InventoryError(f"disk full: cannot write {target}", kind="disk",
+                                  hint="free some space and run the command again")
+        return InventoryError(f"permission denied: cannot write {target}", kind="permission",
+                              hint="check the file and folder permissions")
+    return None
 
 
 def is_postgres(engine: Engine) -> bool:

@@ -20,15 +20,16 @@ from dataclasses import dataclass
 from datetime import UTC, date, datetime
 from decimal import Decimal
 
-from sqlalchemy import case, func, insert, update
+from sqlalchemy import case, func, insert, text, update
 from sqlalchemy.dialects.postgresql import insert as pg_insert
 from sqlalchemy.dialects.sqlite import insert as sqlite_insert
 from sqlmodel import Session, select
 
 from inventory.core import lookup
-from inventory.core.cure import parse_quarter
+from inventory.core.cure import parse_quarter, quarter_start
 from inventory.core.errors import InventoryError
 from inventory.core.tables import Location, Lot, Movement, Part, StockBalance, SupplierItem
+from inventory.stock import allocation, months, timeline
 
 DEFAULT_LOCATION = "MAIN"
 
@@ -81,24 +82,46 @@ def _bump_balance(session: Session, part_id: int, location_id: int, lot_id: int,
 
 def _record(session: Session, *, part: Part, location: Location, lot: Lot, qty: int, kind: str,
             ts: datetime | None, reference: str | None = None, reason: str | None = None,
-            user: str | None = None, batch_id: int | None = None) -> Movement:
+            user: str | None = None, batch_id: int | None = None,
+            reverses_id: int | None = None) -> Movement:
     values = dict(
         ts=ts or _now(), part_id=part.id, location_id=location.id, lot_id=lot.id, qty=qty,
         kind=kind, unit_cost=lot.unit_cost, reference=reference, reason=reason,
-        user=user or current_user(), batch_id=batch_id,
+        user=user or current_user(), batch_id=batch_id, reverses_id=reverses_id,
     )
+    months.refuse_if_closed(session, values["ts"])
     # A Core insert: the ledger is append-only, so the ORM's change tracking buys nothing.
     new_id = session.execute(insert(Movement).values(**values).returning(Movement.id)).scalar_one()
     _bump_balance(session, part.id, location.id, lot.id, qty)
     return Movement(id=new_id, **values)
 
 
+#: First key of PostgreSQL's two-key advisory locks taken here (the second is a part id):
+#: creating a lot of a part is serialised per part, so generated codes never collide.
+LOT_LOCK_CLASS = 72_011
+
+
+def lock_part_lots(session: Session, part: Part) -> None:
+    """Hold, until the transaction ends, the right to create lots of ``part``. PostgreSQL:
+    a transaction-level advisory lock (waits at most the lock timeout); SQLite: nothing to
+    do, every write transaction already holds the database (``BEGIN IMMEDIATE``)."""
+    if session.get_bind().dialect.name == "postgresql":
+        session.execute(text("SELECT pg_advisory_xact_lock(:k, :p)"),
+                        {"k": LOT_LOCK_CLASS, "p": part.id})
+
+
 def _next_lot_code(session: Session, part: Part, received: date) -> str:
+    """``YYYYMMDD-n``: one past the highest ``n`` of that day's codes of the part, so a
+    manual code such as ``20261204-2`` is stepped over rather than collided with. Call
+    with :func:`lock_part_lots` held."""
     stem = received.strftime("%Y%m%d")
-    n = session.exec(
-        select(func.count()).select_from(Lot).where(Lot.part_id == part.id, Lot.code.like(f"{stem}%"))
-    ).one()
-    return f"{stem}-{n + 1}"
+    top = 0
+    for (code,) in session.execute(
+            select(Lot.code).where(Lot.part_id == part.id, Lot.code.like(f"{stem}-%"))):
+        tail = code[len(stem) + 1:]
+        if tail.isascii() and tail.isdigit():
+            top = max(top, int(tail))
+    return f"{stem}-{top + 1}"
 
 
 def fifo_order():
@@ -125,28 +148,28 @@ def _available(session: Session, part: Part, location: Location | None, *, lock:
         q = q.where(StockBalance.location_id == location.id)
     q = q.order_by(*fifo_order())
     if lock and session.get_bind().dialect.name == "postgresql":
-        q = q.with_for_update(of=StockBalance)
+        # Lock first, in one global order (part, lot, location) and whatever the quantity,
+        # so two writers never hold each other's rows (taking the locks in FIFO order over
+        # rows filtered by a snapshot's quantities could cross). Then read the locked rows'
+        # current values in FIFO order.
+        key = select(StockBalance.id).where(StockBalance.part_id == part.id)
+        if location is not None:
+            key = key.where(StockBalance.location_id == location.id)
+        session.execute(key.order_by(StockBalance.part_id, StockBalance.lot_id,
+                                     StockBalance.location_id).with_for_update())
+        q = q.execution_options(populate_existing=True)
     return list(session.exec(q))
 
 
-def _allocate(session: Session, part: Part, qty: int, location: Location | None) -> list[Take]:
+def _allocate(session: Session, part: Part, qty: int, location: Location | None, *,
+              ts: datetime | None = None, skip_expired: bool = False,
+              inspected: bool = False) -> list[Take]:
+    """Lots to take ``qty`` from on the booking's day, in time order (see
+    :mod:`inventory.stock.allocation`, the one allocation path)."""
     rows = _available(session, part, location, lock=True)
-    have = sum(b.qty for b, _, _ in rows)
-    if have < qty:
-        where = f" at {location.code}" if location is not None else ""
-        raise InventoryError(
-            f"not enough stock of {part.code}{where}: asked {qty}, on hand {have}",
-            kind="shortage",
-            hint="receive stock first, or record a count if the shelf holds more than the ledger",
-        )
-    takes, left = [], qty
-    for bal, lot, loc in rows:
-        if left == 0:
-            break
-        n = min(left, bal.qty)
-        takes.append(Take(bal.id, loc, lot, n))
-        left -= n
-    return takes
+    picks = allocation.pick(session, part, qty, location, rows, day=timeline.day_of(ts or _now()),
+                            skip_expired=skip_expired, inspected=inspected)
+    return [Take(p.balance.id, p.location, p.lot, p.qty) for p in picks]
 
 
 def receive(session: Session, part_code: str, qty: int, unit_cost: Decimal | str | None = None, *,
@@ -164,7 +187,13 @@ def receive(session: Session, part_code: str, qty: int, unit_cost: Decimal | str
         raise InventoryError(str(exc)) from None
     ts = ts or _now()
     received = received or ts.date()
+    if cure and quarter_start(cure) > received:
+        raise InventoryError(
+            f"cure quarter {cure} of {part.code} starts after the receipt date "
+            f"{received.isoformat()}: rubber cannot arrive before it is cured",
+            hint="check the cure date on the bag (e.g. 2026Q3 or 3/26)")
     sup = lookup.supplier(session, supplier) if supplier else None
+    lock_part_lots(session, part)
     row = None
     if lot:
         row = session.exec(select(Lot).where(Lot.part_id == part.id, Lot.code == lot)).first()
@@ -215,16 +244,21 @@ def _cost(session: Session, part: Part, unit_cost) -> Decimal:
 def issue(session: Session, part_code: str, qty: int, *, location: str | None = None,
           reference: str | None = None, ts: datetime | None = None, user: str | None = None,
           kind: str = "issue", reason: str | None = None,
-          batch_id: int | None = None) -> list[Movement]:
-    """Take ``qty`` units out, oldest cure quarter first; all or nothing."""
+          batch_id: int | None = None, inspected: bool = False) -> list[Movement]:
+    """Take ``qty`` units out, oldest cure quarter first, from what was on hand on the
+    booking's day without taking any later balance below zero; all or nothing. An issue
+    skips lots past their ISO 2230 storage limit unless ``inspected`` (which records the
+    extension on the lot it uses)."""
     _positive(qty)
     part = lookup.part(session, part_code)
     loc = lookup.location(session, location) if location else None
     ts = ts or _now()
+    months.refuse_if_closed(session, ts)
     return [
         _record(session, part=part, location=t.location, lot=t.lot, qty=-t.qty, kind=kind, ts=ts,
                 reference=reference, reason=reason, user=user, batch_id=batch_id)
-        for t in _allocate(session, part, qty, loc)
+        for t in _allocate(session, part, qty, loc, ts=ts, skip_expired=kind == "issue",
+                           inspected=inspected)
     ]
 
 
@@ -234,6 +268,7 @@ def _add_to_newest_lot(session, part, loc, qty, *, kind, ts, reason, user, unit_
         select(Lot).where(Lot.part_id == part.id).order_by(Lot.received.desc(), Lot.id.desc())
     ).first()
     if lot is None or unit_cost is not None:
+        lock_part_lots(session, part)
         day = (ts or _now()).date()
         lot = Lot(part_id=part.id, code=_next_lot_code(session, part, day), cured=None,
                   received=day, unit_cost=_cost(session, part, unit_cost))
@@ -277,8 +312,13 @@ def count(session: Session, part_code: str, counted: int, *, location: str = DEF
         raise InventoryError(f"counted quantity must be a whole number, 0 or more, got {counted!r}")
     part = lookup.part(session, part_code)
     loc = lookup.location(session, location)
-    rows = _available(session, part, loc, lock=True)
-    have = sum(b.qty for b, _, _ in rows)
+    _available(session, part, loc, lock=True)
+    ts = ts or _now()
+    months.refuse_if_closed(session, ts)
+    have = int(session.exec(  # on hand at the end of the count's day, from the ledger
+        select(func.coalesce(func.sum(Movement.qty), 0)).where(
+            Movement.part_id == part.id, Movement.location_id == loc.id,
+            Movement.ts < timeline.day_end(timeline.day_of(ts)))).one())
     variance = counted - have
     reason = f"counted {counted}, ledger {have}"
     if variance == 0:
@@ -302,7 +342,8 @@ def move(session: Session, part_code: str, qty: int, *, from_location: str, to_l
         raise InventoryError(f"--from and --to are both {src.code}")
     ts = ts or _now()
     out: list[Movement] = []
-    for t in _allocate(session, part, qty, src):
+    months.refuse_if_closed(session, ts)
+    for t in _allocate(session, part, qty, src, ts=ts):
         out.append(_record(session, part=part, location=src, lot=t.lot, qty=-t.qty, kind="move",
                            ts=ts, reason=f"to {dst.code}", user=user))
         out.append(_record(session, part=part, location=dst, lot=t.lot, qty=t.qty, kind="move",
