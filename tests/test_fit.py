@@ -70,11 +70,19 @@ def test_worked_gland_verdicts_per_regime():
     def squeeze(seat):
         return next(c for c in fit(RING, seat).checks if c.name == "squeeze")
 
+    # That verdict is at nominal sizes. Over the ring's tolerances and the H8 / h9 seat
+    # limits the squeeze spreads to about 13.5-21.3 % (tests/test_fit_limits.py), so the
+    # static and hydraulic seats are marginal (an extreme leaves the range) and the
+    # pneumatic one still fails (its nominal is out).
     static = squeeze(_piston_seat(Motion.STATIC))
-    assert static.status == Verdict.PASS and static.allowed == "15 to 30 %"
+    assert static.allowed == "15 to 30 %"
     assert round(static.value, 1) == 18.6
+    assert 15 <= static.value <= 30 and static.low < 15
+    assert static.status == Verdict.MARGINAL and static.driver == "minimum"
     assert squeeze(_piston_seat(Motion.DYNAMIC, Medium.AIR)).status == Verdict.FAIL
-    assert squeeze(_piston_seat(Motion.DYNAMIC, Medium.OIL)).status == Verdict.PASS
+    oil = squeeze(_piston_seat(Motion.DYNAMIC, Medium.OIL))
+    assert 10 <= oil.value <= 20 and oil.high > 20
+    assert oil.status == Verdict.MARGINAL and oil.driver == "maximum"
 
 
 def test_worked_gland_full_result():
@@ -86,7 +94,9 @@ def test_worked_gland_full_result():
     # gland fill checked with 5 % swell (REFERENCE.md 2: x1.05 for 5 %): 70.35 x 1.05
     assert by_name["gland fill"].value == pytest.approx(70.355 * 1.05, abs=0.01)
     assert by_name["gland fill"].status == Verdict.PASS
-    assert result.verdict == Verdict.PASS
+    # nominal squeeze 18.6 % passes 10-20 %, its maximum over the tolerances does not
+    assert by_name["squeeze"].status == Verdict.MARGINAL
+    assert result.verdict == Verdict.MARGINAL
     assert result.caution == CAUTION and "\n" not in CAUTION
     d = result.to_dict()
     assert set(d) >= {"verdict", "checks", "caution"}
@@ -306,7 +316,9 @@ def test_spacer_fit_reports_both_exponents():
 def test_rules_are_explicit_and_replaceable():
     strict = dataclasses.replace(FitRules(), squeeze_dynamic_oil=Limit(10.0, 16.0, 1.0, 1.0))
     seat = _piston_seat(Motion.DYNAMIC, Medium.OIL)
-    assert fit(RING, seat).verdict == Verdict.PASS
+    wide = dataclasses.replace(FitRules(), squeeze_dynamic_oil=Limit(10.0, 22.0, 2.0, 2.0))
+    assert fit(RING, seat).verdict == Verdict.MARGINAL  # maximum squeeze 21.3 % over 20
+    assert fit(RING, seat, rules=wide).verdict == Verdict.PASS
     assert fit(RING, seat, rules=strict).verdict == Verdict.FAIL
 
 

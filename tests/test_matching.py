@@ -166,7 +166,9 @@ def test_match_with_a_seat_gives_the_fit_verdict():
     arrays = standard_part_arrays()
     for c in best:
         assert c.verdict == str(fit(arrays.spec(c.index), seat).verdict)
-    assert best[0].verdict == "pass"  # the worked gland of REFERENCE.md 2
+    # the worked gland of REFERENCE.md 2: static pass at nominal (18.6 %), but the
+    # minimum squeeze over the ring and seat tolerances is about 13.6 % < 15: marginal
+    assert best[0].code == "AS568-214" and best[0].verdict == "marginal"
 
 
 # ---------------------------------------------------------- matrix vs scalar fit()

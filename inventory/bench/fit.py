@@ -23,12 +23,15 @@ from dataclasses import dataclass
 from enum import StrEnum
 
 from inventory.bench.fit_rules import (
+    DRIVER_TEXT,
     FAIL,
     KIND_CODE,
     NOT_APPLICABLE,
     STATUS_NAMES,
+    TOL_BASIS_TEXT,
     FitRules,
     Limit,
+    PartColumns,
     RawCheck,
     columns_from_specs,
     evaluate,
@@ -74,11 +77,28 @@ class Check:
     source: str
     unit: str = ""
     note: str = ""
+    #: Checks judged over the tolerance range (O-ring and X-ring glands): the lowest and
+    #: highest value, and which extreme ("minimum", "maximum") drives the status, if any.
+    low: float | None = None
+    high: float | None = None
+    driver: str | None = None
+
+    def range_text(self) -> str:
+        """``0.69 to 13.14 %, minimum drives`` (empty for a check without a range)."""
+        if self.low is None or self.high is None:
+            return ""
+        fmt = "{:.3f}" if self.unit == "mm" else "{:.2f}"
+        unit = f" {self.unit}" if self.unit else ""
+        text = f"{fmt.format(self.low)} to {fmt.format(self.high)}{unit}"
+        return f"{text}, {self.driver} drives" if self.driver else text
 
     def to_dict(self) -> dict:
-        return {"name": self.name, "value": self.value, "allowed": self.allowed,
-                "status": str(self.status), "source": self.source, "unit": self.unit,
-                "note": self.note}
+        d = {"name": self.name, "value": self.value, "allowed": self.allowed,
+             "status": str(self.status), "source": self.source, "unit": self.unit,
+             "note": self.note}
+        if self.low is not None:
+            d.update(low=self.low, high=self.high, driver=self.driver)
+        return d
 
 
 @dataclass(frozen=True, slots=True)
@@ -115,6 +135,26 @@ def _value(raw: RawCheck, part: PartSpec) -> float | str | None:
     return None if math.isnan(v) else v
 
 
+def _range(raw: RawCheck) -> tuple[float | None, float | None, str | None]:
+    if raw.low is None or raw.high is None:
+        return None, None, None
+    low, high = float(raw.low[0]), float(raw.high[0])
+    if math.isnan(low) or math.isnan(high):
+        return None, None, None
+    driver = DRIVER_TEXT[int(raw.driver[0])] if raw.driver is not None else ""
+    return low, high, driver or None
+
+
+def _tolerance_note(cols: PartColumns, part: PartSpec) -> str:
+    if cols.id_tol_mm is None or cols.cs_tol_mm is None or cols.tol_basis is None:
+        return ""
+    it, ct = float(cols.id_tol_mm[0]), float(cols.cs_tol_mm[0])
+    if math.isnan(it) or math.isnan(ct):
+        return ""
+    return (f"ring {part.id_mm:g} +/-{it:.2f} x {part.cs_mm:g} +/-{ct:.2f} mm, "
+            f"{TOL_BASIS_TEXT[int(cols.tol_basis[0])]}")
+
+
 def _note(raw: RawCheck, part: PartSpec, seat: SeatSpec) -> str:
     if raw.name == "material":
         if part.material is None and part.standard:
@@ -135,10 +175,15 @@ def fit(part: PartSpec, seat: SeatSpec, *, rules: FitRules = FitRules(),
     raws = evaluate(cols, seat, rules, reference_shore_a=reference_shore_a)
     if not kind_applies(part.kind, seat.part_kind, rules=rules):
         raws = raws[:1]  # geometry of the wrong kind means nothing
-    checks = tuple(
-        Check(raw.name, _value(raw, part), raw.allowed, Verdict.from_code(raw.status[0]),
-              raw.source, raw.unit, _note(raw, part, seat))
-        for raw in raws
-    )
+    tol_note = _tolerance_note(cols, part)
+    checks = []
+    for raw in raws:
+        low, high, driver = _range(raw)
+        note = _note(raw, part, seat)
+        if low is not None and raw.name == "installed stretch" and tol_note:
+            note = f"{tol_note}; {note}"
+        checks.append(Check(raw.name, _value(raw, part), raw.allowed,
+                            Verdict.from_code(raw.status[0]), raw.source, raw.unit, note,
+                            low, high, driver))
     verdict = Verdict.from_code(int(worst(raws)[0]))
-    return FitResult(part.code, seat.fork, seat.seat, verdict, checks)
+    return FitResult(part.code, seat.fork, seat.seat, verdict, tuple(checks))

@@ -41,6 +41,44 @@ def stretched_cross_section(d1: ArrayLike, d2: ArrayLike, d_seat: ArrayLike) -> 
     return float(out) if out.ndim == 0 else out
 
 
+#: Stretch (%) above which the handbook curve is held at its peak, so the reduction never
+#: falls as stretch grows (the quadratic turns over near 64 %; far outside any fit limit).
+HANDBOOK_STRETCH_CAP_PCT = 64.0
+
+
+def handbook_cs_reduction_pct(stretch_pct: ArrayLike) -> ArrayLike:
+    """Cross-section reduction (% of d2) of a ring stretched by ``stretch_pct`` (% of d1),
+    from the empirical curves of seal handbooks quoted in REFERENCE.md 2 (recalled from
+    memory): ``Y = 0.01 + 1.06 X - 0.10 X^2`` for ``X <= 3``, ``Y = 0.56 + 0.59 X - 0.0046 X^2``
+    above. No stretch (``X <= 0``) gives no reduction; above
+    :data:`HANDBOOK_STRETCH_CAP_PCT` the curve is held at its peak."""
+    x = np.minimum(np.asarray(stretch_pct, dtype=float), HANDBOOK_STRETCH_CAP_PCT)
+    y = np.where(x <= 3.0, 0.01 + 1.06 * x - 0.10 * x * x, 0.56 + 0.59 * x - 0.0046 * x * x)
+    out = np.where(x > 0.0, y, 0.0)
+    return float(out) if out.ndim == 0 else out
+
+
+def cross_section_bounds(d1: ArrayLike, d2: ArrayLike,
+                         d_seat: ArrayLike) -> tuple[ArrayLike, ArrayLike]:
+    """(smallest, largest) plausible cross-section of a ring of d1 x d2 stretched onto d_seat.
+
+    REFERENCE.md 2 (corrected): the handbook curve gives roughly twice the constant-volume
+    reduction at low stretch, so neither is the safe side for every check. The smallest
+    section uses the larger of the two reductions (for the minimum squeeze), the largest
+    the smaller one (for the maximum squeeze and the fill).
+    """
+    d1a = np.asarray(d1, dtype=float)
+    d2a = np.asarray(d2, dtype=float)
+    cv = np.asarray(stretched_cross_section(d1a, d2a, d_seat), dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        stretch = (np.asarray(d_seat, dtype=float) - d1a) / d1a * 100.0
+    hb = d2a * (1.0 - np.asarray(handbook_cs_reduction_pct(stretch)) / 100.0)
+    small, large = np.minimum(cv, hb), np.maximum(cv, hb)
+    if small.ndim == 0:
+        return float(small), float(large)
+    return small, large
+
+
 @dataclass(frozen=True, slots=True)
 class OringGland:
     """Installed state of a round ring in a radial gland (percentages, mm)."""

@@ -14,13 +14,20 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
 
-from inventory.bench.fit_geometry import P_ATM_BAR, spacer_end_pressure, stretched_cross_section
+from inventory.bench.fit_geometry import (
+    P_ATM_BAR,
+    cross_section_bounds,
+    spacer_end_pressure,
+    stretched_cross_section,
+)
 from inventory.bench.seals import MATERIALS, MEDIUM_STATUS, ROUND_SECTION, normalise_material
-from inventory.bench.tolerances import limits
+from inventory.bench.sizes import normalise_designation, standard_orings
+from inventory.bench.tolerances import HOLE, SHAFT, check_role, limits
 from inventory.core.model import Gland, Medium, Motion, PartKind, PartSpec, SeatSpec
 
 PASS, MARGINAL, FAIL = 0, 1, 2
@@ -48,6 +55,8 @@ SRC_MATERIAL = "polymer vs mineral oil: seal handbooks (recalled from memory; co
 SRC_HARDNESS = "hardness within the tolerance of the original (common practice)"
 SRC_KIND = "seal kind of the seat (common practice for substitutes)"
 SRC_GLIDE = ("guide-ring housings: ISO 6547 (scope only); clearances common practice")
+SRC_RING_TOL = ("ring tolerances: AS568 / ISO 3601-1 tables shipped in inventory/standards; "
+                "seat limits: ISO 286 classes (REFERENCE.md 1-3)")
 
 
 @dataclass(frozen=True, slots=True)
@@ -142,6 +151,12 @@ class FitRules:
     #: ISO 286 class assumed for a housing bore when the seat gives none. H8 is the usual
     #: seal-housing bore (REFERENCE.md 3, recalled from memory).
     default_bore_fit: str = "H8"
+    #: ISO 286 classes of a radial O-ring gland when the seat gives none: piston groove
+    #: root h9, rod f7, rod-gland groove H9 (REFERENCE.md 2, usual pairing with ISO 3601-2
+    #: glands, recalled from memory); the bore uses ``default_bore_fit``.
+    default_piston_groove_fit: str = "h9"
+    default_rod_fit: str = "f7"
+    default_rod_groove_fit: str = "H9"
     #: Height above the housing depth (the lip standing proud), mm (common practice).
     wiper_protrusion: Limit = Limit(0.0, 5.0, 0.5, 2.0, "mm")
     #: Scraper or wiper held in a rod-gland groove (seal head): outside diameter over the
@@ -231,16 +246,65 @@ class PartColumns:
     hardness: np.ndarray
     material: np.ndarray  # int16 index into MATERIAL_CODES, UNKNOWN_MATERIAL or NO_MATERIAL
     any_material: np.ndarray  # bool: a standard size, orderable in the compound the seat needs
+    #: +/- tolerances of d1 and d2 (mm) of round-section rings and where they come from
+    #: (TOL_TABLE, TOL_ASSUMED). None: derived from the dimensions by
+    #: :func:`assumed_ring_tolerances` when the ring rules need them.
+    id_tol_mm: np.ndarray | None = None
+    cs_tol_mm: np.ndarray | None = None
+    tol_basis: np.ndarray | None = None
 
     def __len__(self) -> int:
         return len(self.kind)
 
     def take(self, index: np.ndarray) -> PartColumns:
-        return PartColumns(**{name: getattr(self, name)[index] for name in _COLUMN_NAMES})
+        return PartColumns(**{name: getattr(self, name)[index] for name in _COLUMN_NAMES
+                              if getattr(self, name) is not None})
 
 
 _COLUMN_NAMES = ("kind", "id_mm", "od_mm", "height_mm", "cs_mm", "volume_cm3", "hardness",
-                 "material", "any_material")
+                 "material", "any_material", "id_tol_mm", "cs_tol_mm", "tol_basis")
+
+#: Where a ring's tolerances come from.
+TOL_TABLE, TOL_ASSUMED = 0, 1
+TOL_BASIS_TEXT = (
+    "tolerances of its standard size (shipped AS568 / ISO 3601-1 table)",
+    "tolerances assumed: ISO 3601-1:2012 Annex A Eq. A.1 on d1 (recalled from memory) and "
+    "the nearest standard cross-section's tolerance on d2",
+)
+
+
+@lru_cache(maxsize=1)
+def _standard_tolerances() -> dict[str, tuple[float, float]]:
+    rings = standard_orings()
+    return {str(d): (float(it), float(ct)) for d, it, ct in
+            zip(rings.designation, rings.id_tol_mm, rings.cs_tol_mm, strict=True)}
+
+
+def assumed_ring_tolerances(id_mm: Any, cs_mm: Any) -> tuple[np.ndarray, np.ndarray]:
+    """(+/- d1, +/- d2) in mm for rings of no standard size: d1 by ISO 3601-1:2012 Annex A
+    Eq. A.1, ``d1^0.95 x 0.009 + 0.11`` (recalled from memory, REFERENCE.md 1.1); d2 the
+    tolerance of the nearest cross-section in the shipped AS568 / ISO 3601-1 tables."""
+    d1 = np.asarray(id_mm, dtype=float)
+    d2 = np.asarray(cs_mm, dtype=float)
+    with np.errstate(invalid="ignore"):
+        id_tol = np.where(d1 > 0, np.abs(d1) ** 0.95 * 0.009 + 0.11, np.nan)
+    rings = standard_orings()
+    cs_values, first = np.unique(rings.cs_mm, return_index=True)
+    cs_tols = rings.cs_tol_mm[first]
+    nearest = np.abs(np.nan_to_num(d2, nan=0.0)[..., None] - cs_values).argmin(axis=-1)
+    cs_tol = np.where(np.isnan(d2), np.nan, cs_tols[nearest])
+    return id_tol, cs_tol
+
+
+def ring_tolerances(spec: PartSpec) -> tuple[float, float, int]:
+    """(+/- d1, +/- d2, basis) of one ring: its standard size's table row when the part
+    names one, else :func:`assumed_ring_tolerances`."""
+    if spec.standard:
+        hit = _standard_tolerances().get(normalise_designation(spec.standard))
+        if hit is not None:
+            return hit[0], hit[1], TOL_TABLE
+    id_tol, cs_tol = assumed_ring_tolerances(_f(spec.id_mm), _f(spec.cs_mm))
+    return float(id_tol), float(cs_tol), TOL_ASSUMED
 
 
 def material_code(code: str | None) -> int:
@@ -263,6 +327,9 @@ def columns_from_specs(specs: Sequence[PartSpec]) -> PartColumns:
             ("id_mm", "od_mm", "height_mm", "cs_mm", "volume_cm3", "hardness")}
     mat = np.empty(n, dtype=np.int16)
     any_mat = np.zeros(n, dtype=bool)
+    id_tol = np.full(n, math.nan)
+    cs_tol = np.full(n, math.nan)
+    basis = np.full(n, TOL_ASSUMED, dtype=np.int8)
     for i, p in enumerate(specs):
         k = PartKind(p.kind)
         kind[i] = KIND_CODE[k]
@@ -272,12 +339,14 @@ def columns_from_specs(specs: Sequence[PartSpec]) -> PartColumns:
                 od = idm + 2.0 * cs
             if math.isnan(h):
                 h = cs
+            id_tol[i], cs_tol[i], basis[i] = ring_tolerances(p)
         cols["id_mm"][i], cols["od_mm"][i], cols["height_mm"][i], cols["cs_mm"][i] = idm, od, h, cs
         cols["volume_cm3"][i] = _f(p.volume_cm3)
         cols["hardness"][i] = _f(p.hardness_shore_a)
         mat[i] = material_code(p.material)
         any_mat[i] = p.material is None and p.standard is not None
-    return PartColumns(kind=kind, material=mat, any_material=any_mat, **cols)
+    return PartColumns(kind=kind, material=mat, any_material=any_mat, id_tol_mm=id_tol,
+                       cs_tol_mm=cs_tol, tol_basis=basis, **cols)
 
 
 # ----------------------------------------------------------------------------- checks
@@ -293,10 +362,48 @@ class RawCheck:
     source: str
     unit: str = ""
     note: str = ""
+    #: Checks judged over the tolerance range: the lowest and highest value per part, and
+    #: which extreme drives the status (DRIVER_NONE, DRIVER_LOW, DRIVER_HIGH).
+    low: np.ndarray | None = None
+    high: np.ndarray | None = None
+    driver: np.ndarray | None = None
 
 
 def _check(name: str, value: np.ndarray, limit: Limit, source: str, note: str = "") -> RawCheck:
     return RawCheck(name, value, limit.text(), limit.grade(value), source, limit.unit, note)
+
+
+DRIVER_NONE, DRIVER_LOW, DRIVER_HIGH = 0, 1, 2
+DRIVER_TEXT = ("", "minimum", "maximum")
+
+
+def range_status(limit: Limit, nominal: Any, low: Any, high: Any) -> tuple[np.ndarray,
+                                                                            np.ndarray]:
+    """Status and driving extreme of a value known over a range ``[low, high]``.
+
+    Pass only when the whole range lies inside the pass limits; marginal when the nominal
+    passes but an extreme does not (however far out it lies); otherwise the nominal's own
+    status (marginal band or fail). The driver is the extreme lying further outside the
+    pass range, where an extreme lowers the status below the nominal's.
+    """
+    nom = limit.grade(nominal)
+    lo_s, hi_s = limit.grade(low), limit.grade(high)
+    ext = np.minimum(np.maximum(lo_s, hi_s), MARGINAL)
+    status = np.maximum(nom, ext).astype(np.int8)
+    with np.errstate(invalid="ignore"):
+        below = np.nan_to_num(limit.low - np.asarray(low, dtype=float), nan=np.inf)
+        above = np.nan_to_num(np.asarray(high, dtype=float) - limit.high, nan=np.inf)
+    which = np.where(below >= above, DRIVER_LOW, DRIVER_HIGH)
+    driver = np.where(status > nom, which, DRIVER_NONE).astype(np.int8)
+    return status, driver
+
+
+def _range_check(name: str, nominal: np.ndarray, low: np.ndarray, high: np.ndarray,
+                 limit: Limit, source: str, note: str = "") -> RawCheck:
+    status, driver = range_status(limit, nominal, low, high)
+    return RawCheck(name, nominal, limit.text(), status, source, limit.unit, note,
+                    low=np.asarray(low, dtype=float), high=np.asarray(high, dtype=float),
+                    driver=driver)
 
 
 def _seat_problem(n: int, message: str) -> list[RawCheck]:
@@ -365,7 +472,36 @@ def _swell(seat: SeatSpec, rules: FitRules) -> float:
     return rules.swell_pct_dry if Medium(seat.medium) == Medium.NONE else rules.swell_pct_wetted
 
 
+def _class_limits(nominal: float, fit: str | None, default: str, role: str,
+                  what: str) -> tuple[float, float, str] | str:
+    """(low, high, text) of a seat diameter from its ISO 286 class, or the problem as text
+    (a class of the wrong role, an unknown class, a size outside the table): never a
+    silent fall-back to the nominal size."""
+    cls = fit or default
+    try:
+        check_role(cls, role)
+        low, high = limits(nominal, cls)
+    except ValueError as exc:
+        return f"{what} {nominal:g} {cls}: {exc}"
+    assumed = "" if fit else ", assumed"
+    return low, high, f"{what} {nominal:g} {cls}{assumed}: {low:.3f}-{high:.3f}"
+
+
 def _ring_rules(c: PartColumns, seat: SeatSpec, rules: FitRules) -> list[RawCheck]:
+    """Stretch, squeeze and fill at nominal sizes and over the tolerance range.
+
+    The range runs over the ring's d1 and d2 limits and the seat's ISO 286 limits (bore
+    and groove root of a piston gland, rod and groove of a rod gland, the bolt of a face
+    seal when it has a class). The minimum squeeze and fill use the smaller stretched
+    cross-section (larger reduction), the maximum the larger one (REFERENCE.md 2,
+    corrected); the nominal uses constant volume.
+
+    Squeeze ``1 - t / d2'`` and fill grow with d2' and fall with t; d2' grows with d2 and
+    with d1 (less stretch), and the outer diameter (bore, rod-gland groove, counterbore)
+    moves only t or the face width. So the minimum takes d1 and d2 low and the outer
+    diameter high, the maximum the opposite; only the inner diameter (groove root, rod,
+    bolt) moves both t and the stretch, and both of its limits are tried.
+    """
     gland = Gland(seat.gland)
     d1, d2 = c.id_mm, c.cs_mm
     if gland in RADIAL:
@@ -377,33 +513,86 @@ def _ring_rules(c: PartColumns, seat: SeatSpec, rules: FitRules) -> list[RawChec
     if isinstance(g, str):
         return _seat_problem(len(c), g)
     if gland == Gland.PISTON:
-        d_seat, depth = g["groove_mm"], (g["bore_mm"] - g["groove_mm"]) / 2.0
-        width = g["groove_width_mm"]
+        outer = _class_limits(g["bore_mm"], seat.bore_fit, rules.default_bore_fit, HOLE,
+                              "bore")
+        inner = _class_limits(g["groove_mm"], None, rules.default_piston_groove_fit, SHAFT,
+                              "groove root")
     elif gland == Gland.ROD:
-        d_seat, depth = g["rod_mm"], (g["groove_mm"] - g["rod_mm"]) / 2.0
-        width = g["groove_width_mm"]
-    else:  # face seal round a bolt, in a counterbore of the given depth
-        d_seat, depth = g["rod_mm"], g["housing_depth_mm"]
-        width = (g["bore_mm"] - g["rod_mm"]) / 2.0
+        outer = _class_limits(g["groove_mm"], None, rules.default_rod_groove_fit, HOLE,
+                              "groove")
+        inner = _class_limits(g["rod_mm"], seat.rod_fit, rules.default_rod_fit, SHAFT, "rod")
+    else:  # face seal round a bolt: the bolt's class when given; depth and counterbore nominal
+        outer = (g["bore_mm"], g["bore_mm"], f"counterbore {g['bore_mm']:g} and depth "
+                 f"{g['housing_depth_mm']:g} nominal")
+        inner = (_class_limits(g["rod_mm"], seat.rod_fit, "", SHAFT, "bolt") if seat.rod_fit
+                 else (g["rod_mm"], g["rod_mm"], f"bolt {g['rod_mm']:g} nominal (no class)"))
+    for lim in (outer, inner):
+        if isinstance(lim, str):
+            return _seat_problem(len(c), lim)
+    assert not isinstance(outer, str) and not isinstance(inner, str)
+    seat_text = f"{outer[2]}; {inner[2]}"
+    if gland == Gland.PISTON:
+        def geometry(o, i):  # d_seat, depth, width
+            return i, (o - i) / 2.0, g["groove_width_mm"]
+        nominal_oi = (g["bore_mm"], g["groove_mm"])
+    elif gland == Gland.ROD:
+        def geometry(o, i):
+            return i, (o - i) / 2.0, g["groove_width_mm"]
+        nominal_oi = (g["groove_mm"], g["rod_mm"])
+    else:
+        def geometry(o, i):
+            return i, g["housing_depth_mm"], (o - i) / 2.0
+        nominal_oi = (g["bore_mm"], g["rod_mm"])
+    id_tol, cs_tol = c.id_tol_mm, c.cs_tol_mm
+    if id_tol is None or cs_tol is None:
+        id_tol, cs_tol = assumed_ring_tolerances(d1, d2)
+    swell = 1.0 + _swell(seat, rules) / 100.0
     with np.errstate(divide="ignore", invalid="ignore"):
+        d_seat, depth, width = geometry(*nominal_oi)
         stretch = (d_seat - d1) / d1 * 100.0
         d2s = np.asarray(stretched_cross_section(d1, d2, d_seat))
         squeeze = (d2s - depth) / d2s * 100.0
-        swell = _swell(seat, rules)
-        fill = np.pi * d2s * d2s / 4.0 / (width * depth) * 100.0 * (1.0 + swell / 100.0)
+        fill = np.pi * d2s * d2s / 4.0 / (width * depth) * 100.0 * swell
+        d1_lo, d1_hi, d2_lo, d2_hi = d1 - id_tol, d1 + id_tol, d2 - cs_tol, d2 + cs_tol
+        lows, highs, depths = [], [], []
+        for inner_mm in (inner[0], inner[1]):
+            ds_lo, t_lo, w_lo = geometry(outer[1], inner_mm)  # outer high: deepest
+            small, _ = cross_section_bounds(d1_lo, d2_lo, ds_lo)
+            ds_hi, t_hi, w_hi = geometry(outer[0], inner_mm)  # outer low: shallowest
+            _, large = cross_section_bounds(d1_hi, d2_hi, ds_hi)
+            lows.append(((small - t_lo) / small * 100.0,
+                         np.pi * small * small / 4.0 / (w_lo * t_lo) * 100.0 * swell,
+                         outer[1] - (d1_lo + 2.0 * small)))
+            highs.append(((large - t_hi) / large * 100.0,
+                          np.pi * large * large / 4.0 / (w_hi * t_hi) * 100.0 * swell,
+                          outer[0] - (d1_hi + 2.0 * large)))
+            depths += [t_lo, t_hi]
+        sq_lo, fill_lo, room_hi = (np.minimum(a, b) if i < 2 else np.maximum(a, b)
+                                   for i, (a, b) in enumerate(zip(*lows, strict=True)))
+        sq_hi, fill_hi, room_lo = (np.maximum(a, b) if i < 2 else np.minimum(a, b)
+                                   for i, (a, b) in enumerate(zip(*highs, strict=True)))
+        stretch_lo = (inner[0] - d1_hi) / d1_hi * 100.0
+        stretch_hi = (inner[1] - d1_lo) / d1_lo * 100.0
     squeeze_limit = rules.squeeze_static if gland == Gland.FACE else _squeeze_limit(seat, rules)
     regime = "static" if squeeze_limit is rules.squeeze_static else (
         "dynamic, air" if squeeze_limit is rules.squeeze_dynamic_air else "dynamic, oil")
+    depth_text = (f"radial depth {depth:.3f} mm nominal, {float(np.min(depths)):.3f}-"
+                  f"{float(np.max(depths)):.3f} over the seat limits")
     out = [
-        _check("installed stretch", stretch, rules.stretch, SRC_STRETCH),
-        _check("squeeze", squeeze, squeeze_limit, SRC_GLAND,
-               note=f"{regime} range; cross-section reduced by stretch; radial depth "
-                    f"{depth:.3f} mm"),
-        _check("gland fill", fill, rules.fill, SRC_FILL, note=f"includes {swell:g} % swell"),
+        _range_check("installed stretch", stretch, stretch_lo, stretch_hi, rules.stretch,
+                     SRC_STRETCH,
+                     note=f"range over ring and seat tolerances; {seat_text}"),
+        _range_check("squeeze", squeeze, sq_lo, sq_hi, squeeze_limit, SRC_GLAND,
+                     note=f"{regime} range; cross-section reduced by stretch (nominal: "
+                          f"constant volume; minimum: the larger, maximum: the smaller of "
+                          f"the handbook and constant-volume reductions); {depth_text}"),
+        _range_check("gland fill", fill, fill_lo, fill_hi, rules.fill, SRC_FILL,
+                     note=f"includes {_swell(seat, rules):g} % swell; groove width nominal"),
     ]
     if gland == Gland.FACE:
         room = g["bore_mm"] - (d1 + 2.0 * d2s)
-        out.append(_check("room to counterbore", room, rules.face_outer_room, SRC_CP))
+        out.append(_range_check("room to counterbore", room, room_lo, room_hi,
+                                rules.face_outer_room, SRC_CP))
     return out
 
 
@@ -434,13 +623,10 @@ def _lip_rules(c: PartColumns, seat: SeatSpec, rules: FitRules) -> list[RawCheck
     ]
 
 
-def _bore_limits(bore: float, bore_fit: str | None, rules: FitRules) -> tuple[float, float, str]:
-    fit = bore_fit or rules.default_bore_fit
-    try:
-        low, high = limits(bore, fit)
-    except ValueError as exc:
-        return bore, bore, f"nominal bore only ({exc})"
-    return low, high, f"bore {bore:g} {fit}: {low:.3f} to {high:.3f} mm"
+def _bore_limits(bore: float, bore_fit: str | None,
+                 rules: FitRules) -> tuple[float, float, str] | str:
+    """The housing bore's ISO 286 limits, or the problem as text (no fall-back to nominal)."""
+    return _class_limits(bore, bore_fit, rules.default_bore_fit, HOLE, "bore")
 
 
 def _wiper_in_groove(c: PartColumns, seat: SeatSpec, rules: FitRules) -> list[RawCheck]:
@@ -469,7 +655,10 @@ def _wiper_rules(c: PartColumns, seat: SeatSpec, rules: FitRules) -> list[RawChe
     if isinstance(g, str):
         return _seat_problem(len(c), g)
     rod, bore = g["rod_mm"], g["bore_mm"]
-    low, high, note = _bore_limits(bore, seat.bore_fit, rules)
+    bore_limits = _bore_limits(bore, seat.bore_fit, rules)
+    if isinstance(bore_limits, str):
+        return _seat_problem(len(c), bore_limits)
+    low, high, note = bore_limits
     out = [
         _check("lip interference on stanchion", (rod - c.id_mm) / rod * 100.0,
                rules.wiper_lip_interference, SRC_CP),

@@ -82,6 +82,23 @@ def parse_fit(fit: str) -> tuple[str, int]:
     return letter, grade
 
 
+HOLE, SHAFT = "hole", "shaft"
+
+
+def check_role(fit: str, role: str) -> tuple[str, int]:
+    """:func:`parse_fit`, and a ``ValueError`` when the class is of the other role: a hole
+    (bore, rod-gland groove) takes upper-case letters E-H, a shaft (rod, piston-groove root)
+    lower-case e-h (ISO 286-1 convention)."""
+    letter, grade = parse_fit(fit)
+    if role == HOLE and letter.islower():
+        raise ValueError(f"{fit.strip()} is a shaft class; a hole needs a hole class "
+                         f"(upper-case E-H, e.g. H8)")
+    if role == SHAFT and letter.isupper():
+        raise ValueError(f"{fit.strip()} is a hole class; a shaft needs a shaft class "
+                         f"(lower-case e-h, e.g. f7)")
+    return letter, grade
+
+
 def it_um(nominal_mm: float, grade: int) -> int:
     """Standard tolerance IT``grade`` in micrometres for a nominal size."""
     if grade not in GRADES:
