@@ -3,8 +3,12 @@ turns every known failure into a line on stderr and a non-zero exit."""
 
 from __future__ import annotations
 
+import functools
+import inspect
 import sys
 import traceback
+from collections.abc import Callable
+from typing import Any
 
 import typer
 
@@ -22,6 +26,9 @@ from inventory.cli import (
 from inventory.cli.common import AppState, err_console, say, state
 from inventory.core.errors import InventoryError
 
+DB_HELP = ("Database URL or SQLite file (default inventory.db here); "
+           "goes before or after the sub-command.")
+
 app = typer.Typer(
     name="inventory",
     help="Seal and parts planner for suspension service shops.",
@@ -33,8 +40,7 @@ app = typer.Typer(
 
 @app.callback()
 def main(ctx: typer.Context,
-         db: str = typer.Option(None, "--db", envvar="INVENTORY_DB",
-                                help="Database URL or SQLite file (default inventory.db here)."),
+         db: str = typer.Option(None, "--db", envvar="INVENTORY_DB", help=DB_HELP),
          debug: bool = typer.Option(False, "--debug", help="Show tracebacks.")) -> None:
     ctx.obj = AppState(db=db, debug=debug)
 
@@ -82,11 +88,68 @@ app.add_typer(report_cmd.app, name="report")
 users_cmd.register(app)  # user add/list/disable, serve
 
 
+def _with_global_options(fn: Callable[..., Any]) -> Callable[..., Any]:
+    """The same command, also taking ``--db`` and ``--debug`` after the sub-command name.
+
+    Built only from typer's public behaviour: typer reads a command's parameters from its
+    signature, so the wrapper shows the original parameters plus the two global ones.
+    """
+    sig = inspect.signature(fn, eval_str=True)
+    names = set(sig.parameters)
+    if "db" in names:  # the command has its own --db (e.g. ``demo``: where to build)
+        return fn
+    extra = [
+        inspect.Parameter("_global_ctx", inspect.Parameter.KEYWORD_ONLY, annotation=typer.Context),
+        inspect.Parameter("_global_db", inspect.Parameter.KEYWORD_ONLY, annotation=str | None,
+                          default=typer.Option(None, "--db", help=DB_HELP)),
+        inspect.Parameter("_global_debug", inspect.Parameter.KEYWORD_ONLY, annotation=bool,
+                          default=typer.Option(False, "--debug", help="Show tracebacks.")),
+    ]
+    ctx_names = [n for n, p in sig.parameters.items() if p.annotation is typer.Context]
+
+    @functools.wraps(fn)
+    def wrapper(*args: Any, _global_ctx: typer.Context, _global_db: str | None = None,
+                _global_debug: bool = False, **kwargs: Any) -> Any:
+        st = state(_global_ctx)
+        if _global_db is not None:
+            st.db = _global_db
+        st.debug = st.debug or _global_debug
+        for name in ctx_names:
+            kwargs[name] = _global_ctx
+        return fn(*args, **kwargs)
+
+    params = [p for p in sig.parameters.values() if p.annotation is not typer.Context]
+    positional = [p for p in params if p.kind is not inspect.Parameter.KEYWORD_ONLY]
+    keyword = [p for p in params if p.kind is inspect.Parameter.KEYWORD_ONLY]
+    wrapper.__signature__ = sig.replace(parameters=positional + keyword + extra)  # type: ignore[attr-defined]
+    wrapper.__annotations__ = {p.name: p.annotation for p in positional + keyword + extra}
+    del wrapper.__wrapped__  # typer must read the wrapper's signature, not the original's
+    return wrapper
+
+
+def _accept_global_options(typer_app: typer.Typer) -> None:
+    """Let every command take ``--db``/``--debug`` after its name as well as before it."""
+    for info in typer_app.registered_commands:
+        if info.callback is not None:
+            info.callback = _with_global_options(info.callback)
+    for group in typer_app.registered_groups:
+        if group.typer_instance is not None:
+            _accept_global_options(group.typer_instance)
+
+
+_accept_global_options(app)
+
+
 def run() -> None:
-    """Console-script entry point."""
+    """Console-script entry point.
+
+    Typer runs in standalone mode, so usage errors (unknown command, missing or bad option)
+    print the usual usage message with its hint and exit with status 2. Everything the tool
+    itself refuses arrives as an ``InventoryError`` and becomes one line and exit status 1.
+    """
     debug = "--debug" in sys.argv
     try:
-        app(standalone_mode=False)
+        app()
     except InventoryError as exc:
         if debug:
             traceback.print_exc()
@@ -96,17 +159,10 @@ def run() -> None:
         for line in lines:
             err_console.print(f"error: {line}", markup=False, highlight=False, soft_wrap=True)
         sys.exit(1)
-    except (typer.Abort, KeyboardInterrupt):
+    except KeyboardInterrupt:
         err_console.print("error: interrupted", markup=False)
         sys.exit(130)
-    except typer.Exit as exc:
-        sys.exit(exc.exit_code)
-    except Exception as exc:  # click usage errors and the unexpected
-        import click
-
-        if isinstance(exc, click.ClickException):
-            exc.show()
-            sys.exit(exc.exit_code)
+    except Exception as exc:  # the unexpected
         if isinstance(exc, ValueError) and not debug:
             err_console.print(f"error: {exc}", markup=False, highlight=False, soft_wrap=True)
             sys.exit(1)

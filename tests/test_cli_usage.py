@@ -1,0 +1,86 @@
+"""Usage errors and the global options, through the installed console script.
+
+The expected behaviour is click's documented standalone-mode contract (typer runs on it):
+a usage error prints ``Usage: ...`` and ``Try '... --help' for help.`` and exits with status
+2 (click documentation, "Exception Handling": UsageError exit code 2). The tool's own
+refusals exit with status 1 and one ``error:`` line (this project's README).
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+
+def console_script() -> str:
+    """The ``inventory`` script installed beside this interpreter (pip install -e .)."""
+    here = Path(sys.executable).parent / "inventory"
+    found = str(here) if here.exists() else shutil.which("inventory")
+    if not found:
+        pytest.fail("the `inventory` console script is not installed (pip install -e '.[test]')")
+    return found
+
+
+def run_script(*args: str, cwd: Path) -> subprocess.CompletedProcess[str]:
+    env = {k: v for k, v in os.environ.items() if k != "INVENTORY_DB"}
+    env["COLUMNS"] = "200"
+    return subprocess.run([console_script(), *args], cwd=cwd, env=env, capture_output=True,
+                          text=True, timeout=120)
+
+
+@pytest.mark.parametrize(
+    ("args", "usage", "message"),
+    [
+        (["stok"], "Usage: inventory", "No such command 'stok'"),
+        (["stock", "receive"], "Usage: inventory stock receive", "Missing argument"),
+        (["stock", "on-hand", "--bogus"], "Usage: inventory stock on-hand", "No such option: --bogus"),
+        (["stock", "receive", "OR-214"], "Usage: inventory stock receive", "Missing argument"),
+        (["job", "list", "--limit", "many"], "Usage: inventory job list", "Invalid value for '--limit'"),
+    ],
+)
+def test_usage_error_prints_usage_and_exits_2(tmp_path, args, usage, message):
+    proc = run_script(*args, cwd=tmp_path)
+    assert proc.returncode == 2, proc.stderr
+    assert usage in proc.stderr
+    assert "--help' for help" in proc.stderr
+    assert message in proc.stderr
+    assert "Traceback" not in proc.stderr + proc.stdout
+    assert "click" not in proc.stderr
+
+
+def test_unknown_command_gets_a_did_you_mean_hint(tmp_path):
+    proc = run_script("stok", cwd=tmp_path)
+    assert "Did you mean 'stock'?" in proc.stderr
+
+
+def test_tool_refusal_is_one_line_and_exit_1(tmp_path):
+    proc = run_script("stock", "on-hand", cwd=tmp_path)  # no inventory.db here
+    assert proc.returncode == 1
+    lines = [ln for ln in proc.stderr.splitlines() if ln.strip()]
+    assert len(lines) == 1 and lines[0].startswith("error: no database file")
+    assert "Traceback" not in proc.stderr
+
+
+def test_db_goes_before_or_after_the_sub_command(tmp_path):
+    db = tmp_path / "shop.db"
+    assert run_script("--db", str(db), "init", cwd=tmp_path).returncode == 0
+    before = run_script("--db", str(db), "stock", "on-hand", "--json", cwd=tmp_path)
+    after = run_script("stock", "on-hand", "--json", "--db", str(db), cwd=tmp_path)
+    assert before.returncode == after.returncode == 0, before.stderr + after.stderr
+    assert before.stdout == after.stdout
+    # the option really chose the file: without it the default inventory.db is missing
+    assert run_script("stock", "on-hand", cwd=tmp_path).returncode == 1
+
+
+def test_db_after_the_sub_command_wins_over_the_environment(tmp_path):
+    db = tmp_path / "shop.db"
+    assert run_script("init", "--db", str(db), cwd=tmp_path).returncode == 0
+    env = {**os.environ, "INVENTORY_DB": str(tmp_path / "missing.db"), "COLUMNS": "200"}
+    proc = subprocess.run([console_script(), "stock", "on-hand", "--db", str(db)], cwd=tmp_path,
+                          env=env, capture_output=True, text=True, timeout=120)
+    assert proc.returncode == 0, proc.stderr
