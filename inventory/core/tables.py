@@ -322,3 +322,18 @@ class MonthClose(SQLModel, table=True):
     user: str | None = Field(default=None, max_length=64)
     reason: str = Field(default="", max_length=200)
     totals: str = Field(default="", max_length=4000)
+
+
+class RecordedPlan(SQLModel, table=True):
+    """A replenishment plan recorded as purchase orders, by its identity (a hash of the plan
+    date and its order lines, :func:`inventory.ordering.model.plan_identity`). The unique
+    identity makes recording the same plan again, from its JSON or its workbook or from
+    several processes at once, create its orders once."""
+
+    __tablename__ = "recorded_plan"
+    __table_args__ = (UniqueConstraint("identity", name="uq_recorded_plan"),)
+    id: int | None = Field(default=None, primary_key=True)
+    identity: str = Field(max_length=64)
+    filename: str = Field(default="", max_length=255)
+    recorded_at: datetime
+    orders: str = Field(default="", max_length=2000)  # the order references it created

@@ -271,6 +271,12 @@ class Plan:
     def total(self) -> Decimal:
         return sum((o.total for o in self.orders), Decimal("0"))
 
+    @property
+    def identity(self) -> str:
+        """See :func:`plan_identity`; written into the plan's JSON and workbook."""
+        return plan_identity(self.as_of, [(o.supplier, ln.part, ln.qty, ln.unit_cost)
+                                          for o in self.orders for ln in o.lines])
+
 
 @dataclass(frozen=True, slots=True)
 class DraftLine:
@@ -290,3 +296,29 @@ class DraftOrder:
     expected: date | None
     lines: tuple[DraftLine, ...]
     source: str = ""
+    plan_date: date | None = None  # the plan's date, part of its identity
+
+
+def plan_identity(plan_date: date | None,
+                  lines: Sequence[tuple[str, str, int, Decimal | str | float | None]]) -> str:
+    """A plan's identity: SHA-256 of its date and its order lines (supplier, part, quantity,
+    unit cost to 4 places), order-independent. The same plan read back from its JSON or its
+    workbook has the same identity; a workbook whose quantities or costs were edited has
+    another. Lines of quantity 0 are not orders and do not count."""
+    import hashlib
+
+    canon = []
+    for supplier, part, qty, cost in lines:
+        if int(qty) <= 0:
+            continue
+        c = "" if cost in (None, "") else str(Decimal(str(cost)).quantize(Decimal("0.0001")))
+        canon.append(f"{str(supplier).strip()}\t{str(part).strip()}\t{int(qty)}\t{c}")
+    text = (plan_date.isoformat() if plan_date else "") + "\n" + "\n".join(sorted(canon))
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def drafts_identity(drafts: Sequence[DraftOrder]) -> str:
+    """:func:`plan_identity` of the orders read back from a plan file."""
+    day = next((d.plan_date for d in drafts if d.plan_date is not None), None)
+    return plan_identity(day, [(d.supplier, ln.part, ln.qty, ln.unit_cost)
+                               for d in drafts for ln in d.lines])

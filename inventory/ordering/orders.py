@@ -4,12 +4,18 @@
   item for that pair, whole positive quantities, each part once per order) and reports
   every problem at once; then writes all orders in the caller's transaction. Each order
   gets the next reference ``PO-<year>-<nnnn>`` (after any reference of that year already
-  used by an order or a booked movement). A plan file is recorded once: its fingerprint is
-  kept as an import batch of kind ``plan``, and recording it again is refused.
-- :func:`receive_against_order` books a delivery through the ledger with the order's
+  used by an order or a booked movement; chosen under a lock, so concurrent recordings
+  never take the same reference). A plan is recorded once: its identity (a hash of its date
+  and lines, :func:`inventory.ordering.model.drafts_identity`) is kept unique in
+  ``recorded_plan``, written before its orders, so recording it again from its JSON or its
+  workbook, or from several processes at once, is refused (an edited workbook whose lines
+  changed is a new plan). The file's fingerprint is also kept as an import batch.
+- :func:`receive_against_order` locks the order and its line (so concurrent deliveries
+  against one line queue up and the line's received quantity always equals the sum of the
+  receipts booked against it), books the delivery through the ledger with the order's
   reference, supplier and unit cost, adds it to the line's received quantity, closes the
-  order when every line is complete, and refuses a delivery that would take a line beyond
-  its quantity plus the over-delivery tolerance.
+  order when every line is complete (exactly one receipt reports the closing), and refuses
+  a delivery that would take a line beyond its quantity plus the over-delivery tolerance.
 """
 
 from __future__ import annotations
@@ -23,7 +29,9 @@ from datetime import UTC, date, datetime, timedelta
 from decimal import Decimal
 from pathlib import Path
 
-from sqlalchemy import func
+from sqlalchemy import func, text, update
+from sqlalchemy.dialects.postgresql import insert as pg_insert
+from sqlalchemy.dialects.sqlite import insert as sqlite_insert
 from sqlmodel import Session, select
 
 from inventory.core import lookup
@@ -34,10 +42,11 @@ from inventory.core.tables import (
     Part,
     PurchaseOrder,
     PurchaseOrderLine,
+    RecordedPlan,
     Supplier,
     SupplierItem,
 )
-from inventory.ordering.model import DraftOrder
+from inventory.ordering.model import DraftOrder, drafts_identity
 from inventory.stock import ledger
 
 #: Over-delivery accepted against an order line, as a fraction of its quantity (5 %, common
@@ -88,6 +97,12 @@ def create_orders(session: Session, drafts: Sequence[DraftOrder], *, created: da
     """Record ``drafts`` as open purchase orders (see the module docstring)."""
     problems: list[Problem] = []
     fp = None
+    if not drafts:
+        raise InventoryError("the plan has no order lines to record",
+                             hint="nothing to order, or every quantity is 0")
+    plan_row = None
+    if source is not None or any(d.plan_date is not None for d in drafts):
+        plan_row = _claim_plan(session, drafts, source)
     if source is not None:
         fp = fingerprint(source)
         done = session.exec(select(ImportBatch).where(ImportBatch.kind == "plan",
@@ -97,9 +112,6 @@ def create_orders(session: Session, drafts: Sequence[DraftOrder], *, created: da
                 f"{Path(source).name} was already recorded as purchase orders on "
                 f"{done.applied_at:%Y-%m-%d %H:%M}", kind="conflict",
                 hint="see `inventory order list`; make a new plan to order again")
-    if not drafts:
-        raise InventoryError("the plan has no order lines to record",
-                             hint="nothing to order, or every quantity is 0")
     resolved = []
     for d in drafts:
         try:
@@ -142,6 +154,7 @@ def create_orders(session: Session, drafts: Sequence[DraftOrder], *, created: da
     if problems:
         raise InventoryError(problems)
     out = []
+    _lock(session, ORDER_REF_LOCK, created.year)
     for d, sup, lines in resolved:
         ref = next_ref(session, created.year)
         expected = d.expected or (d.order_by or created) + timedelta(days=sup.lead_time_days)
@@ -160,7 +173,49 @@ def create_orders(session: Session, drafts: Sequence[DraftOrder], *, created: da
     if fp is not None:
         session.add(ImportBatch(kind="plan", fingerprint=fp, filename=Path(source).name[:255],
                                 rows=sum(o.lines for o in out), applied_at=datetime.now(UTC)))
+    if plan_row is not None:
+        refs = ", ".join(o.ref for o in out)
+        session.execute(update(RecordedPlan).where(RecordedPlan.id == plan_row)
+                        .values(orders=refs[:2000]))
     return out
+
+
+#: First key of the PostgreSQL advisory lock held while choosing order references (the
+#: second is the year).
+ORDER_REF_LOCK = 72_012
+
+
+def _lock(session: Session, key: int, sub: int) -> None:
+    """A transaction-level lock on PostgreSQL (SQLite's write transactions already hold the
+    whole database)."""
+    if session.get_bind().dialect.name == "postgresql":
+        session.execute(text("SELECT pg_advisory_xact_lock(:k, :s)"), {"k": key, "s": sub})
+
+
+def _claim_plan(session: Session, drafts: Sequence[DraftOrder],
+                source: str | Path | None) -> int:
+    """Insert the plan's identity before any of its orders, or refuse: the unique identity
+    makes a second recording, concurrent or later, in any form, wait for the first and fail
+    here with nothing written."""
+    identity = drafts_identity(drafts)
+    name = Path(source).name[:255] if source is not None else ""
+    dialect = session.get_bind().dialect.name
+    ins = pg_insert if dialect == "postgresql" else sqlite_insert
+    new_id = session.execute(
+        ins(RecordedPlan).values(identity=identity, filename=name, recorded_at=datetime.now(UTC),
+                                 orders="")
+        .on_conflict_do_nothing(index_elements=["identity"]).returning(RecordedPlan.id)
+    ).scalar_one_or_none()
+    if new_id is not None:
+        return new_id
+    done = session.exec(select(RecordedPlan).where(RecordedPlan.identity == identity)).one()
+    what = name or "this plan"
+    orders = f" ({done.orders})" if done.orders else ""
+    came = f" from {done.filename}" if done.filename and done.filename != name else ""
+    raise InventoryError(
+        f"{what} was already recorded as purchase orders{orders}{came} on "
+        f"{done.recorded_at:%Y-%m-%d %H:%M}; plan identity {identity[:12]}", kind="conflict",
+        hint="see `inventory order list`; change a quantity or make a new plan to order again")
 
 
 def _with(exc: InventoryError, where: str) -> Problem:
@@ -209,15 +264,20 @@ def receive_against_order(
     ts: datetime | None = None, user: str | None = None,
 ) -> Receipt:
     """Book a delivery of ``qty`` against order ``ref`` (see the module docstring)."""
-    if tolerance < 0:
-        raise InventoryError(f"tolerance must be 0 or more, got {tolerance}")
-    po = find_order(session, ref)
+    if not (0 <= tolerance < 10):  # also refuses nan
+        raise InventoryError(f"tolerance must be a fraction from 0 to 10, got {tolerance}")
+    found = find_order(session, ref)
     part = lookup.part(session, part_code)
+    # Lock the order, then its line (the same order everywhere), and read their current
+    # values: concurrent receipts against one order queue here.
+    po = session.exec(select(PurchaseOrder).where(PurchaseOrder.id == found.id)
+                      .with_for_update().execution_options(populate_existing=True)).one()
     if po.status != "open":
         raise InventoryError(f"{po.ref} is {po.status}", kind="conflict",
                              hint="receive without --order, or against an open order")
     line = session.exec(select(PurchaseOrderLine).where(
-        PurchaseOrderLine.order_id == po.id, PurchaseOrderLine.part_id == part.id)).first()
+        PurchaseOrderLine.order_id == po.id, PurchaseOrderLine.part_id == part.id)
+        .with_for_update().execution_options(populate_existing=True)).first()
     if line is None:
         codes = list(session.exec(select(Part.code).join(
             PurchaseOrderLine, PurchaseOrderLine.part_id == Part.id).where(
@@ -238,17 +298,21 @@ def receive_against_order(
                         unit_cost if unit_cost is not None else line.unit_cost, lot=lot,
                         cured=cured, location=location, ts=ts, reference=po.ref,
                         supplier=sup.code if sup else None, user=user)
-    line.received_qty += qty
-    session.add(line)
-    session.flush()
+    pol = PurchaseOrderLine.__table__.c
+    received = session.execute(
+        update(PurchaseOrderLine).where(pol.id == line.id)
+        .values(received_qty=pol.received_qty + qty).returning(pol.received_qty)).scalar_one()
     left = session.exec(select(func.count()).select_from(PurchaseOrderLine).where(
         PurchaseOrderLine.order_id == po.id,
         PurchaseOrderLine.received_qty < PurchaseOrderLine.qty)).one()
+    status = po.status
     if left == 0:
-        po.status = "closed"
-        session.add(po)
-        session.flush()
-    return Receipt(mv, po.ref, part.code, line.qty, line.received_qty, po.status)
+        closed = session.execute(
+            update(PurchaseOrder).where(PurchaseOrder.id == po.id, PurchaseOrder.status == "open")
+            .values(status="closed"))
+        if closed.rowcount == 1:
+            status = "closed"
+    return Receipt(mv, po.ref, part.code, line.qty, received, status)
 
 
 # -- listing --------------------------------------------------------------------------------------

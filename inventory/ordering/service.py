@@ -299,6 +299,7 @@ def plan_to_dict(plan: Plan) -> dict[str, Any]:
     not be covered and the kit decisions."""
     return {
         "date": plan.as_of.isoformat(),
+        "identity": plan.identity,
         "season_start": plan.season_start.isoformat() if plan.season_start else None,
         "orders": [
             {

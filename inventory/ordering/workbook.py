@@ -131,6 +131,7 @@ def _summary(wb: Workbook, plan: Plan) -> None:
         ("Budget", plan.budget_limit if plan.budget_limit is not None else "(none)"),
         ("Spent", plan.budget_spent),
         ("Expected fill without the budget", plan.fill_before_budget),
+        ("Plan identity", plan.identity),
     ]
     for i, (label, value) in enumerate(facts, start=3):
         _text(ws, i, 1, label).font = LABEL_FONT
@@ -299,12 +300,14 @@ def read_plan_workbook(path: str | Path) -> list[DraftOrder]:
         try:
             order_by = _as_date(info.get("Order by"))
             expected = _as_date(info.get("Expected delivery"))
+            plan_date = _as_date(info.get("Plan date"))
         except ValueError:
-            problems.append(Problem("bad order-by or delivery date", source=Source(p.name, name)))
+            problems.append(Problem("bad plan, order-by or delivery date",
+                                    source=Source(p.name, name)))
             continue
         if lines:
             orders.append(DraftOrder(supplier, order_by, expected, tuple(lines),
-                                     f"{p.name}:{name}"))
+                                     f"{p.name}:{name}", plan_date=plan_date))
     wb.close()
     if problems:
         raise InventoryError(problems)
@@ -320,6 +323,11 @@ def read_plan_json(data: dict[str, Any], name: str = "plan.json") -> list[DraftO
         raise InventoryError(f"{name}: not a plan (no \"orders\" list)",
                              hint="write one with `inventory plan --json > plan.json`")
     out, problems = [], []
+    try:
+        plan_date = _as_date(data.get("date"))
+    except (ValueError, TypeError):
+        raise InventoryError(f"{name}: bad plan date {data.get('date')!r}: expected a date "
+                             "like 2026-12-02") from None
     for i, o in enumerate(data["orders"]):
         where = f"{name}: orders[{i}]"
         if not isinstance(o, dict) or not o.get("supplier") or not isinstance(o.get("lines"),
@@ -349,7 +357,8 @@ def read_plan_json(data: dict[str, Any], name: str = "plan.json") -> list[DraftO
             problems.append(Problem(f"{where}: bad order_by or expected_delivery date"))
             continue
         if lines:
-            out.append(DraftOrder(str(o["supplier"]), order_by, expected, tuple(lines), where))
+            out.append(DraftOrder(str(o["supplier"]), order_by, expected, tuple(lines), where,
+                                  plan_date=plan_date))
     if problems:
         raise InventoryError(problems)
     return out
