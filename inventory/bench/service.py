@@ -170,15 +170,16 @@ def lot_past_storage(cured: str | None, material: str | None, on: date, *,
 
 
 def stock_by_part(session: Session, specs: dict[str, PartSpec], *,
-                  on: date) -> dict[str, StockInfo]:
-    """On hand (from the ledger), locations and units past storage for every part."""
-    extended = {
-        (p, lot): until for p, lot, until in session.exec(
-            select(Part.code, Lot.code, Lot.extended_until).join(Part, Part.id == Lot.part_id)
-            .where(Lot.extended_until.is_not(None)))
-    }
+                  on: date, part: str | None = None) -> dict[str, StockInfo]:
+    """On hand (from the ledger), locations and units past storage for every part (or for
+    the one ``part``)."""
+    ext_q = (select(Part.code, Lot.code, Lot.extended_until).join(Part, Part.id == Lot.part_id)
+             .where(Lot.extended_until.is_not(None)))
+    if part is not None:
+        ext_q = ext_q.where(Part.code == part)
+    extended = {(p, lot): until for p, lot, until in session.exec(ext_q)}
     acc: dict[str, dict] = {}
-    for line in ledger.on_hand(session, by_lot=True):
+    for line in ledger.on_hand(session, by_lot=True, part=part):
         if line.on_hand <= 0:
             continue
         a = acc.setdefault(line.part, {"n": 0, "loc": {}, "past": 0, "lots": []})
@@ -397,3 +398,94 @@ def fit_everywhere(part: PartSpec, seats: Sequence[SeatSpec], *, rules: FitRules
         out = [r for r in out if str(r.verdict) != "fail"]
     order = {"pass": 0, "marginal": 1, "fail": 2}
     return sorted(out, key=lambda r: (order[str(r.verdict)], r.fork, r.seat))
+
+
+# ------------------------------------------------------------ kept in memory (web app)
+
+def match_request(session: Session, *, kind: str | None = None, id_: str | None = None,
+                  od: str | None = None, height: str | None = None, cs: str | None = None,
+                  tol: str | None = None, material: str | None = None,
+                  hardness: float | None = None, hardness_tol: float | None = None,
+                  fork: str | None = None, seat: str | None = None, limit: int | None = None,
+                  standard: bool = True, unit: str = "mm") -> MatchRequest:
+    """The :class:`MatchRequest` for typed readings, parsed exactly as ``inventory match``
+    parses its options (errors name the option, e.g. ``--cs: ...``)."""
+    if limit is not None and limit < 1:
+        raise InventoryError(f"--limit must be 1 or more, got {limit}")
+    seat_spec = find_seat(session, fork, seat)
+    wanted = parse_kind(kind) or (PartKind(seat_spec.part_kind) if seat_spec else None)
+    query = MatchQuery(
+        id_mm=parse_dim(id_, "id", wanted, unit=unit),
+        od_mm=parse_dim(od, "od", wanted, unit=unit),
+        height_mm=parse_dim(height, "height", wanted, unit=unit),
+        cs_mm=parse_dim(cs, "cs", wanted, unit=unit),
+        kind=wanted, material=parse_material(material))
+    rules = hardness_rules(FitRules(), hardness_tol)
+    return MatchRequest(query, parse_tolerance(tol, unit=unit), limit, seat_spec,
+                        check_hardness(hardness), rules, standard=standard)
+
+
+class _StockOnDemand(dict):
+    """Stock per part code, read from the ledger the first time a code is asked for (a
+    search shows a handful of candidates; summing the whole ledger per search is waste)."""
+
+    def __init__(self, session: Session, specs: dict[str, PartSpec], on: date) -> None:
+        super().__init__()
+        self._session, self._specs, self._on = session, specs, on
+
+    def get(self, code, default=None):  # noqa: D401 - dict API
+        if code not in self:
+            spec = self._specs.get(code)
+            self[code] = (stock_by_part(self._session, {code: spec}, on=self._on, part=code)
+                          .get(code, StockInfo()) if spec else StockInfo())
+        return dict.get(self, code, default)
+
+
+class ShopCache:
+    """The shop's matchable parts as arrays, kept in memory between requests and read again
+    when the catalog changes (its part count, highest id or last import differ) or after
+    ``max_age`` seconds; stock is read per request for the candidates shown."""
+
+    def __init__(self, max_age: float = 300.0) -> None:
+        import threading
+
+        self.max_age = max_age
+        self._lock = threading.Lock()
+        self._key: tuple | None = None
+        self._when = 0.0
+        self._parts: tuple[PartSpec, ...] = ()
+        self._arrays: PartArrays | None = None
+        self._by_code: dict[str, PartSpec] = {}
+        self.loads = 0
+
+    @staticmethod
+    def _catalog_key(session: Session) -> tuple:
+        from sqlalchemy import func
+
+        from inventory.core.tables import ImportBatch
+
+        n, top = session.exec(select(func.count(Part.id), func.max(Part.id))).one()
+        batch = session.exec(select(func.max(ImportBatch.id))).one()
+        return (n, top, batch)
+
+    def invalidate(self) -> None:
+        with self._lock:
+            self._key = None
+
+    def shop(self, session: Session, *, on: date | None = None) -> Shop:
+        import time
+
+        on = on or date.today()
+        key = self._catalog_key(session)
+        with self._lock:
+            if (self._arrays is None or key != self._key
+                    or time.monotonic() - self._when > self.max_age):
+                rows = session.exec(select(Part).order_by(Part.code))
+                specs = [part_spec(p) for p in rows if PartKind(p.kind) not in NOT_BENCH_KINDS]
+                self._parts = tuple(specs)
+                self._arrays = PartArrays.from_specs(specs)
+                self._by_code = {p.code: p for p in specs}
+                self._key, self._when = key, time.monotonic()
+                self.loads += 1
+            parts, arrays, by_code = self._parts, self._arrays, self._by_code
+        return Shop(parts, arrays, _StockOnDemand(session, by_code, on), on)

@@ -386,3 +386,42 @@ def reorder_source(**plan_options):
         }
 
     return source
+
+
+# -- for the faces ---------------------------------------------------------------------------------
+
+
+def receive_order(session: Session, ref: str, part: str, qty: int, *,
+                  unit_cost: Decimal | None = None, cured: str | None = None,
+                  location: str = "MAIN") -> str:
+    """Book a delivery against open purchase order ``ref``; returns its one-line summary."""
+    from inventory.ordering.orders import receive_against_order
+
+    return receive_against_order(session, ref, part, qty, unit_cost=unit_cost, cured=cured,
+                                 location=location).summary
+
+
+def open_orders(session: Session) -> list:
+    from inventory.ordering.orders import list_orders
+
+    return list_orders(session, status="open")
+
+
+def record_orders(session: Session, lines: Sequence[tuple[str, str, int, Decimal | None, str]],
+                  *, created: date, dates: Mapping[str, tuple[date | None, date | None]]
+                  | None = None) -> list:
+    """Record purchase orders from plan lines ``(supplier, part, qty, unit_cost, reason)``
+    as reviewed in a page (quantities edited; lines at 0 dropped); ``dates`` gives each
+    supplier's order-by and expected dates. One order per supplier."""
+    from inventory.ordering.model import DraftLine, DraftOrder
+    from inventory.ordering.orders import create_orders
+
+    by_supplier: dict[str, list[DraftLine]] = defaultdict(list)
+    for supplier, part, qty, cost, reason in lines:
+        if qty < 0:
+            raise InventoryError(f"quantity of {part} must be 0 or more, got {qty}")
+        if qty:
+            by_supplier[supplier].append(DraftLine(part, qty, cost, reason))
+    drafts = [DraftOrder(sup, *(dates or {}).get(sup, (None, None)), tuple(ls),
+                         source=f"plan page, {sup}") for sup, ls in by_supplier.items()]
+    return create_orders(session, drafts, created=created)

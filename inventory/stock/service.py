@@ -1,0 +1,58 @@
+"""Stock use cases for the faces (command line, web): book and read stock through the
+ledger, each call in the caller's transaction."""
+
+from __future__ import annotations
+
+from datetime import datetime
+from decimal import Decimal
+
+from sqlmodel import Session, select
+
+from inventory.core.tables import Location
+from inventory.stock import ledger
+from inventory.stock.ledger import DEFAULT_LOCATION, StockLine
+
+__all__ = ["DEFAULT_LOCATION", "StockLine", "adjust", "count", "issue", "locations", "move",
+           "on_hand", "receive"]
+
+
+def on_hand(session: Session, *, part: str | None = None, location: str | None = None,
+            by_lot: bool = False, as_of: datetime | None = None) -> list[StockLine]:
+    return ledger.on_hand(session, part=part, location=location, by_lot=by_lot, as_of=as_of)
+
+
+def locations(session: Session) -> list[str]:
+    return list(session.exec(select(Location.code).order_by(Location.code)))
+
+
+def issue(session: Session, part: str, qty: int, *, location: str | None = None,
+          reference: str | None = None) -> int:
+    """Take ``qty`` out (oldest cure first); returns the units taken."""
+    return -sum(m.qty for m in ledger.issue(session, part, qty, location=location,
+                                            reference=reference))
+
+
+def receive(session: Session, part: str, qty: int, *, unit_cost: Decimal | None = None,
+            cured: str | None = None, location: str = DEFAULT_LOCATION) -> str:
+    """Book a delivery outside any purchase order; returns a one-line summary (against an
+    order: :func:`inventory.ordering.service.receive_order`)."""
+    ledger.receive(session, part, qty, unit_cost, cured=cured, location=location)
+    return f"received {qty} x {part} into {location}"
+
+
+def adjust(session: Session, part: str, qty: int, *, reason: str,
+           location: str = DEFAULT_LOCATION) -> int:
+    return sum(m.qty for m in ledger.adjust(session, part, qty, reason=reason,
+                                            location=location))
+
+
+def count(session: Session, part: str, counted: int, *,
+          location: str = DEFAULT_LOCATION) -> int:
+    """Book a shelf count; returns the variance booked (0 when the count agrees)."""
+    return sum(m.qty for m in ledger.count(session, part, counted, location=location))
+
+
+def move(session: Session, part: str, qty: int, *, from_location: str,
+         to_location: str) -> int:
+    ledger.move(session, part, qty, from_location=from_location, to_location=to_location)
+    return qty

@@ -1,0 +1,1 @@
+"""The shop's web app: a face over the feature services, like the command line."""
