@@ -162,3 +162,85 @@ def test_rolling_backtest_on_carparts() -> None:
 def test_backtest_rejects_too_short_history() -> None:
     with pytest.raises(ValueError, match="need more than"):
         bt.run_backtest(np.ones((3, 7)), horizon=6)
+
+
+# -- calibrated fill (issue 14 item 1) -------------------------------------------------------
+
+
+def test_calibration_inverts_a_known_curve() -> None:
+    from inventory.ordering.calibration import curve
+
+    # achieved = asked ** 2 on a grid: to achieve p the policy must be asked sqrt(p)
+    # (the inverse of a monotone function; exact at grid points, close between them)
+    grid = np.linspace(0.80, 0.999, 60)
+    cal = curve(grid, grid**2)
+    for p in (0.70, 0.81, 0.9, 0.95):
+        assert cal.ask(p) == pytest.approx(np.sqrt(p), abs=2e-3)
+    # a dip in the measured curve (simulation noise) never makes the map decreasing
+    noisy = curve([0.8, 0.9, 0.95], [0.85, 0.84, 0.93])
+    assert noisy.achieved == (0.85, 0.85, 0.93)
+    assert noisy.ask(0.9) <= noisy.ask(0.92)
+
+
+def test_calibration_repairs_a_too_thin_model() -> None:
+    """Demand is negative binomial with a variance-to-mean ratio of 2 (drawn with numpy's
+    sampler, the oracle), the model believes Poisson: its levels fall short of the asked
+    fill. Learned on training months only, the calibration asks for more and the fill on
+    fresh months lands near the promise."""
+    from inventory.forecast.distributions import poisson
+    from inventory.ordering.calibration import learn_fill_calibration
+    from inventory.ordering.simulate import policy_levels
+
+    rng = np.random.default_rng(7)
+    n, mean, vmr = 3000, 0.8, 2.0
+    r = mean / (vmr - 1.0)  # NB with mean m and variance m * vmr: r = m / (vmr - 1)
+    y = rng.negative_binomial(r, r / (r + mean), size=(n, 30)).astype(float)
+    train, test = y[:, :24], y[:, 24:]
+
+    def fit(history: np.ndarray, end: int):
+        return poisson(history.mean(axis=1))
+
+    cal = learn_fill_calibration(train, fit, horizon=6, lead_time=1, review_period=1,
+                                 allocation="uniform")
+    assert cal.origins == (18,)
+    dist = fit(train, 24)
+
+    def achieved(ask: float) -> float:
+        lv = policy_levels(dist, ask, allocation="uniform", lead_time=1, review_period=1)
+        sim = bt.simulate_order_up_to(lv, test)
+        return float(sim.served.sum() / sim.demand.sum())
+
+    plain = achieved(0.95)
+    assert plain < 0.90  # the thin model runs short
+    assert cal.ask(0.95) > 0.95
+    assert achieved(cal.ask(0.95)) == pytest.approx(0.95, abs=0.01)
+
+
+def test_rewriting_the_scored_months_changes_no_level() -> None:
+    """No leakage: the levels and the calibrated asked rate come from the training months
+    only, so rewriting the scored months leaves them identical (and the fill changes)."""
+    t = _carparts(150)
+    y = t.values.copy()
+    a = bt.run_backtests(y, t.names, fill_rates=(0.95,), horizon=6, season_pos=t.season_pos(),
+                         allocation="uniform")[0]
+    y2 = y.copy()
+    y2[:, -6:] = np.random.default_rng(3).poisson(2.0, size=y2[:, -6:].shape)
+    b = bt.run_backtests(y2, t.names, fill_rates=(0.95,), horizon=6,
+                         season_pos=t.season_pos(), allocation="uniform")[0]
+    assert a.fill_calibration and a.fill_calibration == b.fill_calibration
+    assert a.asked_policy == b.asked_policy
+    assert a.levels is not None and b.levels is not None
+    assert np.array_equal(a.levels, b.levels)
+    assert a.fill_rate != b.fill_rate
+
+
+def test_rolling_reports_promised_vs_achieved_per_abc_class() -> None:
+    t = _carparts(80)
+    r = bt.run_rolling_backtests(t.values, t.names, fill_rates=(0.9,), origins=2,
+                                 season_pos=t.season_pos(), allocation="uniform")[0]
+    assert set(r.by_abc) <= {"A", "B", "C"} and r.by_abc
+    # the per-class units add up to the pooled fill (an independent sum of the parts)
+    served = sum(c["served"] for c in r.by_abc.values())
+    demanded = sum(c["demanded"] for c in r.by_abc.values())
+    assert served / demanded == pytest.approx(r.fill_rate, rel=1e-9)
+    assert sum(c["series"] for c in r.by_abc.values()) == 80

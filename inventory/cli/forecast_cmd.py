@@ -1,5 +1,5 @@
-"""``inventory forecast`` and ``inventory backtest``; :func:`forecast_tour` shows the demo
-shop's next season.
+"""``inventory forecast`` and ``inventory backtest``; :func:`inventory.demo.tour.forecast_tour`
+shows the demo shop's next season.
 
 Thin commands: parse, call one library function (:func:`inventory.forecast.service.
 forecast_items`, :func:`inventory.ordering.backtest.run_backtest`), render a table or ``--json``,
@@ -266,7 +266,9 @@ def render_backtest(d: dict) -> None:
                                          f"{d['review_period']} months"],
         ["asked fill rate", f"{pct(d['fill_target'])} ({d['allocation']})"],
         ["achieved pooled fill rate", pct(d["fill_rate"])],
-        ["fill rate the model expected", pct(d["expected_fill"])],
+        ["fill rate asked of the policy (calibrated in training)"
+         if d.get("fill_calibration") else "fill rate the model expected",
+         pct(d["asked_policy"] if d.get("fill_calibration") else d["expected_fill"])],
         ["series with no stockout", pct(d["no_stockout"])],
         ["average on hand per series per month", num(d["avg_on_hand"], ".2f")],
         ["RMSSE", num(d["rmsse"], ".4f")],
@@ -279,49 +281,16 @@ def render_backtest(d: dict) -> None:
         say("Classes: " + ", ".join(f"{c} {k}" for c, k in sorted(d["classes"].items()))
             + "; methods: " + ", ".join(f"{c} {m}" for c, m in
                                         sorted(d.get("class_choice", {}).items())))
+    if d.get("by_abc"):
+        print_table("Promised vs achieved fill per ABC class (units, last 12 training months)",
+                    ["class", "series", "promised", "achieved", "model expected"],
+                    [[c, int(r["series"]), pct(d["fill_target"]), pct(r["fill"]),
+                      pct(r["expected"])] for c, r in sorted(d["by_abc"].items())],
+                    right=("series", "promised", "achieved", "model expected"))
     if d.get("calibration"):
         say("Calibration (share of test windows at or below the model's quantile): "
             + ", ".join(f"{k} {100 * v:.0f} %" for k, v in d["calibration"].items()
                         if v is not None))
-
-
-# -- the demo tour -------------------------------------------------------------------------------
-
-
-def forecast_tour(url: str, reports_dir: str | Path = "reports", *,
-                  today: date | None = None) -> None:
-    """The demo shop's next season: kit forecast per month from the day after the history
-    (the demo's "today", 2026-12-02), a short table, and where the workbook and charts went."""
-    from sqlmodel import Session
-
-    from inventory.core.db import make_engine
-    from inventory.forecast.service import forecast_items
-
-    day = today or date(2026, 12, 2)
-    engine = make_engine(url)
-    with Session(engine) as s:
-        report = forecast_items(s, today=day, horizon=7, by="kit")
-        parts = forecast_items(s, today=day, horizon=7, by="part")
-    say(f"[bold]Next season's demand[/bold] from {day.isoformat()} "
-        "(kits per month, with the 10-90 % range over lead time + review)")
-    render_table(report, 8)
-    top = report.chosen(4)
-    written = write_outputs(report, top, xlsx=None, charts=None, defaults=True,
-                            reports_dir=reports_dir)
-    written += write_outputs(parts, parts.chosen(4), xlsx=None, charts=None, defaults=True,
-                             reports_dir=reports_dir)
-    peak = max(range(report.horizon), key=lambda j: sum(x.forecast[j] for x in report.series))
-    total = sum(sum(x.forecast) for x in report.series)
-    say(f"Kits over the next {report.horizon} months: {total:.0f}, peak in "
-        f"{report.forecast_periods[peak].strftime('%B %Y')}; seals (kits exploded): "
-        f"{len(parts.series)} part series")
-    for p in written:
-        if p.suffix == ".xlsx":
-            say(f"wrote {p}")
-    charts = [p for p in written if p.suffix == ".png"]
-    if charts:
-        say(f"wrote {len(charts)} charts to {charts[0].parent}")
-    say(f"Try: inventory --db {url} forecast --by part --part DW-34-45")
 
 
 def register(app: typer.Typer) -> None:

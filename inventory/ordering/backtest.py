@@ -37,10 +37,19 @@ from typing import Any, Literal
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from inventory.core.choices import DEFAULT_ALLOCATION
 from inventory.forecast import demand as dm
 from inventory.forecast import methods as fc
 from inventory.forecast.distributions import DemandDistribution
 from inventory.ordering import policy
+from inventory.ordering.calibration import NO_CALIBRATION, FillCalibration, learn_fill_calibration
+from inventory.stock.valuation import abc_classes
+from inventory.ordering.simulate import (  # noqa: F401  (re-exported: one import path)
+    Allocation,
+    Simulation,
+    policy_levels,
+    simulate_order_up_to,
+)
 
 FloatArray = NDArray[np.float64]
 
@@ -209,65 +218,6 @@ def read_demand_csv(path: str | Path, *, freq: dm.Freq = "M") -> DemandTable:
     )
 
 
-# -- simulation ---------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class Simulation:
-    """Per-series outcome of simulating an order-up-to policy over the test periods."""
-
-    demand: FloatArray  # (n,) units demanded
-    served: FloatArray  # (n,) units served from the shelf
-    on_hand: FloatArray  # (n, h) on hand at the end of each period
-    stockout: NDArray[np.bool_]  # (n,) any period with demand not served from the shelf
-
-
-def simulate_order_up_to(
-    levels: ArrayLike,
-    demand: ArrayLike,
-    *,
-    lead_time: int = 1,
-    review_period: int = 1,
-) -> Simulation:
-    """Periodic review, order-up-to ``levels`` (per series, or per series and period),
-    backorders, whole units, on hand starting at the first level with nothing on order.
-
-    Each period: receive what was ordered ``lead_time`` periods ago; on a review period
-    (every ``review_period``, starting with the first) order up to the level; serve demand
-    from the shelf; the rest is backordered.
-    """
-    d = np.asarray(demand, dtype=float)
-    n, h = d.shape
-    s = np.asarray(levels, dtype=float)
-    s = np.broadcast_to(s[:, None] if s.ndim == 1 else s, (n, h))
-    if lead_time < 0 or review_period < 1:
-        raise ValueError("lead_time must be >= 0 and review_period >= 1")
-    net = s[:, 0].copy()
-    pipeline = np.zeros((n, max(lead_time, 1)))
-    served = np.zeros(n)
-    on_hand = np.zeros((n, h))
-    stockout = np.zeros(n, dtype=bool)
-    for t in range(h):
-        if lead_time > 0:
-            net += pipeline[:, 0]
-            pipeline[:, :-1] = pipeline[:, 1:]
-            pipeline[:, -1] = 0.0
-        if t % review_period == 0:
-            position = net + pipeline.sum(axis=1) if lead_time > 0 else net
-            order = np.maximum(np.ceil(s[:, t] - position), 0.0)
-            if lead_time > 0:
-                pipeline[:, lead_time - 1] += order
-            else:
-                net += order
-        dt = d[:, t]
-        from_shelf = np.minimum(dt, np.maximum(net, 0.0))
-        served += from_shelf
-        stockout |= from_shelf < dt
-        net -= dt
-        on_hand[:, t] = np.maximum(net, 0.0)
-    return Simulation(d.sum(axis=1), served, on_hand, stockout)
-
-
 # -- the backtest ------------------------------------------------------------------------------
 
 
@@ -297,6 +247,9 @@ class BacktestResult:
     dispersion: dict[str, dict[str, float]] = field(default_factory=dict)
     levels: NDArray[np.int64] | None = None
     names: tuple[str, ...] = ()
+    asked_policy: float = float("nan")
+    fill_calibration: dict[str, Any] = field(default_factory=dict)
+    by_abc: dict[str, dict[str, float]] = field(default_factory=dict)
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready summary (no per-series arrays)."""
@@ -321,6 +274,9 @@ class BacktestResult:
             "classes": dict(self.classes),
             "seasonal": self.seasonal,
             "dispersion": {k: {c: _r(x) for c, x in v.items()} for k, v in self.dispersion.items()},
+            "asked_policy": _r(self.asked_policy),
+            "fill_calibration": dict(self.fill_calibration),
+            "by_abc": {k: {c: _r(x) for c, x in v.items()} for k, v in self.by_abc.items()},
         }
 
 
@@ -371,20 +327,46 @@ def _calibration(dist: DemandDistribution, path: FloatArray, test: FloatArray, c
     return out
 
 
+def abc_by_units(train: FloatArray, *, months: int = 12) -> list[str]:
+    """ABC class of each series by its units over the last ``months`` training periods
+    (a demand file has no prices; :func:`inventory.stock.valuation.abc_classes`, 80 / 95 %
+    cumulative shares: common practice)."""
+    units = np.nansum(train[:, -months:], axis=1)
+    return abc_classes([float(u) for u in units])
+
+
+def _by_abc(classes: Sequence[str], sim: Simulation, dist: DemandDistribution,
+            levels: NDArray[np.int64], *, lead_time: int, review_period: int
+            ) -> dict[str, dict[str, float]]:
+    """Per ABC class: series, units demanded and served, achieved fill, the model's
+    expected fill at the levels."""
+    cls = np.asarray(classes)
+    out: dict[str, dict[str, float]] = {}
+    for c in ("A", "B", "C"):
+        idx = np.flatnonzero(cls == c)
+        if idx.size == 0:
+            continue
+        demanded = float(sim.demand[idx].sum())
+        served = float(sim.served[idx].sum())
+        out[c] = {"series": float(idx.size), "demanded": demanded, "served": served,
+                  "fill": served / demanded if demanded > 0 else float("nan"),
+                  "expected": policy.expected_fill(dist.take(idx), levels[idx],
+                                                   lead_time=lead_time,
+                                                   review_period=review_period)}
+    return out
+
+
 def _evaluate(fit: _Fit, train: FloatArray, test: FloatArray, *, fill_rate: float,
-              lead_time: int, review_period: int,
-              allocation: Literal["part", "uniform", "marginal"]) -> dict[str, Any]:
-    """Levels, simulation and every reported measure for one fill target (timed)."""
+              lead_time: int, review_period: int, allocation: Allocation,
+              fill_cal: FillCalibration = NO_CALIBRATION) -> dict[str, Any]:
+    """Levels, simulation and every reported measure for one fill target (timed). With a
+    calibration the policy is asked for the rate that achieved ``fill_rate`` inside the
+    training months."""
     t0 = time.perf_counter()
     dist = fit.dist.dist
-    if allocation == "part":
-        levels = policy.order_up_to_levels(dist, fill_rate, lead_time=lead_time,
-                                           review_period=review_period)
-    elif allocation == "uniform" or allocation == "marginal":
-        levels = policy.pooled_order_up_to_levels(dist, fill_rate, method=allocation,
-                                                  lead_time=lead_time, review_period=review_period)
-    else:
-        raise ValueError("allocation must be 'part', 'uniform' or 'marginal'")
+    ask = fill_cal.ask(fill_rate)
+    levels = policy_levels(dist, ask, allocation=allocation, lead_time=lead_time,
+                           review_period=review_period)
     sim = simulate_order_up_to(levels, test, lead_time=lead_time, review_period=review_period)
     h = test.shape[1]
     path = fit.result.mean(h)
@@ -398,6 +380,9 @@ def _evaluate(fit: _Fit, train: FloatArray, test: FloatArray, *, fill_rate: floa
         "expected_fill": policy.expected_fill(dist, levels, lead_time=lead_time,
                                               review_period=review_period),
         "calibration": _calibration(dist, path, test, lead_time + review_period),
+        "ask": ask,
+        "by_abc": _by_abc(abc_by_units(train), sim, dist, levels, lead_time=lead_time,
+                          review_period=review_period),
     }
     out["seconds"] = time.perf_counter() - t0
     return out
@@ -405,7 +390,7 @@ def _evaluate(fit: _Fit, train: FloatArray, test: FloatArray, *, fill_rate: floa
 
 def _summary(fit: _Fit, ev: dict[str, Any], *, n: int, horizon: int, lead_time: int,
              review_period: int, fill_rate: float, origins: tuple[int, ...],
-             names: Sequence[str]) -> BacktestResult:
+             names: Sequence[str], fill_cal: FillCalibration) -> BacktestResult:
     sim: Simulation = ev["sim"]
     demanded = float(sim.demand.sum())
     labels = fit.result.classification.label
@@ -425,7 +410,9 @@ def _summary(fit: _Fit, ev: dict[str, Any], *, n: int, horizon: int, lead_time: 
         seasonal=fit.result.seasonal,
         dispersion={"a": dict(fit.dist.a), "b": dict(fit.dist.b),
                     "cold": {"rate": fit.dist.cold_rate, "vmr": fit.dist.cold_vmr}},
-        levels=ev["levels"], names=tuple(names),
+        levels=ev["levels"], names=tuple(names), asked_policy=float(ev["ask"]),
+        fill_calibration=fill_cal.to_dict() if fill_cal.asked else {},
+        by_abc=ev["by_abc"],
     )
 
 
@@ -438,8 +425,10 @@ def run_backtests(
     lead_time: int = 1,
     review_period: int = 1,
     season_pos: ArrayLike | None = None,
-    allocation: Literal["part", "uniform", "marginal"] = "part",
+    allocation: Literal["part", "uniform", "marginal"] = DEFAULT_ALLOCATION,
     options: fc.FitOptions | None = None,
+    calibrate: bool = True,
+    calibration_origins: int = 1,
 ) -> list[BacktestResult]:
     """The one-origin protocol for several fill targets sharing one forecast fit.
 
@@ -448,7 +437,11 @@ def run_backtests(
     the target, :func:`policy.order_up_to_levels`, the default), "uniform" (one per-part
     target for all, set so the expected POOLED fill meets the target) or "marginal" (least
     stock reaching the expected pooled target), both :func:`policy.pooled_order_up_to_levels`.
-    Each result's ``seconds`` is the fit time plus that target's levels, simulation and
+    ``calibrate``: learn the asked-to-achieved fill curve inside the training months
+    (:mod:`inventory.ordering.calibration`, ``calibration_origins`` inner origins) and ask
+    the policy for the rate that delivered each target there; ``fill_target`` stays the
+    promised rate, ``asked_policy`` is what the policy was given. Each result's ``seconds``
+    is the fit time (calibration included) plus that target's levels, simulation and
     measures.
     """
     y = np.asarray(matrix, dtype=float)
@@ -461,13 +454,25 @@ def run_backtests(
     train, test = y[:, :-horizon], np.nan_to_num(y[:, -horizon:])
     pos = None if season_pos is None else np.asarray(season_pos, dtype=np.int64)[:-horizon]
     fit = _fit(train, pos, horizon, lead_time, review_period, options)
+    fill_cal = NO_CALIBRATION
+    if calibrate:
+        t0 = time.perf_counter()
+
+        def inner(history: FloatArray, end: int) -> DemandDistribution:
+            return _fit(history, None if pos is None else pos[:end], horizon, lead_time,
+                        review_period, options).dist.dist
+
+        fill_cal = learn_fill_calibration(train, inner, horizon=horizon, lead_time=lead_time,
+                                          review_period=review_period, allocation=allocation,
+                                          origins=calibration_origins)
+        fit = _Fit(fit.result, fit.dist, fit.seconds + time.perf_counter() - t0)
     out = []
     for f in fill_rates:
         ev = _evaluate(fit, train, test, fill_rate=f, lead_time=lead_time,
-                       review_period=review_period, allocation=allocation)
+                       review_period=review_period, allocation=allocation, fill_cal=fill_cal)
         out.append(_summary(fit, ev, n=n, horizon=horizon, lead_time=lead_time,
                             review_period=review_period, fill_rate=f,
-                            origins=(t_len - horizon,), names=nm))
+                            origins=(t_len - horizon,), names=nm, fill_cal=fill_cal))
     return out
 
 
@@ -480,14 +485,15 @@ def run_backtest(
     fill_rate: float = 0.95,
     review_period: int = 1,
     season_pos: ArrayLike | None = None,
-    allocation: Literal["part", "uniform", "marginal"] = "part",
+    allocation: Literal["part", "uniform", "marginal"] = DEFAULT_ALLOCATION,
     options: fc.FitOptions | None = None,
+    calibrate: bool = True,
 ) -> BacktestResult:
     """The headline one-origin protocol (see the module docstring) for one fill target."""
     return run_backtests(
         matrix, names, fill_rates=(fill_rate,), horizon=horizon, lead_time=lead_time,
         review_period=review_period, season_pos=season_pos, allocation=allocation,
-        options=options,
+        options=options, calibrate=calibrate,
     )[0]
 
 
@@ -502,12 +508,38 @@ def run_rolling_backtest(
     fill_rate: float = 0.95,
     review_period: int = 1,
     season_pos: ArrayLike | None = None,
-    allocation: Literal["part", "uniform", "marginal"] = "part",
+    allocation: Literal["part", "uniform", "marginal"] = DEFAULT_ALLOCATION,
     options: fc.FitOptions | None = None,
+    calibrate: bool = True,
 ) -> BacktestResult:
+    """Rolling-origin mode for one fill target (:func:`run_rolling_backtests`)."""
+    return run_rolling_backtests(
+        matrix, names, fill_rates=(fill_rate,), origins=origins, step=step, horizon=horizon,
+        lead_time=lead_time, review_period=review_period, season_pos=season_pos,
+        allocation=allocation, options=options, calibrate=calibrate,
+    )[0]
+
+
+def run_rolling_backtests(
+    matrix: ArrayLike,
+    names: Sequence[str] | None = None,
+    *,
+    fill_rates: Sequence[float] = (0.95,),
+    origins: int = 3,
+    step: int = 1,
+    horizon: int = 6,
+    lead_time: int = 1,
+    review_period: int = 1,
+    season_pos: ArrayLike | None = None,
+    allocation: Literal["part", "uniform", "marginal"] = DEFAULT_ALLOCATION,
+    options: fc.FitOptions | None = None,
+    calibrate: bool = True,
+) -> list[BacktestResult]:
     """Rolling-origin mode: the one-origin protocol at ``origins`` origins ``step`` periods
-    apart (the last one ``horizon`` periods before the end), each fitted on the data before
-    it; fill and on-hand pooled over all origins, accuracy averaged, seconds summed."""
+    apart (the last one ``horizon`` periods before the end), each fitted (and calibrated)
+    on the data before it; fill, on-hand and the per-ABC-class fill pooled over all
+    origins, accuracy averaged, seconds summed. One result per fill target, the fits
+    shared."""
     y = np.asarray(matrix, dtype=float)
     n, t_len = y.shape
     nm = tuple(names) if names is not None else tuple(str(i) for i in range(n))
@@ -516,39 +548,52 @@ def run_rolling_backtest(
     if not ends:
         raise ValueError("series too short for a rolling backtest with these settings")
     pos_all = None if season_pos is None else np.asarray(season_pos, dtype=np.int64)
-    served = demanded = on_hand = 0.0
-    no_stock: list[float] = []
-    acc: dict[str, list[float]] = {k: [] for k in ("rmsse", "mase", "bias", "total")}
-    exp_fill: list[float] = []
-    seconds = 0.0
-    last: BacktestResult | None = None
-    for e in ends:
-        r = run_backtest(y[:, :e], nm, horizon=horizon, lead_time=lead_time,
-                         fill_rate=fill_rate, review_period=review_period,
-                         season_pos=None if pos_all is None else pos_all[:e],
-                         allocation=allocation, options=options)
-        served += r.fill_rate * _units(y[:, e - horizon:e])
-        demanded += _units(y[:, e - horizon:e])
-        on_hand += r.avg_on_hand
-        no_stock.append(r.no_stockout)
-        for k, v in (("rmsse", r.rmsse), ("mase", r.mase), ("bias", r.bias),
-                     ("total", r.total_error)):
-            acc[k].append(v)
-        exp_fill.append(r.expected_fill)
-        seconds += r.seconds
-        last = r
-    assert last is not None
+    per_origin = [
+        run_backtests(y[:, :e], nm, fill_rates=fill_rates, horizon=horizon,
+                      lead_time=lead_time, review_period=review_period,
+                      season_pos=None if pos_all is None else pos_all[:e],
+                      allocation=allocation, options=options, calibrate=calibrate)
+        for e in ends
+    ]
+    return [_pool([rs[i] for rs in per_origin], [y[:, e - horizon:e] for e in ends], nm,
+                  tuple(e - horizon for e in ends)) for i in range(len(fill_rates))]
+
+
+def _pool(runs: Sequence[BacktestResult], tests: Sequence[FloatArray], names: tuple[str, ...],
+          origins: tuple[int, ...]) -> BacktestResult:
+    """One result from the same fill target at several origins."""
+    demanded = sum(_units(t) for t in tests)
+    served = sum(r.fill_rate * _units(t) for r, t in zip(runs, tests, strict=True))
+    by_abc: dict[str, dict[str, float]] = {}
+    for r in runs:
+        for c, row in r.by_abc.items():
+            acc = by_abc.setdefault(c, {"series": 0.0, "demanded": 0.0, "served": 0.0,
+                                        "expected_sum": 0.0, "origins": 0.0})
+            acc["series"] = row["series"]  # classes of the latest origin
+            acc["demanded"] += row["demanded"]
+            acc["served"] += row["served"]
+            acc["expected_sum"] += row["expected"]
+            acc["origins"] += 1
+    for acc in by_abc.values():
+        acc["fill"] = acc["served"] / acc["demanded"] if acc["demanded"] > 0 else float("nan")
+        acc["expected"] = acc.pop("expected_sum") / acc.pop("origins")
+    last = runs[-1]
+
+    def mean(key: str) -> float:
+        return float(np.nanmean([getattr(r, key) for r in runs]))
+
     return BacktestResult(
-        series=n, horizon=horizon, lead_time=lead_time, review_period=review_period,
-        fill_target=fill_rate, rmsse=float(np.nanmean(acc["rmsse"])),
-        mase=float(np.nanmean(acc["mase"])), bias=float(np.nanmean(acc["bias"])),
-        total_error=float(np.nanmean(acc["total"])),
+        series=last.series, horizon=last.horizon, lead_time=last.lead_time,
+        review_period=last.review_period, fill_target=last.fill_target,
+        rmsse=mean("rmsse"), mase=mean("mase"), bias=mean("bias"),
+        total_error=mean("total_error"),
         fill_rate=served / demanded if demanded > 0 else 1.0,
-        expected_fill=float(np.mean(exp_fill)), no_stockout=float(np.mean(no_stock)),
-        avg_on_hand=on_hand / len(ends), seconds=seconds,
-        origins=tuple(e - horizon for e in ends), class_choice=last.class_choice,
-        classes=last.classes, seasonal=last.seasonal, dispersion=last.dispersion,
-        names=nm,
+        expected_fill=mean("expected_fill"), no_stockout=mean("no_stockout"),
+        avg_on_hand=mean("avg_on_hand"), seconds=float(sum(r.seconds for r in runs)),
+        origins=origins, class_choice=last.class_choice, classes=last.classes,
+        seasonal=last.seasonal, dispersion=last.dispersion, names=names,
+        asked_policy=mean("asked_policy"), fill_calibration=last.fill_calibration,
+        by_abc=by_abc,
     )
 
 
