@@ -22,17 +22,18 @@ def shop(tmp_path, monkeypatch, capsys):
     ("args", "line"),
     [
         (["stock", "issue", "OR-215", "1"], "error: unknown part 'OR-215' (did you mean OR-214?)"),
-        (["stock", "issue", "OR-214", "-3"], "error: quantity must be more than 0, got -3"),
+        (["stock", "issue", "OR-214", "-3"], "error: QTY: expected a quantity above 0, got -3"),
         (["stock", "receive", "OR-214", "5", "--cured", "2025Q5"],
-         "error: bad cure date '2025Q5': expected a cure quarter like 2026Q3 "
-         "(also written 3/26 or 3Q26)"),
+         "error: --cured: expected a cure quarter like 2026Q3 (also 3Q26, Q3/26, or the "
+         "month 8/26), got '2025Q5'"),
         (["stock", "issue", "OR-214", "11"],
          "error: not enough stock of OR-214: asked 11, on hand 10 (receive stock first, or "
          "record a count if the shelf holds more than the ledger)"),
         (["stock", "move", "OR-214", "1", "--from", "MAIN", "--to", "MIAN"],
          "error: unknown location 'MIAN' (did you mean MAIN?)"),
         (["stock", "adjust", "OR-214", "0", "--reason", "x"],
-         "error: adjustment must be a whole number other than 0, got 0"),
+         "error: QTY: expected a quantity other than 0 (-2 takes two out, 3 adds three), "
+         "got 0"),
     ],
 )
 def test_bad_input_gets_one_exact_line(shop, monkeypatch, capsys, args, line):
@@ -47,7 +48,7 @@ def test_bad_input_gets_one_exact_line(shop, monkeypatch, capsys, args, line):
 
 def test_on_hand_json_lists_part_location_lot(shop, monkeypatch, capsys):
     inv(monkeypatch, capsys, "--db", shop, "stock", "receive", "WP-32", "4", "--cost", "6.5",
-        "--lot", "W1", "--cured", "3/25")
+        "--lot", "W1", "--cured", "3Q25")
     inv(monkeypatch, capsys, "--db", shop, "stock", "adjust", "WP-32", "-1", "--reason", "torn")
     code, out, err = inv(monkeypatch, capsys, "--db", shop, "stock", "on-hand", "--by-lot", "--json")
     assert code == 0, err

@@ -2,13 +2,13 @@
 
 from __future__ import annotations
 
-from datetime import UTC, date, datetime, time
-from decimal import Decimal, InvalidOperation
+from datetime import datetime
+from decimal import Decimal
 
 import typer
 
+from inventory.cli import options
 from inventory.cli.common import print_json, print_table, reading, say, unit_of_work
-from inventory.core.errors import InventoryError
 from inventory.stock import ledger
 
 SIGNED = {"ignore_unknown_options": True}  # lets "-2" through as a quantity
@@ -18,26 +18,19 @@ app = typer.Typer(help="Receive, issue, adjust, count and move stock; show what 
 
 
 def when(day: str | None) -> datetime | None:
-    """Midday UTC of a given ISO date (so a booking lands in that day's month)."""
-    if not day:
-        return None
-    try:
-        d = date.fromisoformat(day)
-    except ValueError:
-        raise InventoryError(f"bad date {day!r}: expected a date like 2026-03-31") from None
-    return datetime.combine(d, time(12, 0), tzinfo=UTC)
+    """Midday UTC of a booking date (so a booking lands in that day's month): any form
+    :func:`inventory.core.parse.booking_day` reads, from 2000-01-01 to today + a day."""
+    return options.booking_ts(day, "--date")
 
 
-def _money(text: str | None) -> Decimal | None:
-    if text is None:
-        return None
-    try:
-        value = Decimal(text.replace(",", "."))
-    except InvalidOperation:
-        raise InventoryError(f"bad cost {text!r}: expected an amount like 0.35") from None
-    if not value.is_finite() or value < 0:
-        raise InventoryError(f"bad cost {text!r}: expected an amount of 0 or more")
-    return value
+def _money(text: str | None, confirmed: bool = False) -> Decimal | None:
+    """A unit cost (:func:`inventory.core.parse.unit_cost`): above the ceiling only with
+    ``--cost-ok``."""
+    return options.cost(text, "--cost", confirmed=confirmed)
+
+
+COST_OK_HELP = ("Accept a unit cost above the sanity ceiling (10,000, or "
+                "$INVENTORY_MAX_UNIT_COST).")
 
 
 def _report(movements, verb: str, part: str) -> None:
@@ -59,20 +52,27 @@ def receive(ctx: typer.Context,
                                             help="Over-delivery accepted against --order, as a "
                                                  "fraction of the line (0.05 = 5%)."),
             day: str = typer.Option(None, "--date", help="Booking date (default today)."),
+            cost_ok: bool = typer.Option(False, "--cost-ok", help=COST_OK_HELP),
             ) -> None:
     """Book a delivery into stock."""
+    qty = options.quantity(qty, "QTY")
+    unit_cost, ts = _money(cost, cost_ok), when(day)
+    lot = options.code(lot, "--lot", "lot")
+    cured = options.cure(cured, "--cured", received=ts.date() if ts else None)
+    order = options.code(order, "--order", "order")
+    tolerance = options.percent(tolerance, "--tolerance", high=1.0)
     with unit_of_work(ctx) as s:
         if order:
             from inventory.ordering.orders import receive_against_order
 
             got = receive_against_order(s, order, part, qty, tolerance=tolerance,
-                                        unit_cost=_money(cost), lot=lot, cured=cured,
-                                        location=location, ts=when(day))
+                                        unit_cost=unit_cost, lot=lot, cured=cured,
+                                        location=location, ts=ts)
             _report([got.movement], "received", part)
             say(got.summary)
             return
-        mv = ledger.receive(s, part, qty, _money(cost), lot=lot, cured=cured, location=location,
-                            ts=when(day))
+        mv = ledger.receive(s, part, qty, unit_cost, lot=lot, cured=cured, location=location,
+                            ts=ts)
         _report([mv], "received", part)
 
 
@@ -85,6 +85,7 @@ def issue(ctx: typer.Context,
           day: str = typer.Option(None, "--date", help="Booking date (default today)."),
           ) -> None:
     """Take stock out, oldest cure quarter first."""
+    qty, job = options.quantity(qty, "QTY"), options.code(job, "--job", "job")
     with unit_of_work(ctx) as s:
         _report(ledger.issue(s, part, qty, location=location, reference=job, ts=when(day)),
                 "issued", part)
@@ -98,11 +99,15 @@ def adjust(ctx: typer.Context,
            location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location", help="Location code."),
            cost: str = typer.Option(None, "--cost", help="Unit cost of units added."),
            day: str = typer.Option(None, "--date", help="Booking date (default today)."),
+           cost_ok: bool = typer.Option(False, "--cost-ok", help=COST_OK_HELP),
            ) -> None:
     """Correct stock with a reason (a new movement; nothing is edited)."""
+    qty = options.quantity(qty, "QTY", signed=True)
+    reason = options.code(reason, "--reason", "reason")
+    unit_cost, ts = _money(cost, cost_ok), when(day)
     with unit_of_work(ctx) as s:
-        _report(ledger.adjust(s, part, qty, reason=reason, location=location, ts=when(day),
-                              unit_cost=_money(cost)), "adjusted", part)
+        _report(ledger.adjust(s, part, qty, reason=reason, location=location, ts=ts,
+                              unit_cost=unit_cost), "adjusted", part)
 
 
 @app.command(context_settings=SIGNED)
@@ -113,6 +118,7 @@ def count(ctx: typer.Context,
           day: str = typer.Option(None, "--date", help="Booking date (default today)."),
           ) -> None:
     """Record a shelf count; the variance is booked as a movement."""
+    counted = options.quantity(counted, "COUNTED", zero=True)
     with unit_of_work(ctx) as s:
         moves = ledger.count(s, part, counted, location=location, ts=when(day))
         if not moves:
@@ -130,6 +136,7 @@ def move(ctx: typer.Context,
          day: str = typer.Option(None, "--date", help="Booking date (default today)."),
          ) -> None:
     """Move stock between locations; lots keep their identity."""
+    qty = options.quantity(qty, "QTY")
     with unit_of_work(ctx) as s:
         moves = ledger.move(s, part, qty, from_location=from_, to_location=to, ts=when(day))
         say(f"moved {qty} x {part} from {from_.upper()} to {to.upper()} "

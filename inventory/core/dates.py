@@ -1,4 +1,5 @@
-"""Dates as people and spreadsheets write them.
+"""Dates as people and spreadsheets write them (the one date parser: the command line, spreadsheet
+cells and web forms all come here, through :mod:`inventory.core.parse`).
 
 Three sources of trouble, each handled here and nowhere else:
 

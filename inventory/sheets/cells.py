@@ -1,15 +1,17 @@
 """Cell parsers: one function per type, each raising ``ValueError`` whose text says what
-was expected. The sheet reader adds file, sheet, row and column."""
+was expected. The sheet reader adds file, sheet, row and column. Every number, amount,
+date, cure quarter and code goes through :mod:`inventory.core.parse`, the same parsers the
+command line and the web forms use."""
 
 from __future__ import annotations
 
 import math
 from collections.abc import Callable
-from datetime import date, datetime
-from decimal import Decimal, InvalidOperation
+from datetime import date
+from decimal import Decimal
 from typing import Any
 
-from inventory.core.cure import parse_quarter
+from inventory.core import parse
 
 Parser = Callable[[Any], Any]
 
@@ -32,65 +34,25 @@ def text(value: Any) -> str:
 
 
 def code(value: Any) -> str:
-    out = text(value)
-    if len(out) > 64 and len(out.split()) > 1:
-        raise ValueError(f"expected a short code, got {out!r}")
-    return out
-
-
-def _number_text(value: Any) -> str:
-    s = str(value).strip().replace("\u00a0", "").replace(" ", "")
-    if s.count(",") == 1 and "." not in s:
-        s = s.replace(",", ".")  # decimal comma
-    return s
+    """A code (part, lot, supplier, ...): printable characters only, at most 64 long (the
+    longest code column); :func:`inventory.core.parse.code`."""
+    return parse.code(text(value), what="code", max_len=64)
 
 
 def integer(value: Any) -> int:
-    if isinstance(value, bool):
-        raise ValueError(f"expected a whole number, got {value!r}")
-    if isinstance(value, int):
-        return value
-    if isinstance(value, float):
-        if value.is_integer():
-            return int(value)
-        raise ValueError(f"expected a whole number, got {value!r}")
-    s = _number_text(value)
-    try:
-        f = float(s)
-    except ValueError:
-        raise ValueError(f"expected a whole number, got {str(value)!r}") from None
-    if not f.is_integer():
-        raise ValueError(f"expected a whole number, got {str(value)!r}")
-    return int(f)
+    return parse.integer(value)
 
 
 def positive_int(value: Any) -> int:
-    n = integer(value)
-    if n <= 0:
-        raise ValueError(f"expected a whole number above 0, got {n}")
-    return n
+    return parse.quantity(value)
 
 
 def nonneg_int(value: Any) -> int:
-    n = integer(value)
-    if n < 0:
-        raise ValueError(f"expected a whole number, 0 or more, got {n}")
-    return n
+    return parse.quantity(value, zero=True)
 
 
 def number(value: Any) -> float:
-    if isinstance(value, bool):
-        raise ValueError(f"expected a number, got {value!r}")
-    if isinstance(value, int | float):
-        f = float(value)
-    else:
-        try:
-            f = float(_number_text(value))
-        except ValueError:
-            raise ValueError(f"expected a number, got {str(value)!r}") from None
-    if not math.isfinite(f):
-        raise ValueError(f"expected a finite number, got {value!r}")
-    return f
+    return parse.number(value)
 
 
 def positive_number(value: Any) -> float:
@@ -108,33 +70,21 @@ def nonneg_number(value: Any) -> float:
 
 
 def money(value: Any) -> Decimal:
-    if isinstance(value, float):
-        value = repr(value)
-    s = _number_text(value).lstrip("€$£")
-    try:
-        d = Decimal(s)
-    except InvalidOperation:
-        raise ValueError(f"expected an amount of money like 12.50, got {str(value)!r}") from None
-    if not d.is_finite() or d < 0:
-        raise ValueError(f"expected an amount of money, 0 or more, got {str(value)!r}")
-    return d
+    return parse.money(value)
 
 
 def iso_date(value: Any) -> date:
-    """A date as a spreadsheet gives it (a date cell) or ISO 8601 text ``YYYY-MM-DD``."""
-    if isinstance(value, datetime):
-        return value.date()
-    if isinstance(value, date):
-        return value
-    s = text(value)
-    try:
-        return date.fromisoformat(s[:10])
-    except ValueError:
-        raise ValueError(f"expected a date like 2026-03-31, got {s!r}") from None
+    """A date as a spreadsheet gives it (a date cell, a serial number) or as text
+    (:func:`inventory.core.parse.day`: ISO 8601, unambiguous day/month, month names)."""
+    if isinstance(value, str):
+        value = text(value)
+    return parse.day(value)
 
 
 def quarter(value: Any) -> str:
-    return parse_quarter(text(value))
+    """A cure quarter (:func:`inventory.core.parse.cure_quarter`: 2026Q3, 3Q26, month 8/26;
+    1990 to the current quarter)."""
+    return parse.cure_quarter(text(value))
 
 
 def choice(*options: str) -> Parser:

@@ -1,0 +1,468 @@
+"""One parser per kind of value, with its bounds: lengths, quantities, money, percentages and
+fill rates, dates and months, cure quarters, codes and short texts.
+
+The command line (option callbacks), spreadsheet cells (:mod:`inventory.sheets.cells`) and
+web forms all read values through these functions, so the same text gives the same value or
+the same one-line error everywhere. Each raises :class:`ValueError` whose text names the value
+and what was expected; the caller adds where it came from (option, file/sheet/row/column).
+
+Rules shared by every number:
+
+- ASCII digits only (full-width ``１２`` and Arabic-Indic ``١٢`` digits are refused: Python
+  would read them as numbers, a person checking the screen would not).
+- Finite only: ``nan``, ``inf`` and ``1e400`` are refused; no exponent forms in text.
+- Decimal separator: a point, or a comma (``1,5`` is 1.5 on every entry point). A comma
+  followed by exactly three digits (``5,000``) could be five or five thousand and is refused;
+  thousands are written without separators, with spaces, or with both separators
+  (``1.234,50`` / ``1,234.50``: the last one is the decimal separator).
+
+Bounds come from the columns that store the values (``Numeric(12, 4)`` money, ``Integer``
+quantities, ``VARCHAR(n)`` codes, see :mod:`inventory.core.tables`) and from a sane shop
+range, so SQLite (which does not enforce lengths) and PostgreSQL (which does) refuse the same
+values, before anything is written.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import re
+import unicodedata
+from datetime import date, datetime, timedelta
+from decimal import Decimal
+from typing import Any
+
+from inventory.core import dates as _dates
+from inventory.core import units as _units
+from inventory.core.cure import quarter_of
+
+# ------------------------------------------------------------------------------- limits
+
+#: ``Numeric(12, 4)``: 8 digits before the point, 4 after.
+MONEY_MAX = Decimal("99999999.9999")
+MONEY_PLACES = 4
+#: A unit cost above this needs an explicit confirmation (``--cost-ok``); a scanned barcode
+#: or a misplaced total in the cost field is caught here. ``$INVENTORY_MAX_UNIT_COST``
+#: changes it.
+UNIT_COST_CEILING = Decimal("10000")
+COST_CEILING_ENV = "INVENTORY_MAX_UNIT_COST"
+#: Largest quantity one booking may carry (units, or ml for oil): a shop range far inside
+#: the ``Integer`` column (2,147,483,647), so a sum of many bookings cannot overflow.
+MAX_QTY = 1_000_000
+#: Booking dates: not before the ledger's opening (or this day when none is given), not
+#: more than this many days past today (a clock a day ahead, a different time zone).
+EARLIEST_BOOKING = date(2000, 1, 1)
+FUTURE_MARGIN_DAYS = 1
+#: Cure quarters: none before this year (older rubber is past every ISO 2230 period).
+EARLIEST_CURE_YEAR = 1990
+#: Fill rates accepted, as a fraction (or 50-99.9 as a percentage).
+FILL_LOW, FILL_HIGH = 0.5, 0.999
+
+#: Column lengths of the codes and texts typed by people (``VARCHAR(n)`` in core/tables.py;
+#: tests/test_parse.py checks these against the tables).
+MAX_LEN = {
+    "part": 64,  # part.code
+    "lot": 48,  # lot.code
+    "job": 64,  # movement.reference (a job or order reference)
+    "job ref": 32,  # service_job.ref
+    "reason": 200,  # movement.reason
+    "location": 32,  # location.code
+    "supplier": 32,  # supplier.code
+    "fork": 32,  # fork_family.code
+    "order": 64,  # movement.reference
+}
+
+_ASCII_DIGIT = frozenset("0123456789")
+
+
+def unit_cost_ceiling() -> Decimal:
+    raw = os.environ.get(COST_CEILING_ENV)
+    if not raw:
+        return UNIT_COST_CEILING
+    return money(raw, what=COST_CEILING_ENV)
+
+
+# ------------------------------------------------------------------------------ helpers
+
+def _show(value: Any) -> str:
+    """The value as an error shows it: text quoted (cut at 40 characters), numbers bare."""
+    if not isinstance(value, str):
+        return repr(value) if isinstance(value, float) else str(value)
+    s = value if len(value) <= 40 else value[:37] + "..."
+    return repr(s)
+
+
+def _a(what: str) -> str:
+    return ("an " if what[:1].lower() in "aeiou" else "a ") + what
+
+
+def _err(value: Any, expected: str) -> ValueError:
+    """The one error form every entry point shows: ``expected ..., got 'value'``."""
+    return ValueError(f"expected {expected}, got {_show(value)}")
+
+
+def check_ascii_digits(text: str, what: str = "number") -> str:
+    """``text`` unchanged, or ``ValueError`` if it holds a digit that is not 0-9."""
+    for ch in text:
+        if (ch.isdigit() or unicodedata.category(ch) == "Nd") and ch not in _ASCII_DIGIT:
+            raise _err(text, f"{_a(what)} in the digits 0-9 (found "
+                             f"{unicodedata.name(ch, 'a non-ASCII digit')})")
+    return text
+
+
+_GROUPED = re.compile(r"^\d{1,3}(?:([ ,.'\u00a0\u202f])\d{3})(?:\1\d{3})*$")
+
+
+def number_text(value: Any, what: str = "number") -> str:
+    """The canonical decimal text (``-1234.5``) of a typed number, by the rules above."""
+    raw = str(value).strip()
+    check_ascii_digits(raw, what)
+    s = raw.replace("\u00a0", " ").replace("\u202f", " ")
+    sign = ""
+    if s[:1] in "+-":
+        sign, s = ("-" if s[0] == "-" else ""), s[1:].lstrip()
+    if not s or not re.fullmatch(r"[0-9 ,.']+", s) or not any(c.isdigit() for c in s):
+        raise _err(raw, _a(what))
+    dec = None
+    if "," in s and "." in s:
+        dec = "," if s.rfind(",") > s.rfind(".") else "."
+    elif s.count(",") == 1 and "." not in s:
+        dec = ","
+    elif s.count(".") == 1 and "," not in s:
+        dec = "."
+    whole, frac = (s.rsplit(dec, 1) if dec else (s, ""))
+    if dec == "," and re.fullmatch(r"\d{3}", frac) and whole.strip() not in ("", "0") \
+            and "." not in whole:
+        raise _err(raw, f"{_a(what)} without a comma before three digits (it could be a "
+                   "decimal comma or a thousands separator: write 5000 for five thousand, "
+                   "5.000 for five)")
+    if not re.fullmatch(r"\d*", frac) or (dec and not frac and not whole):
+        raise _err(raw, _a(what))
+    whole = whole.strip()
+    if not whole:
+        whole = "0"
+    if not whole.isdigit():
+        if not _GROUPED.match(whole):
+            raise _err(raw, f"{_a(what)} with thousands grouped in threes (1 234 or 1234)")
+        whole = re.sub(r"\D", "", whole)
+    return f"{sign}{whole}" + (f".{frac}" if frac else "")
+
+
+def _finite_float(value: Any, what: str) -> float:
+    if isinstance(value, bool):
+        raise _err(value, f"{_a(what)}")
+    if isinstance(value, int | float | Decimal):
+        f = float(value)
+    else:
+        f = float(number_text(value, what))
+    if not math.isfinite(f):
+        raise _err(value, f"a finite {what}")
+    return f
+
+
+# ------------------------------------------------------------------------------ numbers
+
+def number(value: Any, *, what: str = "number", low: float | None = None,
+           high: float | None = None) -> float:
+    """A finite float, optionally within ``[low, high]``."""
+    f = _finite_float(value, what)
+    if (low is not None and f < low) or (high is not None and f > high):
+        span = f"{low:g} to {high:g}" if low is not None and high is not None else (
+            f"{low:g} or more" if low is not None else f"{high:g} or less")
+        raise _err(value, f"{_a(what)} of {span}")
+    return f
+
+
+def integer(value: Any, *, what: str = "whole number", max_abs: int = MAX_QTY) -> int:
+    """A whole number of any sign, at most ``max_abs`` in size."""
+    if isinstance(value, bool):
+        raise _err(value, f"{_a(what)}")
+    if isinstance(value, int):
+        n = value
+    else:
+        if isinstance(value, float):
+            if not math.isfinite(value):
+                raise _err(value, f"a finite {what}")
+            d = Decimal(repr(value))
+        elif isinstance(value, Decimal):
+            d = value
+        else:
+            try:
+                d = Decimal(number_text(value, what))
+            except ValueError as exc:
+                if "0-9" in str(exc):
+                    raise
+                raise _err(str(value).strip(), f"{_a(what)}") from None
+        if not d.is_finite() or d != d.to_integral_value():
+            raise _err(value if not isinstance(value, str) else value.strip(), f"{_a(what)}")
+        n = int(d)
+    if n > max_abs:
+        raise ValueError(f"expected {max_abs:,} or less, got {n:,}")
+    if n < -max_abs:
+        raise ValueError(f"expected {-max_abs:,} or more, got {n:,}")
+    return n
+
+
+def quantity(value: Any, *, what: str = "whole number", signed: bool = False,
+             zero: bool = False, max_qty: int = MAX_QTY) -> int:
+    """A number of units (or ml of oil): above 0 (``zero`` allows 0; ``signed`` allows
+    either sign but not 0), at most ``max_qty`` in one booking."""
+    n = integer(value, what=what, max_abs=max_qty)
+    if signed:
+        if n == 0:
+            raise _err(n, f"{_a(what)} other than 0 (-2 takes two out, 3 adds three)")
+    elif n < 0 or (n == 0 and not zero):
+        raise _err(n, f"{_a(what)}, 0 or more" if zero else f"{_a(what)} above 0")
+    return n
+
+
+MONEY_EXPECTED = "an amount of money like 12.50"
+
+
+def money(value: Any, *, what: str = "amount", ceiling: Decimal | None = None,
+          confirmed: bool = False, confirm_hint: str = "--cost-ok") -> Decimal:
+    """An amount of money, 0 or more, as :class:`Decimal` with at most 4 decimals (what
+    ``Numeric(12, 4)`` holds; a spreadsheet float is rounded to 4 decimals). Above
+    ``ceiling`` it needs ``confirmed``; above :data:`MONEY_MAX` it is always refused."""
+    places = Decimal(1).scaleb(-MONEY_PLACES)
+    if isinstance(value, bool):
+        raise _err(value, MONEY_EXPECTED)
+    if isinstance(value, float):
+        if not math.isfinite(value):
+            raise _err(value, f"a finite {what}")
+        d = Decimal(repr(value))
+        if abs(d) <= MONEY_MAX:
+            d = d.quantize(places)
+    elif isinstance(value, int | Decimal):
+        d = Decimal(value)
+    else:
+        raw = str(value).strip()
+        stripped = raw.strip("€$£ ")
+        try:
+            d = Decimal(number_text(stripped, what))
+        except ValueError as exc:
+            if "three digits" in str(exc) or "0-9" in str(exc):
+                raise
+            raise _err(raw, MONEY_EXPECTED) from None
+        value = raw
+    if not d.is_finite():
+        raise _err(value, f"a finite {what}")
+    if d < 0:
+        raise _err(value, f"{MONEY_EXPECTED}, 0 or more")
+    if d > MONEY_MAX:
+        raise _err(value, f"{_a(what)} of at most {MONEY_MAX:,} (the most the database holds)")
+    if d != d.quantize(places):
+        raise _err(value, f"{_a(what)} with at most {MONEY_PLACES} decimals")
+    if ceiling is not None and d > ceiling and not confirmed:
+        raise _err(value, f"{_a(what)} of at most {ceiling:,} (if it is right, confirm it "
+                          f"with {confirm_hint})")
+    return d
+
+
+def unit_cost(value: Any, *, confirmed: bool = False, what: str = "amount",
+              confirm_hint: str = "--cost-ok") -> Decimal:
+    """A unit cost: :func:`money` with the configurable ceiling (:func:`unit_cost_ceiling`)."""
+    return money(value, what=what, ceiling=unit_cost_ceiling(), confirmed=confirmed,
+                 confirm_hint=confirm_hint)
+
+
+def percent(value: Any, *, what: str = "fraction", low: float = 0.0,
+            high: float = 1.0) -> float:
+    """A fraction from ``0.05`` or ``5%``; it must lie in ``[low, high]``."""
+    raw = value.strip() if isinstance(value, str) else value
+    expected = f"{_a(what)} of {low:g} to {high:g} (or {low * 100:g}% to {high * 100:g}%)"
+    try:
+        if isinstance(raw, str) and raw.endswith("%"):
+            f = _finite_float(raw[:-1].strip(), what) / 100.0
+        else:
+            f = _finite_float(raw, what)
+    except ValueError as exc:
+        if "0-9" in str(exc):
+            raise
+        raise _err(raw, expected) from None
+    if not low <= f <= high:
+        raise _err(raw, expected)
+    return f
+
+
+FILL_EXPECTED = (f"a fill rate of {FILL_LOW:g} to {FILL_HIGH:g}, or {FILL_LOW * 100:g} to "
+                 f"{FILL_HIGH * 100:g} (%)")
+
+
+def fill_rate(value: Any, *, what: str = "fill rate") -> float:
+    """A fill-rate target: 0.5-0.999 as a fraction, or 50-99.9 as a percentage (with or
+    without ``%``). Anything else is refused: ``1.5`` (1.5 %? 150 %?), ``1`` (1 %? 100 %?)."""
+    raw = value.strip() if isinstance(value, str) else value
+    pct = isinstance(raw, str) and raw.endswith("%")
+    try:
+        f = _finite_float(raw[:-1].strip() if pct else raw, what)
+    except ValueError as exc:
+        if "0-9" in str(exc):
+            raise
+        raise _err(raw, FILL_EXPECTED) from None
+    if not pct and FILL_LOW <= f <= FILL_HIGH:
+        return f
+    if FILL_LOW * 100 <= f <= FILL_HIGH * 100 + 1e-9:
+        return round(f / 100.0, 6)
+    raise _err(raw, FILL_EXPECTED)
+
+
+def length(value: Any, *, what: str = "length", unit: str = "mm") -> float:
+    """A length in mm from ``32``, ``31,5``, ``1.26in``, ``1-1/4in`` (:mod:`inventory.core.units`);
+    finite, ASCII digits only. Errors are :mod:`units`' own (``unknown length unit ...``)."""
+    if isinstance(value, str):
+        check_ascii_digits(value, what)
+        if re.search(r"(?i)\d\s*e[-+]?\d|\bnan\b|\binf(inity)?\b", value):
+            raise _err(value.strip(), "a length like 32, 31.5 or 1.26in")
+    elif isinstance(value, float) and not math.isfinite(value):
+        raise _err(value, "a finite length")
+    mm = _units.read_length(value, unit).mm
+    if not math.isfinite(mm):
+        raise _err(value, "a finite length")
+    return mm
+
+
+# -------------------------------------------------------------------------------- dates
+
+def day(value: Any, *, what: str = "date", order: _dates.Order | None = None,
+        date1904: bool = False) -> date:
+    """A calendar date: ISO ``2026-03-25``, ``25/03/2026`` (day and month must be told apart,
+    or ``order`` given), ``25 Mar 2026``; from a spreadsheet also a date cell or a serial
+    number (a number, never text: ``45000`` typed as text is refused)."""
+    if isinstance(value, datetime):
+        return value.date()
+    if isinstance(value, date):
+        return value
+    if isinstance(value, int | float) and not isinstance(value, bool):
+        return _dates.from_serial(value, date1904=date1904)
+    raw = str(value).strip()
+    check_ascii_digits(raw, what)
+    if raw.isdigit() and len(raw) != 8:
+        raise _err(raw, "a date like 2026-03-25, 25/03/2026 or 25 Mar 2026")
+    try:
+        return _dates.parse_text(raw, order=order)
+    except ValueError as exc:
+        if "cannot tell day from month" in str(exc):
+            raise _err(raw, "a date whose day and month can be told apart (write it as "
+                            "YYYY-MM-DD)") from None
+        raise
+
+
+def booking_day(value: Any, *, what: str = "date", today: date | None = None,
+                opening: date | None = None, margin_days: int = FUTURE_MARGIN_DAYS,
+                order: _dates.Order | None = None) -> date:
+    """A booking date: :func:`day` within ``[opening (or 2000-01-01), today + margin]``."""
+    d = day(value, what=what, order=order)
+    today = today or date.today()
+    first = opening or EARLIEST_BOOKING
+    last = today + timedelta(days=margin_days)
+    if not first <= d <= last:
+        since = "the ledger's opening" if opening else "the earliest booking date"
+        raise _err(value.strip() if isinstance(value, str) else d.isoformat(),
+                   f"a date from {first.isoformat()} ({since}) to {last.isoformat()} "
+                   f"(today + {margin_days} day{'s' if margin_days != 1 else ''})")
+    return d
+
+
+_MONTH_NUM = re.compile(r"^(\d{4})[-/.](\d{1,2})$|^(\d{1,2})[-/.](\d{4})$")
+_MONTH_NAME = re.compile(r"^([a-z]+)\.?[\s\-/]*(\d{4})$")
+MONTH_EXPECTED = "a month like 2026-03, 03/2026 or Mar 2026"
+
+
+def month(value: Any, *, what: str = "month") -> tuple[int, int]:
+    """A calendar month as ``(year, month)`` from ``2026-03``, ``03/2026`` or ``Mar 2026``."""
+    if isinstance(value, datetime | date):
+        return value.year, value.month
+    raw = str(value).strip()
+    check_ascii_digits(raw, what)
+    m = _MONTH_NUM.match(raw)
+    if m:
+        y, mo = ((int(m.group(1)), int(m.group(2))) if m.group(1)
+                 else (int(m.group(4)), int(m.group(3))))
+    else:
+        n = _MONTH_NAME.match(raw.lower())
+        if not n or n.group(1) not in _dates.MONTHS:
+            raise _err(raw, MONTH_EXPECTED)
+        y, mo = int(n.group(2)), _dates.MONTHS[n.group(1)]
+    if not 1 <= mo <= 12 or not 1 <= y <= 9999:
+        raise _err(raw, MONTH_EXPECTED)
+    return y, mo
+
+
+# -------------------------------------------------------------------------- cure quarters
+
+_CURE_FORMS = (
+    re.compile(r"^(?P<y>\d{4})\s*-?\s*Q(?P<q>[1-4])$", re.I),  # 2026Q3, 2026-Q3
+    re.compile(r"^Q(?P<q>[1-4])\s*[-/ ]?\s*(?P<y>\d{2}|\d{4})$", re.I),  # Q3 2026, Q3/26
+    re.compile(r"^(?P<q>[1-4])\s*Q\s*(?P<y>\d{2}|\d{4})$", re.I),  # 3Q26, 3Q2026
+    re.compile(r"^(?P<m>\d{1,2})\s*/\s*(?P<y>\d{2}|\d{4})$"),  # 2/26, 11/2026: MONTH/year
+)
+CURE_EXPECTED = "a cure quarter like 2026Q3 (also 3Q26, Q3/26, or the month 8/26)"
+
+
+def cure_quarter(value: Any, *, what: str = "cure quarter", received: date | None = None,
+                 pivot: int = 70) -> str:
+    """Canonical ``YYYYQn`` of a cure date, not after the quarter of ``received`` (the
+    receipt day, default today) and not before :data:`EARLIEST_CURE_YEAR`.
+
+    ``N/YY`` is read as a MONTH and year: ``2/26`` is February 2026, quarter 1, and
+    ``11/26`` quarter 4 (makers who stamp a month write it this way, and 5/26 to 12/26 can
+    only be months). ISO 2230's own example label "3/94" means the third quarter
+    (REFERENCE.md section 5), so a label written that way reads one or two quarters older
+    than it is: the rubber is flagged for its storage limit early, never late (the safe
+    side). Write the quarter as ``3Q94``, ``Q3/94`` or ``1994Q3`` to be exact.
+    Two-digit years below ``pivot`` are 20xx, the rest 19xx.
+    """
+    raw = str(value).strip()
+    check_ascii_digits(raw, what)
+    q = y = None
+    for form in _CURE_FORMS:
+        m = form.match(raw)
+        if m:
+            y = int(m.group("y"))
+            if y < 100:
+                y += 2000 if y < pivot else 1900
+            if "m" in m.groupdict():
+                mo = int(m.group("m"))
+                if not 1 <= mo <= 12:
+                    raise _err(raw, f"{CURE_EXPECTED}; there is no month {mo}")
+                q = (mo - 1) // 3 + 1
+            else:
+                q = int(m.group("q"))
+            break
+    if q is None or y is None:
+        raise _err(raw, CURE_EXPECTED)
+    out = f"{y:04d}Q{q}"
+    limit = received or date.today()
+    if y < EARLIEST_CURE_YEAR or out > quarter_of(limit):
+        raise _err(raw, f"a cure quarter from {EARLIEST_CURE_YEAR}Q1 to {quarter_of(limit)} "
+                        f"(not after the receipt on {limit.isoformat()})")
+    return out
+
+
+# -------------------------------------------------------------------------- codes, text
+
+def _bad_char(s: str) -> str | None:
+    for ch in s:
+        if unicodedata.category(ch) in ("Cc", "Cf", "Cs", "Co", "Cn", "Zl", "Zp"):
+            return f"U+{ord(ch):04X} {unicodedata.name(ch, 'control character')}"
+    return None
+
+
+def code(value: Any, *, what: str = "code", max_len: int | None = None) -> str:
+    """A code or short text typed by a person (part, lot, job, reason, location): trimmed,
+    no control, format or bidirectional characters (BEL, right-to-left override, zero-width
+    space), at most ``max_len`` (default :data:`MAX_LEN` for ``what``) characters, the
+    column's length on both databases."""
+    if isinstance(value, float) and value.is_integer():
+        value = int(value)
+    s = str(value).strip()
+    if not s:
+        raise _err(s, f"{_a(what)}")
+    bad = _bad_char(s)
+    if bad:
+        raise _err(s, f"{_a(what)} of printable characters (found {bad})")
+    limit = max_len if max_len is not None else MAX_LEN.get(what)
+    if limit is not None and len(s) > limit:
+        raise _err(s, f"{_a(what)} of at most {limit} characters ({len(s):,} given)")
+    return s
