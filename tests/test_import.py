@@ -15,7 +15,7 @@ from inventory.core.db import transaction
 from inventory.core.errors import InventoryError
 from inventory.core.tables import ForkAlias, ImportBatch, Lot, Part
 from inventory.history.imports import ImportSettings, run_import
-from inventory.history.jobs import list_jobs
+from inventory.history.jobs import list_jobs, noon
 from inventory.sheets.review import answer_review
 from inventory.stock import ledger
 from tests.test_import_support import HISTORY_HEADER, book, csv_file, snapshot
@@ -25,11 +25,15 @@ H = ImportSettings(kind="history", today=TODAY, user="test")
 
 
 def stock_up(engine) -> None:
+    # booked on their receipt days: jobs dated before the ledger's first movement would
+    # record usage only
     with transaction(engine) as s:
-        ledger.receive(s, "OR-214", 50, "0.25", lot="A", cured="2025Q1", received=date(2025, 5, 1))
-        ledger.receive(s, "OR-214", 10, "0.30", lot="B", cured="2024Q3", received=date(2025, 6, 1))
-        ledger.receive(s, "WP-32", 40, "6.50", lot="W", cured="2025Q2", received=date(2025, 6, 1))
-        ledger.receive(s, "K-TST", 1, "10.00", lot="K", received=date(2025, 6, 1))
+        for part, qty, cost, lot, cured, day in (
+                ("OR-214", 50, "0.25", "A", "2025Q1", date(2025, 5, 1)),
+                ("OR-214", 10, "0.30", "B", "2024Q3", date(2025, 6, 1)),
+                ("WP-32", 40, "6.50", "W", "2025Q2", date(2025, 6, 1)),
+                ("K-TST", 1, "10.00", "K", None, date(2025, 6, 1))):
+            ledger.receive(s, part, qty, cost, lot=lot, cured=cured, received=day, ts=noon(day))
 
 
 def preview(engine, path, settings=H):

@@ -50,6 +50,10 @@ def import_file(
     no_stock: bool = typer.Option(False, "--no-stock",
                                   help="history: record the jobs without taking stock (jobs "
                                        "from before the ledger started)."),
+    stock_before_ledger: bool = typer.Option(
+        False, "--stock-before-ledger",
+        help="history: jobs dated before the ledger's first movement take stock too (by "
+             "default they record usage only)."),
     apply: bool = typer.Option(False, "--apply", help="Write it (default: preview only)."),
     as_json: bool = typer.Option(False, "--json", help="Print the report as JSON."),
 ) -> None:
@@ -74,7 +78,7 @@ def import_file(
             raise InventoryError(f"bad --date-order {date_order!r}: expected dmy or mdy")
     settings = ImportSettings(kind=kind, sheet=sheet, mapping=parse_maps(maps),
                               resolutions=resolutions, review=review, date_order=order,
-                              stock=not no_stock)
+                              stock=not no_stock, stock_before_ledger=stock_before_ledger)
     if resolutions is not None and not resolutions.exists():
         raise InventoryError(f"{resolutions}: no such file", hint="give the review workbook "
                              "written by the preview")

@@ -48,7 +48,7 @@ from inventory.core.tables import (
 from inventory.sheets.columns import normalise
 from inventory.sheets.fuzzy import Candidate, Choice, rank, words
 from inventory.sheets.kinds import service_level  # noqa: F401 (part of this module's API)
-from inventory.stock import ledger
+from inventory.stock import allocation, ledger, months, timeline
 
 
 @dataclass(frozen=True, slots=True)
@@ -93,6 +93,7 @@ def record_job(session: Session, *, ref: str, day: date, fork: str, service: str
     if not items:
         raise InventoryError(f"job {ref} uses no parts or kits")
     fam = lookup.fork(session, fork)
+    months.refuse_if_closed(session, day)
     job = ServiceJob(ref=ref, day=day, fork_family_id=fam.id, service_level=service,
                      ride_hours=hours, fork_ref=fork_ref, batch_id=batch_id)
     session.add(job)
@@ -105,7 +106,7 @@ def record_job(session: Session, *, ref: str, day: date, fork: str, service: str
             raise InventoryError(f"job {ref}: quantity of {part.code} must be above 0")
         takes: list[tuple[Part, int]]
         if part.kind == PartKind.KIT and (
-            explode_kits or ledger.on_hand_at(session, part) < item.qty
+            explode_kits or allocation.free_on(session, part, day) < item.qty
         ):
             bom = bill_of_materials(session, part)
             if not bom:
@@ -313,6 +314,8 @@ class StockBook:
     pending: list[dict] = field(default_factory=list)
     deltas: dict[int, int] = field(default_factory=dict)
     booked: int = 0  # movements booked (written or, when simulating, that would be)
+    # per part: (the day it was read from, the part's movements booked after that day)
+    later: dict[int, tuple[date, list]] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         self.user = self.user or ledger.current_user()
@@ -342,31 +345,53 @@ class StockBook:
         """Read one part's balances again (after a ledger call changed them)."""
         self.flush()
         self._load(part_id)
+        self.later.pop(part_id, None)
 
     def on_hand(self, part_id: int) -> int:
         return sum(s.qty for s in self.slots.get(part_id, ()))
+
+    def _later(self, part_id: int, day: date) -> list:
+        got = self.later.get(part_id)
+        if got is None or got[0] > day:
+            got = (day, timeline.later_movements(self.session, part_id, day))
+            self.later[part_id] = got
+        return [m for m in got[1] if timeline.day_of(m[0]) > day]
+
+    def free(self, part_id: int, day: date) -> list[tuple[_Slot, int]]:
+        """Each slot of the part with what a booking dated ``day`` may take from it (the
+        ledger's time-order rule: no later day's balance may go below zero)."""
+        slots = self.slots.get(part_id, [])
+        later = self._later(part_id, day)
+        if not later:
+            return [(s, s.qty) for s in slots]
+        win = timeline.window({(s.location_id, s.lot_id): s.qty for s in slots}, later, day)
+        return [(s, win[(s.location_id, s.lot_id)].free) for s in slots]
+
+    def free_total(self, part_id: int, day: date) -> int:
+        return sum(n for _, n in self.free(part_id, day))
 
     def take(self, part: PartRef, qty: int, *, reference: str | None, ts: datetime,
              batch_id: int | None = None, kind: str = "issue") -> None:
         """Take ``qty`` of ``part``, oldest cure first; all or nothing."""
         slots = self.slots.get(part.id, [])
-        have = sum(s.qty for s in slots)
         if qty <= 0:
             raise InventoryError(f"quantity of {part.code} must be more than 0, got {qty}")
-        if have < qty:
+        day = timeline.day_of(ts)
+        cands = self.free(part.id, day)
+        got = allocation.fifo_take(cands, qty)  # the ledger's one allocation rule
+        if got is None:
+            have = sum(s.qty for s in slots)
+            free = sum(n for _, n in cands)
+            if free == have:
+                raise InventoryError(
+                    f"not enough stock of {part.code}: asked {qty}, on hand {have}",
+                    kind="shortage", hint=allocation.SHORT_HINT)
             raise InventoryError(
-                f"not enough stock of {part.code}: asked {qty}, on hand {have}", kind="shortage",
-                hint="receive stock first, or record a count if the shelf holds more than the "
-                     "ledger")
-        left = qty
-        for slot in slots:
-            if left == 0:
-                break
-            n = min(left, slot.qty)
-            if n == 0:
-                continue
+                f"not enough stock of {part.code} on {day.isoformat()}: asked {qty}, free "
+                f"then {free} (later bookings take the rest of {have})", kind="shortage",
+                hint="book it on a later date")
+        for slot, n in got:
             slot.qty -= n
-            left -= n
             self.booked += 1
             if self.write:
                 self.pending.append(dict(
@@ -415,6 +440,7 @@ class JobWriter:
                                  kind="unknown")
         if not job.items:
             raise InventoryError(f"job {job.ref} uses no parts or kits")
+        months.refuse_if_closed(self.session, job.day)
         ts = noon(job.day)
         used: dict[int, int] = {}
         for item in job.items:
@@ -424,7 +450,7 @@ class JobWriter:
                                      kind="unknown")
             if item.qty <= 0:
                 raise InventoryError(f"job {job.ref}: quantity of {part.code} must be above 0")
-            for p, q in self.consumption(part, item.qty):
+            for p, q in self.consumption(part, item.qty, job.day):
                 if self.book is not None:
                     try:
                         self.book.take(p, q, reference=job.ref, ts=ts, batch_id=self.batch_id)
@@ -438,12 +464,12 @@ class JobWriter:
                               fork_ref=job.fork_ref, batch_id=self.batch_id))
         self.lines.append(list(used.items()))
 
-    def consumption(self, part: PartRef, qty: int) -> list[tuple[PartRef, int]]:
+    def consumption(self, part: PartRef, qty: int, day: date) -> list[tuple[PartRef, int]]:
         """What leaves the shelf for ``qty`` of ``part``: the part itself, or for a kit not
         on hand (or when kits are always exploded) its bill of materials."""
         if self.book is None or part.kind != PartKind.KIT:
             return [(part, qty)]
-        if not self.explode_kits and self.book.on_hand(part.id) >= qty:
+        if not self.explode_kits and self.book.free_total(part.id, day) >= qty:
             return [(part, qty)]
         bom = self.index.bom.get(part.id)
         if not bom:

@@ -129,3 +129,16 @@ def _shortage(part, qty, location, day, rows, win, expired, *, dated) -> Invento
     held = ", ".join(f"lot {c} held {max(s.at_day, 0)}" for c, s in lots[:3]) or "no lots"
     return InventoryError(f"{head}, on hand then {at_day} ({held})", kind="shortage",
                           hint=SHORT_HINT)
+
+
+def free_on(session: Session, part: Part, day: date) -> int:
+    """Units of ``part`` a booking dated ``day`` could take (all locations and lots)."""
+    from sqlalchemy import select
+
+    balances = {(loc, lot): int(n) for loc, lot, n in session.execute(
+        select(StockBalance.location_id, StockBalance.lot_id, StockBalance.qty)
+        .where(StockBalance.part_id == part.id, StockBalance.qty > 0))}
+    later = timeline.later_movements(session, part.id, day)
+    if not later:
+        return sum(balances.values())
+    return sum(s.free for k, s in timeline.window(balances, later, day).items() if k in balances)

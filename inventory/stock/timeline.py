@@ -93,3 +93,15 @@ def lowest_balances(rows: list[tuple[int, int, datetime, int]]) -> list[tuple[in
                 out.append((loc, lot, d, run))
                 break
     return out
+
+
+def ledger_start(session: Session) -> date | None:
+    """The day of the ledger's first movement (``None`` for an empty ledger)."""
+    from sqlalchemy import func
+
+    first = session.execute(select(func.min(Movement.ts))).scalar()
+    if first is None:
+        return None
+    if not isinstance(first, datetime):
+        first = datetime.fromisoformat(str(first))
+    return day_of(first)

@@ -28,6 +28,7 @@ from inventory.history.jobs import (
 )
 from inventory.sheets.kinds import CODE_HINT
 from inventory.sheets.rows import TypedRow, TypedRows
+from inventory.stock.timeline import ledger_start
 
 JOB_FIELDS = ("date", "fork", "service", "hours", "fork_ref")  # the same on every line
 
@@ -173,6 +174,13 @@ def run(ctx: Context, units: list[Unit]) -> None:
         remember_aliases(ctx)
     book = StockBook(session, write=apply, user=ctx.settings.user) if ctx.settings.stock else None
     writer = JobWriter(session, ctx.index, book, batch_id=batch_id)
+    # Jobs dated before the ledger's first movement record usage only: the shelf they
+    # emptied is not today's shelf (unless the import is told to take stock for them).
+    start = None
+    if book is not None and not ctx.settings.stock_before_ledger:
+        start = ledger_start(session) or min((ev.day for ev in events), default=date.max)
+    usage_only = JobWriter(session, ctx.index, None, batch_id=batch_id)
+    early = 0
     timeline: list[tuple[date, int, int, Any]] = []
     for n, u in enumerate(pending):
         timeline.append((u.day, 1, n, u))
@@ -195,7 +203,11 @@ def run(ctx: Context, units: list[Unit]) -> None:
         if u.status != "new":
             continue
         try:
-            writer.add(u.payload)
+            if start is not None and u.day < start:
+                usage_only.add(u.payload)
+                early += 1
+            else:
+                writer.add(u.payload)
             jobs += 1
             lines += len(u.payload.items)
         except InventoryError as exc:
@@ -209,8 +221,17 @@ def run(ctx: Context, units: list[Unit]) -> None:
     rep.effects = {"jobs": jobs, "lines": lines}
     if book is not None:
         rep.effects["movements"] = book.booked
+        rep.effects["jobs taking stock"] = jobs - early
+        rep.effects["jobs recording usage only"] = early
+    if early:
+        since = f"first movement {start.isoformat()}" if start != date.max else "no movements yet"
+        rep.warnings.append(Problem(
+            f"{early} of {jobs} job(s) are dated before the ledger starts ({since}): they record "
+            f"their usage without taking stock; {jobs - early} take stock "
+            "(--stock-before-ledger takes stock for all)", kind="info", severity="warning"))
     if apply and not rep.problems:
         writer.finish()
+        usage_only.finish()
 
 
 def _mark_recorded(ctx: Context, units: list[Unit]) -> None:

@@ -38,6 +38,7 @@ class ImportSettings:
     review: Path | None = None
     date_order: Order | None = None
     stock: bool = True
+    stock_before_ledger: bool = False  # history dated before the first movement takes stock too
     today: date | None = None
     earliest: date = date(1980, 1, 1)
     header_threshold: float = 85.0
