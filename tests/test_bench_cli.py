@@ -24,11 +24,11 @@ from inventory.bench.fit import CAUTION, fit
 from inventory.bench.matching import PartArrays
 from inventory.catalog.load import load_catalog
 from inventory.cli import common
-from inventory.cli.bench_cmd import bench_tour
 from inventory.cli.main import run
 from inventory.core import migrate
 from inventory.core.convert import all_parts, all_seats
 from inventory.core.db import dispose_all, make_engine, transaction
+from inventory.demo.tour import bench_tour
 from inventory.stock import ledger
 
 CATALOG = {

@@ -119,7 +119,7 @@ def test_demo_month_end_writes_the_last_complete_month(shop, tmp_path):
     """What the demo tour calls: the workbook and the page for the last month with data."""
     from datetime import date
 
-    from inventory.monthend.service import demo_month_end
+    from inventory.demo.tour import demo_month_end
 
     files = demo_month_end(shop, tmp_path / "reports", today=date(2026, 12, 2))
     assert files.report.month.label == "2026-11"

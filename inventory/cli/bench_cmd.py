@@ -1,5 +1,5 @@
 """Bench lookup commands: ``inventory match``, ``inventory fit``, ``inventory compat`` and
-``inventory parts find``; :func:`bench_tour` shows them on the demo shop.
+``inventory parts find``; :func:`inventory.demo.tour.bench_tour` shows them on the demo shop.
 
 Thin commands: parse the options (:mod:`inventory.bench.service`), call one function,
 render a rich table or ``--json``. Every match and fit output ends with the one-line
@@ -12,7 +12,6 @@ import math
 from pathlib import Path
 
 import typer
-from sqlmodel import Session
 
 from inventory.bench import service as svc
 from inventory.bench.fit import CAUTION, FitResult, FitRules, fit, kind_applies
@@ -21,7 +20,6 @@ from inventory.bench.part_search import find_parts
 from inventory.cli.common import console, print_json, print_table, reading, say
 from inventory.core import lookup
 from inventory.core.convert import all_seats
-from inventory.core.db import make_engine
 from inventory.core.errors import InventoryError
 from inventory.core.model import PartKind
 from inventory.core.units import format_length
@@ -347,52 +345,4 @@ def register(app: typer.Typer) -> None:
     app.add_typer(parts_app, name="parts")
 
 
-# -------------------------------------------------------------------------- demo tour
-
-#: How a worn ring reads under the caliper in the tour: the inside a little stretched and
-#: swollen, the section a little flattened by compression set (illustrative, common
-#: practice for a used static seal).
-WORN_ID_FACTOR = 1.005
-WORN_CS_FACTOR = 0.985
-
-
-def bench_tour(url: str) -> None:
-    """For the demo tour: caliper readings of a worn O-ring from a demo seat (oil-wetted
-    where one fits), the ranked match (stock and standard sizes) with verdicts for that
-    seat, and the full fit of the stocked ring that came out of it."""
-    with Session(make_engine(url)) as s:
-        shop = svc.load_shop(s)
-        seats = all_seats(s)
-    rings = [p for p in shop.parts if PartKind(p.kind) == PartKind.O_RING
-             and p.standard and p.id_mm and p.cs_mm and shop.stock_of(p.code).on_hand > 0]
-    rings.sort(key=lambda p: (p.standard != "AS568-214", p.material != "NBR", p.code))
-    # an oil-wetted seat shows the material rule too (EPDM never goes in oil)
-    seats.sort(key=lambda x: (str(x.medium) != "oil", x.fork, x.seat))
-    chosen = None
-    for ring in rings:
-        for seat in seats:
-            if PartKind(seat.part_kind) == PartKind.O_RING and \
-                    str(fit(ring, seat).verdict) == "pass":
-                chosen = ring, seat
-                break
-        if chosen:
-            break
-    if chosen is None:
-        say("bench lookup: no stocked standard O-ring fits a demo seat; skipped")
-        return
-    ring, seat = chosen
-    read_id = round(ring.id_mm * WORN_ID_FACTOR, 2)
-    read_cs = round(ring.cs_mm * WORN_CS_FACTOR, 2)
-    say(f"[bold]At the bench[/bold]: a worn O-ring out of {seat.fork} {seat.seat} reads "
-        f"{read_id:.2f} x {read_cs:.2f} mm on the caliper.")
-    say(f"$ inventory match --id {read_id:.2f} --cs {read_cs:.2f} --fork {seat.fork} "
-        f"--seat {seat.seat} --limit 4")
-    request = svc.MatchRequest(MatchQuery(id_mm=read_id, cs_mm=read_cs, kind=PartKind.O_RING),
-                               limit=4, seat=seat)
-    result = svc.run_match(shop, request)
-    render_match(result, "mm")
-    say(f"$ inventory fit {ring.code} --fork {seat.fork} --seat {seat.seat}")
-    render_fit(fit(ring, seat))
-
-
-__all__ = ["bench_tour", "compat", "fit_command", "match", "parts_app", "register"]
+__all__ = ["compat", "fit_command", "match", "parts_app", "register"]

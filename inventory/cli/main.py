@@ -68,7 +68,8 @@ def demo(ctx: typer.Context,
          reports: str = typer.Option("reports", "--reports", help="Folder for reports."),
          quick: bool = typer.Option(False, "--quick", help="Build only, no tour.")) -> None:
     """Build a fresh demo shop database from catalog_demo and show what the tool does."""
-    from inventory.demo.build import build_demo, tour
+    from inventory.demo.build import build_demo
+    from inventory.demo.tour import tour
 
     url = build_demo(db)
     if not quick:

@@ -35,18 +35,8 @@ from inventory.monthend.aggregates import (
     load_month,
     parse_month,
 )
+from inventory.ordering.model import ReorderAdvice  # defined below the report (ordering < monthend)
 from inventory.stock import valuation as val
-
-
-@dataclass(frozen=True, slots=True)
-class ReorderAdvice:
-    """A part's reorder point and the suggested order quantity, with where they came from
-    (``"plan"`` or a description of the fallback rule)."""
-
-    part: str
-    reorder_point: int
-    suggested_qty: int
-    basis: str
 
 
 class ReorderSource(Protocol):

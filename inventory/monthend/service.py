@@ -1,7 +1,7 @@
 """Write the month-end report: the workbook, the HTML page, or both, from one database.
 
 The CLI (``inventory report month``) and the demo tour call :func:`write_month_end`;
-:func:`demo_month_end` picks the demo's last complete month.
+:func:`latest_complete_month` picks the last complete month (the demo tour uses it).
 """
 
 from __future__ import annotations
@@ -13,7 +13,6 @@ from pathlib import Path
 from sqlalchemy import func, select
 from sqlmodel import Session
 
-from inventory.core.db import make_engine
 from inventory.core.tables import Movement
 from inventory.monthend.aggregates import Month, last_complete
 from inventory.monthend.html import write_month_html
@@ -53,15 +52,3 @@ def latest_complete_month(session: Session, today: date) -> Month:
         return done
     day = last.date() if hasattr(last, "date") else date.fromisoformat(str(last)[:10])
     return min(Month.of(day), done)
-
-
-def demo_month_end(url: str, reports: str | Path = "reports", *, today: date | None = None,
-                   reorder: ReorderSource | None = None) -> MonthEndFiles:
-    """For the demo tour: the workbook and the HTML page for the demo's last complete month,
-    written to ``reports/stock-YYYY-MM.xlsx`` and ``.html``."""
-    today = today or date.today()
-    with Session(make_engine(url)) as s:
-        month = latest_complete_month(s, today)
-        base = default_xlsx(month, reports)
-        return write_month_end(s, month, today=today, xlsx=base, html=base.with_suffix(".html"),
-                               reorder=reorder)

@@ -322,3 +322,15 @@ def drafts_identity(drafts: Sequence[DraftOrder]) -> str:
     day = next((d.plan_date for d in drafts if d.plan_date is not None), None)
     return plan_identity(day, [(d.supplier, ln.part, ln.qty, ln.unit_cost)
                                for d in drafts for ln in d.lines])
+
+
+@dataclass(frozen=True, slots=True)
+class ReorderAdvice:
+    """A part's reorder point and the suggested order quantity, with where they came from
+    (``"plan"`` or a description of the fallback rule): what the planner hands the month-end
+    report's reorder list (:func:`inventory.ordering.service.reorder_source`)."""
+
+    part: str
+    reorder_point: int
+    suggested_qty: int
+    basis: str

@@ -4,8 +4,8 @@
 ISO 2230 storage period are not counted), quantities still due on open purchase orders and
 the kits' bills of materials, asks a :class:`ForecastSource` for the demand, and calls the
 pure planner (:func:`inventory.ordering.plan.plan_orders`). :func:`plan_to_dict` gives the
-JSON contract; :mod:`inventory.ordering.workbook` the workbook; :func:`plan_tour` the demo's
-pre-season plan.
+JSON contract; :mod:`inventory.ordering.workbook` the workbook; the demo's pre-season plan is
+:func:`inventory.demo.tour.plan_tour`.
 
 The forecast is behind a small protocol so the planner does not depend on how it is made:
 :func:`history_forecast` (monthly issues per stock item, :func:`inventory.forecast.methods.
@@ -22,7 +22,6 @@ from collections.abc import Mapping, Sequence
 from dataclasses import replace
 from datetime import UTC, date, datetime, time, timedelta
 from decimal import Decimal
-from pathlib import Path
 from typing import Any, Protocol
 
 import numpy as np
@@ -337,42 +336,13 @@ def plan_to_dict(plan: Plan) -> dict[str, Any]:
     }
 
 
-# -- the demo tour ---------------------------------------------------------------------------------
-
-
-def plan_tour(url: str, reports_dir: str | Path) -> None:
-    """The demo shop's pre-season plan (season start 2027-03-01, planned on the demo's
-    "today", 2026-12-02): writes ``preseason_plan.xlsx`` and ``preseason_plan.json`` to
-    ``reports_dir`` and prints a short summary."""
-    import json
-
-    from inventory.cli.common import print_table, say
-    from inventory.core.db import make_engine
-    from inventory.ordering.workbook import write_plan_workbook
-
-    out = Path(reports_dir)
-    out.mkdir(parents=True, exist_ok=True)
-    with Session(make_engine(url)) as s:
-        plan = make_plan(s, as_of=date(2026, 12, 2), season_start=date(2027, 3, 1))
-    xlsx = write_plan_workbook(plan, out / "preseason_plan.xlsx")
-    (out / "preseason_plan.json").write_text(
-        json.dumps(plan_to_dict(plan), indent=2, ensure_ascii=False) + "\n", encoding="utf-8")
-    say(f"[bold]Pre-season plan[/bold] for a season starting {plan.season_start}: "
-        f"{sum(len(o.lines) for o in plan.orders)} lines, total {plan.total:,.2f}")
-    print_table("Purchase orders", ["supplier", "order by", "delivery", "lines", "total", "note"],
-                [[o.supplier, o.order_by, o.arrival, len(o.lines), f"{o.total:,.2f}",
-                  o.note] for o in plan.orders], right=("lines", "total"))
-    say(f"Expected fill {plan.expected_fill:.1%} against a target of {plan.service_target:.1%}; "
-        f"{len(plan.uncovered)} item(s) not fully covered; workbook {xlsx}")
-
-
 def reorder_source(**plan_options):
     """The month-end report's reorder list from this planner: per part, the level the plan
     keeps stock up to (its reorder point under periodic review) and the quantity it orders.
     ``plan_options`` go to :func:`make_plan` (budget, fill_rate, ...)."""
     import math
 
-    from inventory.monthend.report import ReorderAdvice
+    from inventory.ordering.model import ReorderAdvice
 
     def source(session: Session, as_of: date) -> dict:
         try:
