@@ -82,10 +82,11 @@ def test_kit_on_hand_is_issued_whole_then_built_from_its_parts(shop):
      "error: a job needs at least one --kit or --part (e.g. --kit K-TR34-LL or --part "
      "OR-214=2)"),
     (["--service", "damper", "--kit", "K-TST", "--date", "03/04/2025"],
-     "error: bad --date '03/04/2025': cannot tell day from month in '03/04/2025' (write dates "
-     "as 2026-03-14)"),
+     "error: --date: expected a date whose day and month can be told apart (write it as "
+     "YYYY-MM-DD), got '03/04/2025'"),
     (["--service", "damper", "--kit", "K-TST", "--date", "2999-01-01"],
-     "error: bad --date '2999-01-01': 2999-01-01 is in the future"),
+     f"error: --date: expected a date from 2000-01-01 (the earliest booking date) to "
+     f"{date.today() + timedelta(days=1)} (today + 1 day), got '2999-01-01'"),
 ])
 def test_job_add_refusals_write_nothing(shop, args, line):
     code, out, err = cli("--db", shop, "job", "add", "--fork", "XC-32", *args)

@@ -125,10 +125,13 @@ def test_stock_past_its_storage_period_is_not_counted(shop, monkeypatch, capsys)
         (["--budget", "10"],
          "error: budget 10.00 is below the smallest supplier minimum order (50.00 at SUP-A): "
          "nothing could be ordered"),
-        (["--budget", "lots"], "error: bad budget 'lots': expected an amount like 5000"),
-        (["--fill-rate", "150%"], "error: bad fill rate '150%': must be between 0 and 100%"),
+        (["--budget", "lots"], "error: --budget: expected an amount of money like 12.50, "
+                               "got 'lots'"),
+        (["--fill-rate", "150%"], "error: --fill-rate: expected a fill rate of 0.5 to 0.999, "
+                                  "or 50 to 99.9 (%), got '150%'"),
         (["--season-start", "March"],
-         "error: bad --season-start 'March': expected a date like 2027-03-01"),
+         "error: --season-start: expected a date like 2026-03-25, 25/03/2026 or 25 Mar 2026, "
+         "got 'March'"),
     ],
 )
 def test_bad_input_gets_one_line(shop, monkeypatch, capsys, args, line):

@@ -20,14 +20,16 @@ from rich.console import Console
 from rich.progress import BarColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
+from inventory.cli import options
 from inventory.cli.common import console, err_console, print_json, print_table, reading, say
+from inventory.core.choices import DEFAULT_ALLOCATION, Allocation, ForecastBy
 from inventory.core.errors import InventoryError, Problem
 
 if TYPE_CHECKING:  # the forecaster loads scipy: imported when a command runs, not at start-up
     from inventory.forecast.service import By, ForecastReport
 
-BY_CHOICES = ("part", "kit", "family", "item")
-ALLOCATIONS = ("uniform", "part", "marginal")
+BY_CHOICES = tuple(ForecastBy)
+ALLOCATIONS = tuple(Allocation)
 FORECAST_STEPS = 6
 
 
@@ -52,13 +54,9 @@ def _progress(total: int | None, label: str, *, quiet: bool) -> Iterator[Any]:
 # -- forecast ------------------------------------------------------------------------------------
 
 
-def _day(text: str | None) -> date:
-    if not text:
-        return date.today()
-    try:
-        return date.fromisoformat(text)
-    except ValueError:
-        raise InventoryError(f"bad date {text!r}: expected a date like 2026-12-02") from None
+def _day(text: str | None, what: str = "--today") -> date:
+    """The forecast's day (:func:`inventory.core.parse.day`); today when not given."""
+    return options.day(text, what) or date.today()
 
 
 def _label(report: ForecastReport, d: date) -> str:
@@ -108,7 +106,8 @@ def forecast(
     ctx: typer.Context,
     horizon: int = typer.Option(6, "--horizon", min=1, max=36,
                                 help="Periods to forecast (months, or weeks with --weekly)."),
-    by: str = typer.Option("part", "--by", help="part (kits exploded into their seals), kit, "
+    by: ForecastBy = typer.Option(ForecastBy.PART, "--by", case_sensitive=False,
+                                  help="part (kits exploded into their seals), kit, "
                                                 "family (jobs per fork family) or item "
                                                 "(stock items as they leave the shelf)."),
     weekly: bool = typer.Option(False, "--weekly", help="Weekly periods (ISO weeks)."),
@@ -131,10 +130,8 @@ def forecast(
     """Forecast demand per part, kit or fork family, with a range, a workbook and charts."""
     from inventory.forecast.service import forecast_items
 
-    if by not in BY_CHOICES:
-        raise InventoryError(f"--by must be one of {', '.join(BY_CHOICES)}, got {by!r}")
     day = _day(today)
-    by_: By = by  # type: ignore[assignment]
+    by_: By = by.value  # type: ignore[assignment]
     with _progress(FORECAST_STEPS + 2, "forecast", quiet=as_json) as step, reading(ctx) as s:
         report = forecast_items(s, today=day, horizon=horizon, by=by_,
                                 freq="W" if weekly else "M", lead_time_months=lead_time,
@@ -204,11 +201,13 @@ def backtest(
                                      "long (date, part, qty)."),
     horizon: int = typer.Option(6, "--horizon", help="Test months at the end."),
     lead_time: int = typer.Option(1, "--lead-time", help="Lead time in months."),
-    fill_rate: float = typer.Option(0.95, "--fill-rate", help="Asked fill rate (0.5-0.999)."),
+    fill_rate: str = typer.Option("0.95", "--fill-rate",
+                                  help="Asked fill rate (0.5-0.999, or 50-99.9 %)."),
     review: int = typer.Option(1, "--review", help="Review period in months."),
     rolling: bool = typer.Option(False, "--rolling", help="Rolling origins, pooled."),
     origins: int = typer.Option(3, "--origins", help="Origins in rolling mode."),
-    allocation: str = typer.Option("uniform", "--allocation",
+    allocation: Allocation = typer.Option(DEFAULT_ALLOCATION, "--allocation",
+                                          case_sensitive=False,
                                    help="uniform: one per-part target set so the POOLED fill "
                                         "meets the asked rate (default); part: each part's "
                                         "own target; marginal: least stock for the pooled "
@@ -218,11 +217,7 @@ def backtest(
     """Backtest forecast + order-up-to policy on a demand history outside the database."""
     from inventory.ordering import backtest as bt
 
-    if allocation not in ALLOCATIONS:
-        raise InventoryError(f"--allocation must be one of {', '.join(ALLOCATIONS)}, "
-                             f"got {allocation!r}")
-    if not 0.5 <= fill_rate < 1.0:
-        raise InventoryError(f"--fill-rate must be between 0.5 and 0.999, got {fill_rate}")
+    rate = options.fill_rate(fill_rate, "--fill-rate")
     if horizon < 1 or lead_time < 0 or review < 1:
         raise InventoryError("--horizon and --review must be 1 or more, --lead-time 0 or more")
     table = _read_csv(file)
@@ -230,8 +225,8 @@ def backtest(
     if t_len <= horizon + 2:
         raise InventoryError(f"{file}: {t_len} periods is too short for --horizon {horizon}: "
                              f"need more than {horizon + 2}", hint="use a shorter --horizon")
-    kw = dict(horizon=horizon, lead_time=lead_time, fill_rate=fill_rate, review_period=review,
-              season_pos=table.season_pos(), allocation=allocation)
+    kw = dict(horizon=horizon, lead_time=lead_time, fill_rate=rate, review_period=review,
+              season_pos=table.season_pos(), allocation=allocation.value)
     t0 = time.perf_counter()
     with _progress(None, f"backtesting {n} series", quiet=as_json):
         try:
@@ -244,7 +239,7 @@ def backtest(
                                                         "--origins") from None
     wall = time.perf_counter() - t0
     data = res.to_dict()
-    data.update(file=str(file), allocation=allocation, rolling=rolling,
+    data.update(file=str(file), allocation=allocation.value, rolling=rolling,
                 wall_seconds=round(wall, 3))
     if as_json:
         print_json(data)

@@ -6,6 +6,7 @@ from datetime import date
 
 import typer
 
+from inventory.cli import options
 from inventory.cli.common import console, print_json, print_table, reading, unit_of_work
 from inventory.core import lookup
 from inventory.core.errors import InventoryError
@@ -19,7 +20,6 @@ from inventory.history.jobs import (
     resolve_fork_text,
     service_level,
 )
-from inventory.sheets import dates
 
 app = typer.Typer(help="Record service jobs (stock is taken through the ledger) and look "
                        "them up.", no_args_is_help=True)
@@ -33,17 +33,14 @@ def say(text: str) -> None:
 def parse_day(text: str | None, what: str = "--date", *, today: date | None = None) -> date:
     """A date typed on the command line; today when not given. Day/month numeric forms
     must be unambiguous (use ISO 2026-03-14)."""
-    today = today or date.today()
     if not text:
-        return today
-    try:
-        d = dates.parse_text(text)
-    except ValueError as exc:
-        raise InventoryError(f"bad {what} {text!r}: {exc}",
-                             hint="write dates as 2026-03-14") from None
-    if d > today:
-        raise InventoryError(f"bad {what} {text!r}: {d.isoformat()} is in the future")
-    return d
+        return today or date.today()
+    if today == date.max:  # a filter (--from/--to), not a booking
+        out = options.day(text, what)
+    else:
+        out = options.booking_day(text, what, today=today)
+    assert out is not None
+    return out
 
 
 def parse_part(spec: str) -> JobItem:
@@ -93,6 +90,8 @@ def add(ctx: typer.Context,
     """Record a job and take its kits and parts from stock (oldest cure first), all or
     nothing. A kit not on hand is built from loose parts through its bill of materials."""
     d = parse_day(day)
+    ref = options.code(ref, "--ref", "job ref")
+    fork_ref = options.code(fork_ref, "--fork-ref", "job ref")
     try:
         level = service_level(service)
     except ValueError as exc:

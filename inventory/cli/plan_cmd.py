@@ -7,12 +7,14 @@ render (rich tables for people, ``--json`` for programs, a workbook with ``--xls
 from __future__ import annotations
 
 from datetime import date
-from decimal import Decimal, InvalidOperation
+from decimal import Decimal
 from pathlib import Path
 
 import typer
 
+from inventory.cli import options
 from inventory.cli.common import print_json, print_table, reading, say, unit_of_work
+from inventory.core.choices import DEFAULT_KIT_MODE, KitMode
 from inventory.core.errors import InventoryError
 
 order_app = typer.Typer(help="Purchase orders: record them from a plan, list them.",
@@ -20,38 +22,20 @@ order_app = typer.Typer(help="Purchase orders: record them from a plan, list the
 
 
 def _day(text: str | None, what: str) -> date | None:
-    if not text:
-        return None
-    try:
-        return date.fromisoformat(text)
-    except ValueError:
-        raise InventoryError(f"bad {what} {text!r}: expected a date like 2027-03-01") from None
+    """A plan or order date (:func:`inventory.core.parse.day`)."""
+    return options.day(text, what)
 
 
-def _budget(text: str | None) -> Decimal | None:
-    if text is None:
-        return None
-    try:
-        value = Decimal(text.replace(",", "").replace("_", ""))
-    except InvalidOperation:
-        raise InventoryError(f"bad budget {text!r}: expected an amount like 5000") from None
-    if not value.is_finite() or value < 0:
-        raise InventoryError(f"bad budget {text!r}: expected an amount of 0 or more")
-    return value
+def _budget(text: str | None, what: str = "--budget") -> Decimal | None:
+    """An amount (:func:`inventory.core.parse.money`: ``1,5`` is 1.5 here as everywhere)."""
+    return options.amount(text, what)
 
 
-def parse_rate(text: str, what: str = "fill rate") -> float:
-    """A fill rate as 0.95, 95 or 95%."""
-    raw = text.strip().rstrip("%")
-    try:
-        value = float(raw)
-    except ValueError:
-        raise InventoryError(f"bad {what} {text!r}: expected a rate like 0.95 or 95%") from None
-    if value >= 1.0 and (text.strip().endswith("%") or value < 100):
-        value /= 100.0
-    if not 0.0 < value < 1.0:
-        raise InventoryError(f"bad {what} {text!r}: must be between 0 and 100%")
-    return value
+def parse_rate(text: str, what: str = "--fill-rate") -> float:
+    """A fill rate as 0.95, 95 or 95% (:func:`inventory.core.parse.fill_rate`)."""
+    rate = options.fill_rate(text, what)
+    assert rate is not None
+    return rate
 
 
 def _targets(items: list[str]) -> dict[str, float]:
@@ -60,7 +44,7 @@ def _targets(items: list[str]) -> dict[str, float]:
         part, sep, rate = item.partition("=")
         if not sep or not part.strip():
             raise InventoryError(f"bad --target {item!r}: expected PART=RATE, e.g. OR-214=0.99")
-        out[part.strip()] = parse_rate(rate, f"fill rate for {part.strip()}")
+        out[part.strip()] = parse_rate(rate, f"--target {part.strip()}")
     return out
 
 
@@ -77,7 +61,7 @@ def plan(ctx: typer.Context,
          supplier: list[str] = typer.Option([], "--supplier",  # noqa: B008
                                             help="Only this supplier (repeat)."),
          part: list[str] = typer.Option([], "--part", help="Only this part (repeat)."),  # noqa: B008
-         kits: str = typer.Option("stock", "--kits",
+         kits: KitMode = typer.Option(DEFAULT_KIT_MODE, "--kits", case_sensitive=False,
                                   help="Kits: 'stock' assembles from spare loose stock, "
                                        "'cheaper' also buys loose seals when cheaper, "
                                        "'whole' always buys kits."),
@@ -93,11 +77,9 @@ def plan(ctx: typer.Context,
     from inventory.ordering.model import PlanOptions
     from inventory.ordering.service import make_plan, plan_to_dict
 
-    if kits not in ("stock", "cheaper", "whole"):
-        raise InventoryError(f"bad --kits {kits!r}: use stock, cheaper or whole")
-    opts = replace(PlanOptions(), kit_mode=kits)
+    opts = replace(PlanOptions(), kit_mode=kits.value)
     if line_cost is not None:
-        cost = _budget(line_cost)
+        cost = _budget(line_cost, "--line-cost")
         assert cost is not None
         opts = replace(opts, line_order_cost=cost)
     as_of = _day(day, "--date") or date.today()

@@ -7,9 +7,10 @@ from pathlib import Path
 
 import typer
 
+from inventory.cli import options
 from inventory.cli.common import print_json, print_table, reading, say
-from inventory.core.errors import InventoryError
-from inventory.monthend.aggregates import METHODS, parse_month
+from inventory.core.choices import DEFAULT_VALUATION, Valuation
+from inventory.monthend.aggregates import parse_month
 from inventory.monthend.report import report_dict
 from inventory.monthend.service import default_xlsx, write_month_end
 from inventory.ordering.service import reorder_source
@@ -18,12 +19,7 @@ app = typer.Typer(help="Month-end reports.", no_args_is_help=True)
 
 
 def _today(text: str | None) -> date:
-    if not text:
-        return date.today()
-    try:
-        return date.fromisoformat(text)
-    except ValueError:
-        raise InventoryError(f"bad date {text!r}: expected a date like 2026-12-02") from None
+    return options.day(text, "--today") or date.today()
 
 
 @app.command("month")
@@ -34,7 +30,7 @@ def month(ctx: typer.Context,
                                          "with --json only when given)."),
           html: Path = typer.Option(None, "--html", help="Also write a one-page HTML summary."),
           as_json: bool = typer.Option(False, "--json", help="Print the report as JSON."),
-          method: str = typer.Option("fifo", "--method",
+          method: Valuation = typer.Option(DEFAULT_VALUATION, "--method", case_sensitive=False,
                                      help="Valuation: fifo (lot cost, oldest cure first) or "
                                           "average (moving average)."),
           plan: bool = typer.Option(True, "--plan/--no-plan",
@@ -45,15 +41,13 @@ def month(ctx: typer.Context,
           ) -> None:
     """Stock value, usage, turns, classes, dead stock, count variances, expiring lots and the
     reorder list for one month; refuses if the ledger does not reconcile."""
-    if method not in METHODS:
-        raise InventoryError(f"unknown valuation method {method!r}: use fifo or average")
     day = _today(today)
     m = parse_month(month, today=day)
     if xlsx is None and not as_json:
         xlsx = default_xlsx(m)
     with reading(ctx) as s:
         reorder = reorder_source() if plan else None
-        files = write_month_end(s, m, today=day, xlsx=xlsx, html=html, method=method,
+        files = write_month_end(s, m, today=day, xlsx=xlsx, html=html, method=method.value,
                                 reorder=reorder)
     if as_json:
         print_json(report_dict(files.report))

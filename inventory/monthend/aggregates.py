@@ -18,7 +18,6 @@ big integer), so sums are exact on SQLite too, whose ``NUMERIC`` columns hold fl
 
 from __future__ import annotations
 
-import re
 from collections import defaultdict
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
@@ -31,6 +30,7 @@ from sqlalchemy.sql.expression import ColumnElement
 from sqlalchemy.types import NullType
 from sqlmodel import Session
 
+from inventory.core import parse
 from inventory.core.errors import InventoryError
 from inventory.core.tables import (
     ForkFamily,
@@ -51,7 +51,6 @@ KNOWN_KINDS = ("receipt", "issue", "adjust", "count", "move")
 METHODS = {"fifo": "FIFO by cure date (lot cost, as the ledger issues)",
            "average": "moving average"}
 HISTORY_MONTHS = 12
-_MONTH_RE = re.compile(r"^\s*(\d{4})-(\d{1,2})\s*$")
 
 # ---------------------------------------------------------------------------- months
 
@@ -100,12 +99,15 @@ class Month:
 
 
 def parse_month(text: str, *, today: date) -> Month:
-    """A complete month from ``YYYY-MM``; refuses malformed text, the running month and
-    months in the future with a one-line message."""
-    m = _MONTH_RE.match(str(text))
-    if not m or not 1 <= int(m.group(2)) <= 12:
-        raise InventoryError(f"bad month {text!r}: expected YYYY-MM, like {last_complete(today)}")
-    month = Month(int(m.group(1)), int(m.group(2)))
+    """A complete month from ``YYYY-MM`` (or what :func:`inventory.core.parse.month` reads:
+    ``03/2026``, ``Mar 2026``); refuses malformed text, the running month and months in the
+    future with a one-line message."""
+    try:
+        year, mo = parse.month(text)
+    except ValueError as exc:
+        raise InventoryError(f"month: {exc}",
+                             hint=f"the last complete month is {last_complete(today)}") from None
+    month = Month(year, mo)
     if month.first_day > today:
         raise InventoryError(f"month {month} is in the future (today is {today.isoformat()})",
                              hint=f"the last complete month is {last_complete(today)}")
