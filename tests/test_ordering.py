@@ -481,6 +481,31 @@ def test_kit_mode_cheaper_moves_the_need_to_the_loose_seals():
     assert by["WIPER"].for_kits == 2 * d.need and by["WIPER"].qty >= 2 * d.need
 
 
+def test_kit_mode_cheaper_never_reorders_a_seal_the_shelf_covers():
+    # issue 11 item 9, worked by hand: no spare wipers, so every kit needs 2 wipers ordered;
+    # the 200 foam rings on the shelf (their own level is 0) cover 2 per kit, so no foam
+    # ring is ordered for the kits and the ones used are booked as going into kits
+    plan = plan_orders(kit_request("50.00", wiper_on_hand=0),
+                       PlanOptions(pooling="part", kit_mode="cheaper"))
+    [d] = plan.kits
+    assert 0 < 2 * d.need <= 200
+    assert d.from_surplus == {"FOAM": 2 * d.need} and "FOAM" not in d.adds
+    by = {ln.part: ln for ln in plan.lines}
+    assert by["FOAM"].for_kits == 0 and by["FOAM"].qty == 0
+    assert by["FOAM"].to_kits == 2 * d.need
+    assert "already held" in d.reason
+    # with only 3 foam rings on the shelf, 2 x need - 3 are ordered, never more
+    small = kit_request("50.00", wiper_on_hand=0)
+    stock = dict(small.stock)
+    stock["FOAM"] = PartStock("FOAM", "foam_ring", "", None, 3)
+    plan = plan_orders(PlanRequest(small.as_of, small.forecast, stock, small.options,
+                                   small.suppliers, small.kits),
+                       PlanOptions(pooling="part", kit_mode="cheaper"))
+    [d] = plan.kits
+    foam = next(ln for ln in plan.lines if ln.part == "FOAM")
+    assert foam.for_kits == 2 * d.need - 3 and d.from_surplus == {"FOAM": 3}
+
+
 # -- properties (hypothesis) -----------------------------------------------------------------------
 
 

@@ -35,7 +35,10 @@ class KitDecision:
 
     ``how``: "whole" (buy the kit), "assemble" (from loose seals), "none" (no need).
     ``from_stock`` kits come from loose stock above the components' own levels,
-    ``from_loose`` kits from loose seals added to this plan (``adds``: part -> units).
+    ``from_loose`` kits from loose seals added to this plan (``adds``: part -> units to
+    order); ``from_surplus``: part -> loose units already held or on order above the part's
+    own level that go into those ``from_loose`` kits (a component whose stock plus open
+    orders covers its share is never ordered for them).
     """
 
     kit: str
@@ -47,6 +50,7 @@ class KitDecision:
     from_loose: int = 0
     adds: Mapping[str, int] = field(default_factory=dict)
     reason: str = ""
+    from_surplus: Mapping[str, int] = field(default_factory=dict)
 
 
 def _money(x: Decimal | None) -> str:
@@ -109,17 +113,27 @@ def decide_kits(
                         f"would cost {_money(loose)} per kit: see kit mode 'cheaper')")))
             continue
         adds: dict[str, int] = {}
+        used: dict[str, int] = {}
         for p, q in kit.lines:
             if rest:
-                adds[p] = adds.get(p, 0) + rest * q
+                # the surplus left after the kits from stock covers what it can; only the
+                # rest is ordered (stock plus open orders is never bought again)
+                take = min(max(left.get(p, 0), 0), rest * q)
+                left[p] = left.get(p, 0) - take
+                if take:
+                    used[p] = used.get(p, 0) + take
+                if rest * q - take:
+                    adds[p] = adds.get(p, 0) + rest * q - take
         saving = "" if whole is None else f" vs {_money(whole)} whole"
         parts = []
         if stock:
             parts.append(f"{stock} from loose stock already held")
         if rest:
-            parts.append(f"{rest} from loose seals ordered on this plan")
+            held = f" (with {', '.join(f'{u} {p}' for p, u in used.items())} already held)" \
+                if used else ""
+            parts.append(f"{rest} from loose seals ordered on this plan{held}")
         why = (f"assemble {n} from loose seals ({_money(loose)} per kit{saving}): "
                + ", ".join(parts))
         out.append(KitDecision(kit.code, n, "assemble", whole, loose, from_stock=stock,
-                               from_loose=rest, adds=adds, reason=why))
+                               from_loose=rest, adds=adds, reason=why, from_surplus=used))
     return out

@@ -444,6 +444,8 @@ def plan_orders(req: PlanRequest, opt: PlanOptions | None = None) -> Plan:
             kit_units["to_kits"][index[part]] += d.from_stock * q
         for part, units in d.adds.items():
             kit_units["for_kits"][index[part]] += units
+        for part, units in d.from_surplus.items():
+            kit_units["to_kits"][index[part]] += units  # held units that go into kits
         if d.from_loose:
             for part, q in bom[d.kit].lines:
                 use[index[part]] += q * cal.monthly[index[d.kit]]
