@@ -164,6 +164,15 @@ def run() -> None:
         err_console.print("error: interrupted", markup=False)
         sys.exit(130)
     except Exception as exc:  # the unexpected
+        from inventory.core.db import explain  # locked, disk full, permission, connection...
+
+        mapped = explain(exc)
+        if mapped is not None:
+            if debug:
+                traceback.print_exc()
+            line = mapped.lines()[0] + (f" ({mapped.hint})" if mapped.hint else "")
+            err_console.print(f"error: {line}", markup=False, highlight=False, soft_wrap=True)
+            sys.exit(1)
         if isinstance(exc, ValueError) and not debug:
             err_console.print(f"error: {exc}", markup=False, highlight=False, soft_wrap=True)
             sys.exit(1)

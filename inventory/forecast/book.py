@@ -18,7 +18,7 @@ from openpyxl.chart import LineChart, Reference
 from openpyxl.styles import Font
 
 from inventory.forecast.service import ForecastReport, SeriesForecast
-from inventory.sheets.write import SheetSpec, fill_sheet, save_workbook
+from inventory.sheets.write import SheetSpec, fill_sheet, put_cell, save_workbook
 
 CHART_HISTORY = 24  # periods of history shown in a chart
 CHARTS_PER_ROW = 2
@@ -84,26 +84,26 @@ def about_sheet(report: ForecastReport) -> SheetSpec:
 
 def _chart_block(ws, row: int, report: ForecastReport, s: SeriesForecast) -> tuple[int, int]:
     """Write one series' chart data from ``row``; returns (first data row, last data row)."""
-    ws.cell(row, 1, s.code).font = Font(bold=True)
-    ws.cell(row, 2, f"{s.kind}, {s.cls}, {s.label}")
+    put_cell(ws, row, 1, s.code).font = Font(bold=True)
+    put_cell(ws, row, 2, f"{s.kind}, {s.cls}, {s.label}")
     head = ["period", "history", "forecast", f"low {round(100 * report.quantiles[0])} %",
             f"high {round(100 * report.quantiles[1])} %"]
     for c, h in enumerate(head, start=1):
-        ws.cell(row + 1, c, h).font = Font(bold=True)
+        put_cell(ws, row + 1, c, h).font = Font(bold=True)
     hist = list(zip(report.history_periods, s.history, strict=True))[-CHART_HISTORY:]
     r = row + 2
     first = r
     for d, v in hist:
-        ws.cell(r, 1, period_label(report, d)).data_type = "s"
-        ws.cell(r, 2, v)
+        put_cell(ws, r, 1, period_label(report, d))
+        put_cell(ws, r, 2, v)
         r += 1
     if hist:  # join the forecast line to the last actual
-        ws.cell(r - 1, 3, hist[-1][1])
+        put_cell(ws, r - 1, 3, hist[-1][1])
     for j, d in enumerate(report.forecast_periods):
-        ws.cell(r, 1, period_label(report, d)).data_type = "s"
-        ws.cell(r, 3, round(s.forecast[j], 3))
-        ws.cell(r, 4, s.low[j])
-        ws.cell(r, 5, s.high[j])
+        put_cell(ws, r, 1, period_label(report, d))
+        put_cell(ws, r, 3, round(s.forecast[j], 3))
+        put_cell(ws, r, 4, s.low[j])
+        put_cell(ws, r, 5, s.high[j])
         r += 1
     return first, r - 1
 
@@ -112,7 +112,7 @@ def add_charts(wb: Workbook, report: ForecastReport, chosen: Sequence[SeriesFore
     """A ``Chart data`` sheet and a ``Charts`` sheet with one line chart per chosen series."""
     data = wb.create_sheet("Chart data")
     charts = wb.create_sheet("Charts", index=1)
-    charts.cell(1, 1, f"Forecast by {report.by} from {report.today.isoformat()}: history, "
+    put_cell(charts, 1, 1, f"Forecast by {report.by} from {report.today.isoformat()}: history, "
                       f"forecast and the {round(100 * report.quantiles[0])}-"
                       f"{round(100 * report.quantiles[1])} % range").font = Font(bold=True)
     row = 1

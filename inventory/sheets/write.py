@@ -8,6 +8,7 @@ formats. Text that a spreadsheet would take for a formula (starting with ``=``, 
 from __future__ import annotations
 
 import csv
+import errno
 import os
 import re
 import tempfile
@@ -73,8 +74,27 @@ def _cell_value(value: Any) -> Any:
     return value
 
 
+def put_cell(ws, row: int, column: int, value: Any):
+    """Write one cell through the formula guard: text is stored as text (never evaluated,
+    whatever it starts with, shown with a quote prefix when it starts like a formula);
+    Decimal as a number. Every cell this tool fills from data goes through here (or
+    :func:`fill_sheet`, which uses it); only a module's own computed formulas are written
+    directly. Returns the cell."""
+    v = _cell_value(value)
+    cell = ws.cell(row=row, column=column)
+    if isinstance(v, str):
+        cell.value = xml_text(v)
+        cell.data_type = "s"
+        if v.startswith(FORMULA_STARTS):
+            cell.quotePrefix = True
+    else:
+        cell.value = v
+    return cell
+
+
 def fill_sheet(ws, spec: SheetSpec) -> None:
-    ws.append(list(spec.header))
+    for c, h in enumerate(spec.header, start=1):
+        put_cell(ws, 1, c, h)
     for c in ws[1]:
         c.font = Font(bold=True)
         c.fill = HEADER_FILL
@@ -162,13 +182,35 @@ def replacing(path: str | Path) -> Iterator[Path]:
     """Write to the temporary path this yields; on success it replaces ``path`` in one
     rename, on failure it is removed. A reader never sees half a file."""
     path = Path(path)
-    tmp = atomic_path(path)
+    try:
+        tmp = atomic_path(path)
+    except OSError as exc:
+        raise _write_failed(path, exc) from exc
     try:
         yield tmp
         os.replace(tmp, path)
+    except OSError as exc:
+        raise _write_failed(path, exc) from exc
     finally:
-        if tmp.exists():
-            tmp.unlink()
+        try:
+            if tmp.exists():
+                tmp.unlink()
+        except OSError:
+            pass
+
+
+def _write_failed(path: Path, exc: OSError):
+    """A failed write names the file asked for, not the temporary file beside it."""
+    from inventory.core.errors import InventoryError
+
+    why = exc.strerror or type(exc).__name__
+    if exc.errno in (errno.ENOSPC, errno.EDQUOT):
+        return InventoryError(f"disk full: cannot write {path}", kind="disk",
+                              hint="free some space and run the command again")
+    if exc.errno in (errno.EACCES, errno.EPERM, errno.EROFS):
+        return InventoryError(f"permission denied: cannot write {path}", kind="permission",
+                              hint="check the file and folder permissions, or write elsewhere")
+    return InventoryError(f"cannot write {path}: {why}", kind="file")
 
 
 def save_workbook(wb: Workbook, path: str | Path) -> Path:
