@@ -5,10 +5,11 @@ from __future__ import annotations
 
 from typing import Any
 
+from sqlalchemy import func
 from sqlmodel import Session, select
 
 from inventory.core.model import PartKind
-from inventory.core.tables import Part
+from inventory.core.tables import Movement, Part, StockBalance
 from inventory.history.imports.report import Unit
 from inventory.history.imports.steps import Context, per_row, row_units
 from inventory.sheets.kinds import CATALOG
@@ -39,7 +40,49 @@ def build(ctx: Context, typed: TypedRows) -> list[Unit]:
                         hint=f"kinds are {', '.join(PartKind)}")
             u.status = "invalid"
         u.payload = {k: v.get(k) for k in present}
+    if "kind" in present or "unit" in present:
+        _keep_stocked(ctx, units)
     return units
+
+
+def _keep_stocked(ctx: Context, units: list[Unit]) -> None:
+    """A part with stock movements keeps its kind and unit: re-typing an O-ring with 36 on
+    the shelf as oil in ml would change what every movement of it means. The change is an
+    error at its cell, and the row writes nothing."""
+    known = {u.payload["code"]: ctx.index.part(u.payload["code"]) for u in units
+             if u.status == "new" and u.payload.get("code")}
+    ids = [p.id for p in known.values() if p is not None]
+    if not ids:
+        return
+    stocked: dict[int, tuple[str, str, int]] = {}
+    session = ctx.session
+    for i in range(0, len(ids), 500):
+        chunk = ids[i:i + 500]
+        moved = set(session.exec(select(Movement.part_id).where(
+            Movement.part_id.in_(chunk)).distinct()))
+        if not moved:
+            continue
+        held = dict(session.exec(
+            select(StockBalance.part_id, func.coalesce(func.sum(StockBalance.qty), 0))
+            .where(StockBalance.part_id.in_(moved)).group_by(StockBalance.part_id)).all())
+        for pid, kind, unit in session.exec(select(Part.id, Part.kind, Part.unit)
+                                            .where(Part.id.in_(moved))):
+            stocked[pid] = (str(kind), str(unit), int(held.get(pid, 0)))
+    for u in units:
+        part = known.get(u.payload.get("code")) if u.status == "new" else None
+        if part is None or part.id not in stocked:
+            continue
+        kind, unit, on_hand = stocked[part.id]
+        for name, now in (("kind", kind), ("unit", unit)):
+            given = u.payload.get(name)
+            if given is None or str(given) == now:
+                continue
+            ctx.problem(u.rows[0].row, name,
+                        f"part {part.code} has stock movements ({on_hand} {unit} on hand): "
+                        f"{name} {str(given)!r} would change it, expected {now!r}",
+                        kind="conflict", hint="a part with stock keeps its kind and unit: "
+                        "give the new item its own part code")
+            u.status = "invalid"
 
 
 def run(ctx: Context, units: list[Unit]) -> None:

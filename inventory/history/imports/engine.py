@@ -15,11 +15,12 @@ from typing import Any
 
 from sqlmodel import Session, select
 
-from inventory.core.errors import InventoryError, Problem
+from inventory.core.errors import InventoryError, Problem, Source
 from inventory.core.tables import ImportBatch
 from inventory.history.imports import catalog, counts, history, receipts
 from inventory.history.imports.headers import absorb, read_and_map
 from inventory.history.imports.keys import mark_applied, record_keys
+from inventory.history.imports.recorded import mark_recorded
 from inventory.history.imports.report import Event, ImportReport, ImportSettings, Unit
 from inventory.history.imports.steps import Context
 from inventory.history.jobs import CatalogIndex
@@ -34,10 +35,11 @@ class Kind:
 
     build: Callable[[Context, TypedRows], list[Unit]]
     run: Callable[[Context, list[Unit]], None]
+    settle: Callable[[Context, list[Unit]], None] | None = None  # after the key check
 
 
 IMPORTERS: dict[str, Kind] = {
-    "history": Kind(history.build, history.run),
+    "history": Kind(history.build, history.run, mark_recorded),
     "counts": Kind(counts.build, counts.run),
     "receipts": Kind(receipts.build, receipts.run),
     "catalog": Kind(catalog.build, catalog.run),
@@ -100,11 +102,21 @@ def _run(session: Session, path: Path, settings: ImportSettings, *, apply: bool,
                       date_order=settings.date_order, date1904=sheet.date1904,
                       earliest=settings.earliest, latest=today, skip_cells=skip)
     absorb(rep, typed)
+    if not typed.read:
+        t = sheet.table
+        where = f"sheet {t.sheet!r}" if t.sheet else "the file"
+        rep.problems.append(Problem(
+            f"{where} has a header row (row {t.header_row}) but no data rows",
+            kind="empty", source=Source(t.file, t.sheet),
+            hint="fill in the rows below the header, or export the sheet that holds them"))
+        return _finish(session, rep, [], apply)
     ctx = Context(session, settings, sheet, hmap, rep, CatalogIndex(session), path,
                   events=events)
     importer = IMPORTERS[settings.kind]
     units = importer.build(ctx, typed)
     mark_applied(session, settings.kind, units)
+    if importer.settle is not None:
+        importer.settle(ctx, units)
     rep.previous = [
         {"batch": b.id, "applied_at": b.applied_at.isoformat(), "rows": b.rows}
         for b in session.exec(select(ImportBatch).where(

@@ -9,11 +9,8 @@ from datetime import date
 from operator import itemgetter
 from typing import Any
 
-from sqlmodel import select
-
 from inventory.core.errors import InventoryError, Problem, Source
 from inventory.core.model import PartKind
-from inventory.core.tables import ForkFamily, ServiceJob
 from inventory.history.imports.forks import remember_aliases, resolve_forks
 from inventory.history.imports.keys import occurrence_keys
 from inventory.history.imports.report import Event, Unit
@@ -23,7 +20,6 @@ from inventory.history.jobs import (
     JobSpec,
     JobWriter,
     StockBook,
-    existing_refs,
     fork_key,
 )
 from inventory.sheets.kinds import CODE_HINT
@@ -168,7 +164,6 @@ def _show(v: Any) -> str:
 def run(ctx: Context, units: list[Unit]) -> None:
     session, rep = ctx.session, ctx.report
     apply, batch_id, events = ctx.apply, ctx.batch_id, ctx.events
-    _mark_recorded(ctx, units)
     pending = [u for u in units if u.status in ("new", "review") and u.payload is not None]
     if apply:
         remember_aliases(ctx)
@@ -232,34 +227,3 @@ def run(ctx: Context, units: list[Unit]) -> None:
     if apply and not rep.problems:
         writer.finish()
         usage_only.finish()
-
-
-def _mark_recorded(ctx: Context, units: list[Unit]) -> None:
-    """Jobs whose reference is already recorded: the same job (same day and service, and
-    the same fork family when known) counts as already applied, another is a conflict."""
-    refs = [u.payload.ref for u in units if u.status in ("new", "review") and u.payload]
-    taken = existing_refs(ctx.session, refs)
-    if not taken:
-        return
-    recorded: dict[str, tuple] = {}
-    chunk = sorted(taken)
-    for i in range(0, len(chunk), 500):
-        for ref, day, code, service in ctx.session.exec(
-                select(ServiceJob.ref, ServiceJob.day, ForkFamily.code, ServiceJob.service_level)
-                .join(ForkFamily, ForkFamily.id == ServiceJob.fork_family_id)
-                .where(ServiceJob.ref.in_(chunk[i:i + 500]))):
-            recorded[ref] = (day, code, service)
-    for u in units:
-        if u.status not in ("new", "review") or not u.payload or u.payload.ref not in taken:
-            continue
-        day, code, service = recorded[u.payload.ref]
-        spec = u.payload
-        if spec.day == day and str(spec.service) == service and spec.fork in ("", code):
-            u.status = "applied"
-            continue
-        u.status = "invalid"
-        ctx.problem(u.rows[0].row, "job",
-                    f"job {spec.ref} is already recorded as {day.isoformat()} {code} {service}",
-                    kind="conflict", hint="a job is imported once: give a corrected job a "
-                    "new reference")
-
