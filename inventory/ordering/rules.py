@@ -202,4 +202,60 @@ def greedy_budget(
             continue
         left -= price
         taken[i] += 1
+    # the greedy can be far off when a large first increment (a supplier's minimum) does
+    # not fit: a knapsack over the lines' prefixes checks it and wins when it fills more
+    exact = _prefix_knapsack(ln, [int(x) for x in cost], g, int(budget), closed_from=blocked)
+    if exact is not None and _gain(ln, g, exact) > _gain(ln, g, taken) + 1e-12:
+        return exact
     return taken
+
+
+def _gain(ln: NDArray[np.int64], g: NDArray[np.float64], taken: NDArray[np.int64]) -> float:
+    seq = np.arange(ln.size) - np.searchsorted(ln, ln)
+    return float(g[seq < taken[ln]].sum())
+
+
+def _prefix_knapsack(ln: NDArray[np.int64], cost: list[int], g: NDArray[np.float64],
+                     budget: int, *, closed_from: ArrayLike | None, cells: int = 20_000
+                     ) -> NDArray[np.int64] | None:
+    """Best number of increments per line (each line a prefix of its increments) within
+    the budget, by dynamic programming over the budget (multiple-choice knapsack, e.g.
+    Kellerer, Pferschy and Pisinger 2004, ch. 11). Costs are counted in ``budget / cells``
+    steps rounded UP when the budget is larger than ``cells`` units, so the answer never
+    exceeds the budget (and may leave a little unspent). Lines must be sorted."""
+    if ln.size == 0 or budget <= 0 or np.any(np.diff(ln) < 0):
+        return None
+    n_lines = int(ln.max()) + 1
+    step = max(1, -(-budget // cells))
+    cap = budget // step
+    blocked = set() if closed_from is None else {int(x) for x in np.asarray(closed_from)}
+    dp = np.full(cap + 1, 0.0)
+    choice = np.zeros((n_lines, cap + 1), dtype=np.int32)
+    starts = np.searchsorted(ln, np.arange(n_lines))
+    ends = np.searchsorted(ln, np.arange(n_lines), side="right")
+    for i in range(n_lines):
+        if i in blocked or starts[i] == ends[i]:
+            continue
+        best = dp.copy()
+        c_cum = 0
+        g_cum = 0.0
+        for m, k in enumerate(range(starts[i], ends[i]), start=1):
+            c_cum += cost[k]
+            g_cum += max(float(g[k]), 0.0)
+            units = -(-c_cum // step)
+            if units > cap:
+                break
+            cand = np.full(cap + 1, -np.inf)
+            cand[units:] = dp[: cap + 1 - units] + g_cum
+            better = cand > best + 1e-12
+            best = np.where(better, cand, best)
+            choice[i, better] = m
+        dp = best
+    out = np.zeros(n_lines, dtype=np.int64)
+    b = cap
+    for i in range(n_lines - 1, -1, -1):
+        m = int(choice[i, b])
+        out[i] = m
+        if m:
+            b -= -(-sum(cost[starts[i]: starts[i] + m]) // step)
+    return out
