@@ -18,6 +18,7 @@ from inventory.cli import (
     forecast_cmd,
     io_cmd,
     jobs_cmd,
+    month_cmd,
     plan_cmd,
     report_cmd,
     stock,
@@ -86,6 +87,7 @@ app.command("template")(io_cmd.template)
 forecast_cmd.register(app)  # forecast, backtest
 plan_cmd.register(app)  # plan, order
 app.add_typer(report_cmd.app, name="report")
+app.add_typer(month_cmd.app, name="month")
 users_cmd.register(app)  # user add/list/disable, serve
 
 

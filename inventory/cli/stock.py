@@ -9,7 +9,7 @@ import typer
 
 from inventory.cli import options
 from inventory.cli.common import print_json, print_table, reading, say, unit_of_work
-from inventory.stock import ledger
+from inventory.stock import allocation, ledger, returns
 
 SIGNED = {"ignore_unknown_options": True}  # lets "-2" through as a quantity
 
@@ -83,12 +83,72 @@ def issue(ctx: typer.Context,
           job: str = typer.Option(None, "--job", help="Job reference the parts went to."),
           location: str = typer.Option(None, "--location", help="Only from this location."),
           day: str = typer.Option(None, "--date", help="Booking date (default today)."),
+          inspected: bool = typer.Option(
+              False, "--inspected",
+              help="Lots past their ISO 2230 storage limit were inspected and passed: use them "
+                   "(the extension is recorded on the lot)."),
           ) -> None:
-    """Take stock out, oldest cure quarter first."""
+    """Take stock out, oldest cure quarter first, from what was on hand on the booking date;
+    lots past their storage limit are skipped unless --inspected."""
     qty, job = options.quantity(qty, "QTY"), options.code(job, "--job", "job")
     with unit_of_work(ctx) as s:
-        _report(ledger.issue(s, part, qty, location=location, reference=job, ts=when(day)),
-                "issued", part)
+        moves = ledger.issue(s, part, qty, location=location, reference=job, ts=when(day),
+                             inspected=inspected)
+        notes = allocation.notes(s)
+    _report(moves, "issued", part)
+    _notes(notes)
+
+
+def _notes(notes: list[str]) -> None:
+    for line in notes:
+        say(f"note: {line}")
+    if any("storage limit" in n for n in notes):
+        say("caution: rubber past its storage limit must pass inspection before it is fitted; "
+            "for seals in pressurised air springs follow the maker's service data")
+
+
+@app.command(context_settings=SIGNED)
+def reverse(ctx: typer.Context,
+            movement: int = typer.Argument(..., help="Id of the movement booked by mistake."),
+            reason: str = typer.Option(..., "--reason", help="Why it is reversed (recorded)."),
+            day: str = typer.Option(None, "--date", help="Booking date (default today)."),
+            ) -> None:
+    """Reverse a movement booked by mistake with a new movement that points at it."""
+    with unit_of_work(ctx) as s:
+        mv = returns.reverse(s, movement, reason=reason, ts=when(day))
+    say(f"reversed movement {movement}: {mv.qty:+d} booked as movement {mv.id}")
+
+
+@app.command("return", context_settings=SIGNED)
+def return_(ctx: typer.Context,
+            part: str = typer.Argument(..., help="Part code."),
+            qty: int = typer.Argument(..., help="Unused units coming back."),
+            job: str = typer.Option(..., "--job", help="Job reference the parts went to."),
+            day: str = typer.Option(None, "--date", help="Booking date (default today)."),
+            ) -> None:
+    """Put unused parts from a job back into the lots they came from (net usage drops)."""
+    qty, job = options.quantity(qty, "QTY"), options.code(job, "--job", "job")
+    with unit_of_work(ctx) as s:
+        got = returns.return_from_job(s, job, part, qty, ts=when(day))
+    _report(got.movements, "returned", part)
+    if got.note:
+        say(f"note: {got.note}")
+
+
+@app.command("void-job")
+def void_job(ctx: typer.Context,
+             job: str = typer.Argument(..., help="Job reference."),
+             reason: str = typer.Option(..., "--reason", help="Why the job is voided (recorded)."),
+             day: str = typer.Option(None, "--date", help="Booking date (default today)."),
+             ) -> None:
+    """Void a job: everything it took (less returns) goes back with new movements."""
+    job = options.code(job, "JOB", "job")
+    with unit_of_work(ctx) as s:
+        got = returns.void_job(s, job, reason=reason, ts=when(day))
+    say(f"voided job {job}: {sum(m.qty for m in got.movements)} unit(s) back in "
+        f"{len(got.movements)} movement(s)")
+    if got.note:
+        say(f"note: {got.note}")
 
 
 @app.command(context_settings=SIGNED)

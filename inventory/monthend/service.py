@@ -39,6 +39,10 @@ def write_month_end(session: Session, month: str | Month, *, today: date,
     asked for; nothing is written when the report cannot be built."""
     report = month_report(session, month, today=today, method=method, reorder=reorder,
                           **options)
+    if method == "fifo":  # a closed month's ledger totals are those stored at its close
+        from inventory.monthend.closing import verify
+
+        verify(session, report)
     x = write_month_workbook(xlsx, report) if xlsx else None
     h = write_month_html(html, report) if html else None
     return MonthEndFiles(report, x, h)

@@ -142,3 +142,28 @@ def free_on(session: Session, part: Part, day: date) -> int:
     if not later:
         return sum(balances.values())
     return sum(s.free for k, s in timeline.window(balances, later, day).items() if k in balances)
+
+
+def check_lot(session: Session, part: Part, location: Location, lot: Lot, qty: int,
+              day: date) -> None:
+    """Refuse taking ``qty`` from one named lot and location on ``day`` when the lot did not
+    hold it then or a later day's balance would go below zero."""
+    from sqlalchemy import select
+
+    q = select(StockBalance.qty).where(StockBalance.part_id == part.id,
+                                       StockBalance.location_id == location.id,
+                                       StockBalance.lot_id == lot.id)
+    if session.get_bind().dialect.name == "postgresql":
+        q = q.with_for_update()
+    bal = session.execute(q).scalar() or 0
+    later = timeline.later_movements(session, part.id, day, location_id=location.id)
+    later = [m for m in later if m[2] == lot.id]
+    slot = timeline.window({(location.id, lot.id): int(bal)}, later, day)[(location.id, lot.id)]
+    if slot.free >= qty:
+        return
+    tail = (f", and later bookings leave {slot.free} free (it falls to that on {slot.low_day})"
+            if slot.low_day is not None and slot.at_day >= qty else "")
+    raise InventoryError(
+        f"not enough stock of {part.code} in lot {lot.code} at {location.code} on "
+        f"{day.isoformat()}: asked {qty}, the lot held {max(slot.at_day, 0)} then{tail}",
+        kind="shortage", hint="book it on a later date, or correct the later booking first")

@@ -62,46 +62,51 @@ def closed_months(session: Session) -> frozenset[str]:
     return cached
 
 
-def first_open(session: Session, month: str) -> str:
+def closed_through(session: Session) -> str | None:
+    """The latest closed month: the books are closed up to its last day (a movement dated
+    in an earlier month would change the closed month's opening and closing too)."""
     closed = closed_months(session)
-    while month in closed:
-        month = next_label(month)
-    return month
+    return max(closed) if closed else None
+
+
+def first_open(session: Session) -> str | None:
+    through = closed_through(session)
+    return next_label(through) if through else None
 
 
 def refuse_if_closed(session: Session, ts: datetime | date) -> None:
-    """Raise when ``ts`` falls in a closed month, naming the first open month to use."""
-    closed = closed_months(session)
-    if not closed:
+    """Raise when ``ts`` falls in the closed books, naming the first open month to use."""
+    through = closed_through(session)
+    if through is None:
         return
     day = ts if not isinstance(ts, datetime) else day_of(ts)
     month = label(day)
-    if month in closed:
+    if month <= through:
+        why = "is closed" if month == through else f"is closed (the books are closed through {through})"
         raise InventoryError(
-            f"{month} is closed: a movement dated {day.isoformat()} cannot be booked in it; "
-            f"book the correction in {first_open(session, month)}, the first open month",
-            kind="closed")
+            f"{month} {why}: nothing dated {day.isoformat()} can be booked; book the "
+            f"correction in {next_label(through)}, the first open month", kind="closed")
 
 
 def refuse_days_if_closed(session: Session, days) -> None:
     """:func:`refuse_if_closed` for many days at once (the bulk writers)."""
-    closed = closed_months(session)
-    if not closed:
+    if closed_through(session) is None:
         return
-    for day in sorted(set(days)):
-        if label(day) in closed:
-            refuse_if_closed(session, day)
+    for day in sorted(set(days))[:1]:
+        refuse_if_closed(session, day)
 
 
 def is_closed(session: Session, month: str) -> bool:
-    return parse_month(month) in closed_months(session)
+    through = closed_through(session)
+    return through is not None and parse_month(month) <= through
 
 
 def record_close(session: Session, month: str, totals: dict, *, user: str,
                  today: date, ts: datetime | None = None) -> MonthClose:
     month = parse_month(month)
-    if month in closed_months(session):
-        raise InventoryError(f"{month} is already closed", kind="conflict")
+    if is_closed(session, month):
+        raise InventoryError(f"{month} is already closed (the books are closed through "
+                             f"{closed_through(session)})", kind="conflict")
     if first_day(next_label(month)) > today:
         raise InventoryError(f"{month} is not over yet: a month is closed after its last day",
                              kind="invalid")
@@ -118,8 +123,12 @@ def record_reopen(session: Session, month: str, reason: str, *, user: str,
     month = parse_month(month)
     if not reason or not reason.strip():
         raise InventoryError("reopening a month needs a reason", hint="add --reason TEXT")
+    through = closed_through(session)
     if month not in closed_months(session):
         raise InventoryError(f"{month} is not closed", kind="conflict")
+    if month != through:
+        raise InventoryError(f"only the latest closed month, {through}, can be reopened",
+                             kind="conflict", hint=f"reopen {through} first")
     act = MonthClose(month=month, action="reopen", ts=ts or datetime.now(UTC), user=user,
                      reason=reason.strip()[:200], totals="")
     session.add(act)
