@@ -14,6 +14,7 @@ import typer
 
 from inventory.cli import (
     bench_cmd,
+    books_cmd,
     catalog_cmd,
     forecast_cmd,
     io_cmd,
@@ -88,6 +89,7 @@ forecast_cmd.register(app)  # forecast, backtest
 plan_cmd.register(app)  # plan, order
 app.add_typer(report_cmd.app, name="report")
 app.add_typer(month_cmd.app, name="month")
+books_cmd.register(app)  # check, backup
 users_cmd.register(app)  # user add/list/disable, serve
 
 

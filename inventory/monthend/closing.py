@@ -79,3 +79,17 @@ def verify(session: Session, report: MonthReport) -> dict[str, str] | None:
 def acts(session: Session) -> list[dict]:
     return [{"month": a.month, "action": a.action, "ts": a.ts, "user": a.user,
              "reason": a.reason} for a in months.history(session)]
+
+
+def verify_closed(session: Session, *, today: date) -> list[str]:
+    """For ``inventory check``: one line per closed month whose report no longer gives the
+    totals stored at its close."""
+    out = []
+    for month, act in sorted(months.latest_acts(session).items()):
+        if act.action != "close":
+            continue
+        try:
+            verify(session, month_report(session, parse_month(month, today=today), today=today))
+        except InventoryError as exc:
+            out.append(str(exc.problems[0]))
+    return out
