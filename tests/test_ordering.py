@@ -494,6 +494,11 @@ def test_kit_mode_cheaper_never_reorders_a_seal_the_shelf_covers():
     assert by["FOAM"].for_kits == 0 and by["FOAM"].qty == 0
     assert by["FOAM"].to_kits == 2 * d.need
     assert "already held" in d.reason
+    from inventory.ordering.text import short_reason
+
+    wiper = short_reason(by["WIPER"])
+    assert f"+{2 * d.need} for kits" in wiper and "level 0 for" in wiper
+    assert f"(-{2 * d.need} into kits)" in short_reason(by["FOAM"])
     # with only 3 foam rings on the shelf, 2 x need - 3 are ordered, never more
     small = kit_request("50.00", wiper_on_hand=0)
     stock = dict(small.stock)

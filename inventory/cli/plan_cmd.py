@@ -102,11 +102,13 @@ def plan(ctx: typer.Context,
 
 
 def _render(result) -> None:
+    from inventory.ordering.text import short_reason
+
     for o in result.orders:
         rows = [[ln.part, ln.qty, f"{ln.packs} x {ln.pack_size}", f"{ln.unit_cost}",
-                 f"{ln.value:,.2f}", ", ".join(ln.caps)] for ln in o.lines]
+                 f"{ln.value:,.2f}", short_reason(ln)] for ln in o.lines]
         print_table(f"{o.supplier}: order by {o.order_by}, delivery about {o.arrival}",
-                    ["part", "qty", "packs", "unit cost", "value", "caps"], rows,
+                    ["part", "qty", "packs", "unit cost", "value", "why"], rows,
                     right=("qty", "unit cost", "value"),
                     caption=f"total {o.total:,.2f} {o.currency}"
                             + (f"; {o.note}" if o.note else ""))

@@ -96,3 +96,23 @@ def line_sentence(
         else:
             parts.append("nothing ordered")
     return "; ".join(parts) + "."
+
+
+def short_reason(line) -> str:  # noqa: ANN001  (a PlanLine; the model imports this module)
+    """The console's few words on a plan line: what the level asks for, what the shelf and
+    the kits change, and what the caps, the supplier minimum and the budget did."""
+    parts = [f"level {_n(line.level)} for {_pct(line.fill_target)}, "
+             f"have {line.position}" + (f" (-{line.to_kits} into kits)" if line.to_kits else "")]
+    if line.raw_need > 0:
+        parts.append(f"short {line.raw_need}")
+    if line.assembled:
+        parts.append(f"{line.assembled} assembled from seals")
+    if line.for_kits:
+        parts.append(f"+{line.for_kits} for kits")
+    if line.rounded > max(line.raw_need - line.assembled, 0) + line.for_kits:
+        parts.append(f"packs/minimum -> {line.rounded}")
+    if line.topped_up:
+        parts.append(f"+{line.topped_up} to the supplier's minimum")
+    if line.budget_cut:
+        parts.append(f"-{line.budget_cut} by the budget")
+    return "; ".join(parts)
