@@ -1,0 +1,250 @@
+"""Route tests of the web app (Starlette's test client over httpx): every page and API call
+logged out -> sign-in, wrong role -> 403 and nothing written, missing CSRF -> refused and
+nothing written, bad input -> the message beside its field; the API gives the CLI's JSON."""
+
+from __future__ import annotations
+
+import json
+import re
+
+import pytest
+from sqlmodel import Session, func, select
+
+from inventory.core.db import transaction
+from inventory.core.tables import Movement, ServiceJob
+from inventory.people.service import add_person
+from inventory.stock import ledger
+from tests.conftest import inv
+
+PAGES = ["/bench", "/bench?id=24.99&cs=3.53", "/bench/part/OR-214", "/stock", "/jobs",
+         "/plan", "/month-end", "/imports"]
+API = ["/api/match?id=24.99&cs=3.53", "/api/stock", "/api/jobs", "/api/plan",
+       "/api/parts/OR-214/fit", "/api/me"]
+PASSWORD = "a-long-password"
+
+
+@pytest.fixture
+def web(store, tmp_path, monkeypatch):
+    from starlette.testclient import TestClient
+
+    from inventory.web.app import create_app
+
+    with transaction(store) as s:
+        for name, role in (("sam", "technician"), ("ana", "manager"), ("lee", "admin")):
+            add_person(s, name, role, PASSWORD)
+        ledger.receive(s, "OR-214", 3, "0.25", cured="2026Q1", user="setup")
+    url = store.url.render_as_string(hide_password=False)
+    app = create_app(url, secret="test-secret-" + "x" * 20)
+
+    def client(name: str | None = None) -> TestClient:
+        c = TestClient(app, follow_redirects=False)
+        if name:
+            tok = csrf(c.get("/login"))
+            r = c.post("/login", data={"csrf": tok, "name": name, "password": PASSWORD})
+            assert r.status_code == 303, r.text
+        return c
+    client.store = store
+    client.url = url
+    return client
+
+
+def csrf(response) -> str:
+    return re.search(r'name="csrf" value="([^"]+)"', response.text).group(1)
+
+
+def movements(store) -> int:
+    with Session(store) as s:
+        return s.exec(select(func.count()).select_from(Movement)).one()
+
+
+def error_at(html: str, field_id: str) -> str:
+    """The message shown beside the input with this id (the page puts it right after)."""
+    m = re.search(rf'id="{re.escape(field_id)}-error"[^>]*>([^<]+)<', html)
+    assert m, f"no error beside {field_id}"
+    return m.group(1)
+
+
+def test_logged_out_gets_the_sign_in_page_or_401(web):
+    c = web()
+    for path in PAGES:
+        r = c.get(path)
+        assert r.status_code == 303 and r.headers["location"].startswith("/login?next="), path
+    for path in API:
+        assert c.get(path).status_code == 401, path
+    assert c.get("/login").status_code == 200
+    # posts are refused before anything is read
+    n = movements(web.store)
+    for path in ("/stock/issue", "/bench/use", "/jobs", "/plan/orders", "/month-end/close"):
+        assert c.post(path, data={"part": "OR-214", "qty": "1"}).status_code in (303, 403)
+    assert movements(web.store) == n
+
+
+def test_session_cookie_is_signed_httponly_samesite(web):
+    c = web()
+    tok = csrf(c.get("/login"))
+    r = c.post("/login", data={"csrf": tok, "name": "sam", "password": PASSWORD})
+    cookie = r.headers["set-cookie"].lower()
+    assert "httponly" in cookie and "samesite=lax" in cookie
+    assert PASSWORD not in r.headers["set-cookie"]
+    # a tampered cookie is not accepted (itsdangerous signature)
+    bad = web()
+    bad.cookies.set("inventory_session", r.cookies["inventory_session"][:-3] + "AAA")
+    assert bad.get("/bench").status_code == 303
+
+
+def test_wrong_role_is_403_and_nothing_written(web):
+    tech = web("sam")
+    for path in ("/plan", "/month-end", "/imports", "/api/plan"):
+        assert tech.get(path).status_code == 403, path
+    n = movements(web.store)
+    page = tech.get("/stock")
+    r = tech.post("/stock/receive", data={"csrf": csrf(page), "part": "OR-214", "qty": "5"})
+    assert r.status_code == 403 and "may not" in r.text
+    r = tech.post("/stock/adjust", data={"csrf": csrf(page), "part": "OR-214", "qty": "-1",
+                                         "reason": "lost"})
+    assert r.status_code == 403
+    assert movements(web.store) == n
+    for path in PAGES[:5]:  # a technician's own pages
+        assert tech.get(path).status_code in (200, 404), path
+
+
+def test_missing_or_wrong_csrf_is_refused_and_nothing_written(web):
+    ana = web("ana")
+    n = movements(web.store)
+    r = ana.post("/stock/issue", data={"part": "OR-214", "qty": "1"})
+    assert r.status_code == 403 and "nothing was saved" in r.text
+    r = ana.post("/stock/issue", data={"csrf": "forged", "part": "OR-214", "qty": "1"})
+    assert r.status_code == 403
+    r = ana.post("/bench/use", data={"part": "OR-214", "qty": "1", "fork": "XC-32",
+                                     "service": "lower_leg"})
+    assert r.status_code == 403
+    assert movements(web.store) == n
+    with Session(web.store) as s:
+        assert s.exec(select(func.count()).select_from(ServiceJob)).one() == 0
+
+
+def test_bad_input_comes_back_at_its_field(web):
+    ana = web("ana")
+    tok = csrf(ana.get("/stock"))
+    n = movements(web.store)
+    r = ana.post("/stock/issue", data={"csrf": tok, "part": "OR-214", "qty": "two"})
+    assert r.status_code == 400
+    assert "whole number" in error_at(r.text, "issue-qty")
+    r = ana.post("/stock/issue", data={"csrf": tok, "part": "OR-999", "qty": "1"})
+    assert r.status_code == 400 and "OR-999" in error_at(r.text, "issue-part")
+    r = ana.post("/stock/issue", data={"csrf": tok, "part": "OR-214", "qty": "50"})
+    assert r.status_code == 400 and error_at(r.text, "issue-qty")
+    r = ana.post("/stock/adjust", data={"csrf": tok, "part": "OR-214", "qty": "-1",
+                                        "reason": ""})
+    assert r.status_code == 400 and "reason" in error_at(r.text, "adjust-reason")
+    assert movements(web.store) == n
+    # bench: the CLI's parsing and hints, beside the reading typed
+    r = ana.get("/bench?id=24.99&cs=35")
+    assert r.status_code == 400 and "cross-section" in error_at(r.text, "cs")
+    r = ana.get("/bench?id=abc")
+    assert r.status_code == 400 and error_at(r.text, "id")
+
+
+def test_unknown_page_is_404(web):
+    assert web("sam").get("/no-such-page").status_code == 404
+    assert web("sam").get("/jobs/J-NOPE").status_code == 404
+
+
+def test_expired_session_goes_to_sign_in(web, monkeypatch):
+    from inventory.web import auth
+
+    sam = web("sam")
+    assert sam.get("/bench").status_code == 200
+    monkeypatch.setattr(auth, "IDLE_SECONDS", -1)
+    r = sam.get("/bench")
+    assert r.status_code == 303 and "expired=1" in r.headers["location"]
+
+
+def test_sign_in_is_throttled(web):
+    c = web()
+    for _ in range(5):
+        r = c.post("/login", data={"csrf": csrf(c.get("/login")), "name": "sam",
+                                   "password": "wrong-password"})
+        assert r.status_code == 401 and "wrong name or password" in r.text
+    r = c.post("/login", data={"csrf": csrf(c.get("/login")), "name": "sam",
+                               "password": PASSWORD})
+    assert r.status_code == 401 and "too many failed sign-ins" in r.text
+
+
+def test_api_match_equals_the_cli_json(web, monkeypatch, capsys):
+    sam = web("sam")
+    api = sam.get("/api/match?id=24.99&cs=3.53").json()
+    code, out, err = inv(monkeypatch, capsys, "--db", web.url, "match", "--id", "24.99",
+                         "--cs", "3.53", "--json")
+    assert code == 0, err
+    cli = json.loads(out)
+    assert api["candidates"] == cli["candidates"]
+    assert api == cli
+    # AS568 dash number 214 is 24.99 x 3.53 mm (AS568 table): the shop's OR-214 ranks first
+    assert api["candidates"][0]["part"] == "OR-214"
+    assert api["candidates"][0]["on_hand"] == 3
+    assert api["caution"]
+    bad = sam.get("/api/match?id=24.99&cs=35")
+    assert bad.status_code == 400 and bad.json()["field"] == "cs"
+
+
+def test_api_stock_equals_the_cli_json(web, monkeypatch, capsys):
+    api = web("sam").get("/api/stock?by_lot=1").json()
+    code, out, err = inv(monkeypatch, capsys, "--db", web.url, "stock", "on-hand",
+                         "--by-lot", "--json")
+    assert code == 0, err
+    assert api == json.loads(out)
+
+
+def test_openapi_is_served(web):
+    doc = web().get("/api/openapi.json").json()
+    assert doc["openapi"].startswith("3.") and "/api/match" in doc["paths"]
+
+
+def test_use_on_job_books_as_the_person_signed_in(web):
+    sam = web("sam")
+    page = sam.get("/bench?id=24.99&cs=3.53")
+    assert "Caution" in page.text and "Use on a new job" in page.text
+    r = sam.post("/bench/use", data={"csrf": csrf(page), "part": "OR-214", "qty": "2",
+                                     "fork": "XC-32", "service": "lower_leg",
+                                     "back": "/bench?id=24.99&cs=3.53"})
+    assert r.status_code == 303 and "booked=" in r.headers["location"]
+    with Session(web.store) as s:
+        moves = s.exec(select(Movement).where(Movement.kind == "issue")).all()
+        assert [(m.qty, m.user) for m in moves] == [(-2, "sam")]
+        assert s.exec(select(func.count()).select_from(ServiceJob)).one() == 1
+    # one left: asking for two is refused at the quantity, nothing written
+    n = movements(web.store)
+    r = sam.post("/bench/use", data={"csrf": csrf(page), "part": "OR-214", "qty": "2",
+                                     "fork": "XC-32", "service": "lower_leg",
+                                     "back": "/bench?id=24.99&cs=3.53"})
+    assert r.status_code == 400
+    assert "Not booked: not enough stock of OR-214" in r.text
+    assert movements(web.store) == n
+    r = sam.post("/bench/use", data={"csrf": csrf(page), "part": "OR-214", "qty": "1",
+                                     "fork": "", "service": "lower_leg"})
+    assert r.status_code == 400 and "fork family" in r.text
+
+
+def test_manager_pages_and_writes(web):
+    ana = web("ana")
+    for path in PAGES + API:
+        if path != "/api/plan":  # the plan needs issue history (see the demo journey)
+            assert ana.get(path).status_code == 200, path
+    tok = csrf(ana.get("/stock"))
+    r = ana.post("/stock/receive", data={"csrf": tok, "part": "WP-32", "qty": "4",
+                                         "cost": "6.50", "cured": "2026Q2",
+                                         "location": "MAIN"})
+    assert r.status_code == 303
+    r = ana.post("/stock/move", data={"csrf": tok, "part": "WP-32", "qty": "1",
+                                      "from": "MAIN", "to": "BENCH"})
+    assert r.status_code == 303
+    r = ana.post("/stock/count", data={"csrf": tok, "part": "WP-32", "qty": "2",
+                                       "location": "MAIN"})
+    assert r.status_code == 303 and "variance" in r.headers["location"]
+    lines = ana.get("/api/stock?part=WP-32").json()
+    assert {ln["location"]: ln["on_hand"] for ln in lines} == {"MAIN": 2, "BENCH": 1}
+    with Session(web.store) as s:
+        users = set(s.exec(select(Movement.user).where(Movement.part_id != 1)))
+    assert "ana" in users
+    assert web("lee").get("/plan").status_code == 200  # admin has the manager's rights
