@@ -17,6 +17,7 @@ value too long) into one :class:`InventoryError` line naming the file, table or 
 from __future__ import annotations
 
 import errno
+import functools
 import os
 import random
 import re
@@ -170,6 +171,39 @@ def run_transaction(engine: Engine, work: Callable[[Session], T], *,
                     kind="busy", hint=BUSY_HINT) from exc
             time.sleep(random.uniform(0.01, 0.05) * attempt)
     raise AssertionError("unreachable")  # pragma: no cover
+
+
+def retry_deadlocks(fn: Callable[..., T]) -> Callable[..., T]:
+    """Decorate a ledger operation ``fn(session, ...)``: on PostgreSQL it runs inside a
+    savepoint, and when the database picks it as a deadlock victim (or reports a
+    serialisation failure) the savepoint is rolled back, releasing the locks the operation
+    took, and the operation runs again, at most :data:`DEFAULT_ATTEMPTS` times in all. The
+    caller's transaction and everything it did before stay as they were. On SQLite (writers
+    serialised by ``BEGIN IMMEDIATE``) the operation runs as it is."""
+
+    @functools.wraps(fn)
+    def wrapper(session: Session, *args, **kwargs):
+        if session.get_bind().dialect.name != "postgresql" or session.in_nested_transaction():
+            return fn(session, *args, **kwargs)
+        for attempt in range(1, DEFAULT_ATTEMPTS + 1):
+            savepoint = session.begin_nested()
+            try:
+                out = fn(session, *args, **kwargs)
+            except sa_exc.DBAPIError as exc:
+                savepoint.rollback()
+                if not _retryable(exc) or attempt == DEFAULT_ATTEMPTS:
+                    raise
+                time.sleep(random.uniform(0.01, 0.05) * attempt)
+                continue
+            except BaseException:
+                if savepoint.is_active:
+                    savepoint.rollback()
+                raise
+            savepoint.commit()
+            return out
+        raise AssertionError("unreachable")  # pragma: no cover
+
+    return wrapper
 
 
 def _sqlstate(exc: BaseException) -> str | None:

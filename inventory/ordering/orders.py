@@ -35,6 +35,7 @@ from sqlalchemy.dialects.sqlite import insert as sqlite_insert
 from sqlmodel import Session, select
 
 from inventory.core import lookup
+from inventory.core.db import retry_deadlocks
 from inventory.core.errors import InventoryError, Problem
 from inventory.core.tables import (
     ImportBatch,
@@ -257,6 +258,7 @@ def find_order(session: Session, ref: str) -> PurchaseOrder:
     return po
 
 
+@retry_deadlocks
 def receive_against_order(
     session: Session, ref: str, part_code: str, qty: int, *,
     tolerance: float = DEFAULT_TOLERANCE, unit_cost: Decimal | None = None,

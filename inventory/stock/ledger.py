@@ -27,6 +27,7 @@ from sqlmodel import Session, select
 
 from inventory.core import lookup
 from inventory.core.cure import parse_quarter, quarter_start
+from inventory.core.db import retry_deadlocks
 from inventory.core.errors import InventoryError
 from inventory.core.tables import Location, Lot, Movement, Part, StockBalance, SupplierItem
 from inventory.stock import allocation, months, timeline
@@ -172,6 +173,7 @@ def _allocate(session: Session, part: Part, qty: int, location: Location | None,
     return [Take(p.balance.id, p.location, p.lot, p.qty) for p in picks]
 
 
+@retry_deadlocks
 def receive(session: Session, part_code: str, qty: int, unit_cost: Decimal | str | None = None, *,
             lot: str | None = None, cured: str | None = None, location: str = DEFAULT_LOCATION,
             received: date | None = None, ts: datetime | None = None,
@@ -241,6 +243,7 @@ def _cost(session: Session, part: Part, unit_cost) -> Decimal:
     raise InventoryError(f"no cost known for {part.code}", hint="give --cost")
 
 
+@retry_deadlocks
 def issue(session: Session, part_code: str, qty: int, *, location: str | None = None,
           reference: str | None = None, ts: datetime | None = None, user: str | None = None,
           kind: str = "issue", reason: str | None = None,
@@ -278,6 +281,7 @@ def _add_to_newest_lot(session, part, loc, qty, *, kind, ts, reason, user, unit_
                    reason=reason, user=user, reference=reference, batch_id=batch_id)
 
 
+@retry_deadlocks
 def adjust(session: Session, part_code: str, qty: int, *, reason: str,
            location: str = DEFAULT_LOCATION, ts: datetime | None = None,
            user: str | None = None, unit_cost=None) -> list[Movement]:
@@ -303,6 +307,7 @@ def on_hand_at(session: Session, part: Part, location: Location | None = None) -
     return int(session.exec(q).one())
 
 
+@retry_deadlocks
 def count(session: Session, part_code: str, counted: int, *, location: str = DEFAULT_LOCATION,
           ts: datetime | None = None, user: str | None = None,
           reference: str | None = None, batch_id: int | None = None) -> list[Movement]:
@@ -331,6 +336,7 @@ def count(session: Session, part_code: str, counted: int, *, location: str = DEF
                                batch_id=batch_id)]
 
 
+@retry_deadlocks
 def move(session: Session, part_code: str, qty: int, *, from_location: str, to_location: str,
          ts: datetime | None = None, user: str | None = None) -> list[Movement]:
     """Move units between locations, keeping their lots (oldest cure first)."""
