@@ -20,7 +20,7 @@ from rich.table import Table
 from sqlalchemy.engine import Engine, make_url
 from sqlmodel import Session
 
-from inventory.core import migrate
+from inventory.core import build_mark, migrate
 from inventory.core.db import make_engine, resolve_url, transaction
 from inventory.core.errors import InventoryError
 
@@ -59,6 +59,9 @@ def engine(ctx: typer.Context, *, check_schema: bool = True) -> Engine:
     eng = make_engine(st.url)
     if check_schema:
         migrate.require_current(eng, st.db)
+        build_mark.require_finished(
+            eng, "demo", f"run `inventory demo --db {st.db or st.url} --replace` to build "
+            "it again")
     return eng
 
 

@@ -68,12 +68,18 @@ def init(ctx: typer.Context) -> None:
 def demo(ctx: typer.Context,
          db: str = typer.Option("demo.db", "--db", help="Where to build the demo database."),
          reports: str = typer.Option("reports", "--reports", help="Folder for reports."),
-         quick: bool = typer.Option(False, "--quick", help="Build only, no tour.")) -> None:
-    """Build a fresh demo shop database from catalog_demo and show what the tool does."""
+         quick: bool = typer.Option(False, "--quick", help="Build only, no tour."),
+         replace: bool = typer.Option(False, "--replace",
+                                      help="Delete the database at --db even when it is not a "
+                                           "demo shop.")) -> None:
+    """Build a fresh demo shop database from catalog_demo and show what the tool does.
+
+    A demo database already at --db is rebuilt; any other database is kept unless --replace.
+    """
     from inventory.demo.build import build_demo
     from inventory.demo.tour import tour
 
-    url = build_demo(db)
+    url = build_demo(db, replace=replace)
     if not quick:
         tour(url, reports)
 

@@ -14,8 +14,8 @@ from rich.progress import Progress, SpinnerColumn, TextColumn
 from sqlmodel import Session
 
 from inventory.catalog.load import load_catalog
-from inventory.core import migrate
-from inventory.core.db import make_engine, resolve_url, transaction
+from inventory.core import build_mark, migrate
+from inventory.core.db import has_tables, make_engine, resolve_url, transaction
 from inventory.core.errors import InventoryError
 from inventory.history.imports import Event, ImportSettings, apply_import
 from inventory.sheets import cells, kinds
@@ -25,8 +25,10 @@ from inventory.stock import ledger
 
 
 def demo_dir() -> Path:
-    """``catalog_demo/`` beside the package (a checkout) or in the working directory."""
-    for base in (Path(__file__).resolve().parent.parent, Path.cwd()):
+    """``catalog_demo/`` beside the ``inventory`` package (a checkout) or in the working
+    directory."""
+    here = Path(__file__).resolve()
+    for base in (here.parents[2], here.parents[1], Path.cwd()):
         cand = base / "catalog_demo"
         if (cand / "parts.csv").exists():
             return cand
@@ -94,19 +96,84 @@ def replay(session: Session, folder: Path, *, progress: bool = True) -> dict[str
             "counts": len(counts)}
 
 
-def build_demo(db: str = "demo.db", *, progress: bool = True) -> str:
-    """A fresh demo database at ``db`` (a SQLite path or URL); returns its URL."""
-    url = resolve_url(db)
+DEMO = "demo"  # the build mark of a demo database (inventory.core.build_mark)
+
+
+def check_target(url: str, db: str, *, replace: bool = False) -> str | None:
+    """What is at ``url`` now: None (nothing, or nothing worth keeping), ``demo`` (a demo
+    database, finished or not, rebuilt without asking) or ``other`` (data that is not a demo
+    shop, replaced only with ``replace``, else an :class:`InventoryError`)."""
+    from sqlalchemy.exc import DBAPIError
+
     if url.startswith("sqlite:///"):
         path = Path(url[len("sqlite:///"):])
-        for suffix in ("", "-wal", "-shm"):
+        if path.is_dir():
+            raise InventoryError(f"{path} is a folder, not a database file",
+                                 hint="give a file name with --db")
+        if not path.exists() or path.stat().st_size == 0:
+            return None
+    engine = make_engine(url, fresh=True)
+    try:
+        state = build_mark.marks(engine).get(DEMO)
+        holds = has_tables(engine)
+    except DBAPIError:  # not a database at all (e.g. a spreadsheet given as --db)
+        state, holds = None, True
+    finally:
+        engine.dispose()
+    if state is not None:
+        return DEMO
+    if not holds:
+        return None
+    if replace:
+        return "other"
+    raise InventoryError(
+        f"{db} already holds a database that is not a demo shop: `inventory demo` would "
+        "delete it", kind="conflict",
+        hint=f"give another --db, or run `inventory demo --db {db} --replace` to delete it "
+             "and build the demo there")
+
+
+def _clear(url: str) -> None:
+    """Delete what is at ``url``: the SQLite file and its journals, or every table of this
+    tool's schema on a server database."""
+    if url.startswith("sqlite:///"):
+        path = Path(url[len("sqlite:///"):])
+        for suffix in ("", "-wal", "-shm", "-journal"):
             p = Path(str(path) + suffix)
             if p.exists():
                 p.unlink()
+        return
+    from sqlalchemy import text
+    from sqlmodel import SQLModel
+
+    engine = make_engine(url, fresh=True)
+    try:
+        SQLModel.metadata.drop_all(engine)
+        with engine.begin() as conn:
+            conn.execute(text("DROP TABLE IF EXISTS alembic_version"))
+    finally:
+        engine.dispose()
+
+
+def build_demo(db: str = "demo.db", *, replace: bool = False, progress: bool = True) -> str:
+    """A fresh demo database at ``db`` (a SQLite path or URL); returns its URL.
+
+    A demo database already there is rebuilt; any other database is refused unless
+    ``replace``. The build writes a started mark first and its finished mark in the same
+    transaction as the demo's data, so a build killed half-way leaves a database every
+    command reports as unfinished (:func:`inventory.core.build_mark.require_finished`)."""
+    folder = demo_dir()
+    url = resolve_url(db)
+    if check_target(url, db, replace=replace) is not None:
+        _clear(url)
+    elif url.startswith("sqlite:///"):
+        _clear(url)  # an empty file, or journals left beside no database
     engine = make_engine(url, fresh=True)
     migrate.upgrade(engine)
-    folder = demo_dir()
+    with transaction(engine) as session:
+        build_mark.mark_started(session, DEMO)
     with transaction(engine) as session:
         load_catalog(session, folder)
         replay(session, folder, progress=progress)
+        build_mark.mark_finished(session, DEMO)
     return url
