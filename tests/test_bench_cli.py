@@ -149,8 +149,14 @@ def test_match_puts_as568_214_first_among_standard_sizes(shop, monkeypatch, caps
     assert nbr["on_hand"] == 15 and nbr["location"] == "MAIN, BENCH"
     assert nbr["od_mm"] is None and nbr["cs_mm"] == 3.53  # as recorded
     # scores ascending; a metric neighbour like ISO3601 25x3.55 comes later, the cross-
-    # section driving its rank
-    assert [c["score"] for c in cands] == sorted(c["score"] for c in cands)
+    # section driving its rank. EPDM does not suit the mineral oil O-rings usually work in
+    # (REFERENCE.md 6): marked and ranked after the others although its size is exact
+    suited = [c for c in cands if c.get("material_status") != "fail"]
+    assert [c["score"] for c in suited] == sorted(c["score"] for c in suited)
+    epdm = stock["OR-214-EPDM"]
+    assert epdm["score"] == 0.0 and cands.index(epdm) == len(suited)
+    assert epdm["material_note"] == "EPDM: poor in mineral oil, the usual medium of O-rings"
+    assert "material_note" not in nbr and nbr["material_status"] == "pass"
     assert list(data)[-1] == "caution" and data["caution"] == CAUTION
 
 
@@ -183,10 +189,14 @@ def test_match_with_a_seat_gives_verdicts_and_flags_old_lots(shop, monkeypatch, 
     data = ok_json(monkeypatch, capsys, shop, "match", "--id", "25.1", "--cs", "3.49",
                    "--fork", "T-32", "--seat", "top_cap")
     stock = {c["part"]: c for c in data["candidates"] if c["source"] == "stock"}
-    # the worked gland passes (REFERENCE.md 2); EPDM in an oil-wetted seat fails
-    # (REFERENCE.md 6)
-    assert stock["OR-214-NBR"]["verdict"] == "pass"
+    # the worked gland passes at nominal (REFERENCE.md 2) but its minimum squeeze over the
+    # ring's and the seat's tolerances is under 15 % (tests/test_fit_limits.py): marginal;
+    # EPDM in an oil-wetted seat fails (REFERENCE.md 6) and ranks after it
+    assert stock["OR-214-NBR"]["verdict"] == "marginal"
     assert stock["OR-214-EPDM"]["verdict"] == "fail"
+    order = ["pass", "marginal", "fail", "n/a"]
+    ranks = [order.index(c["verdict"]) for c in data["candidates"]]
+    assert ranks == sorted(ranks)  # pass before marginal before fail, then score
     assert data["seat"] == {"fork": "T-32", "seat": "top_cap"}
     # ISO 2230 group B (NBR): 7 years from the end of 2001Q1 is long past; the fresh lot is
     # not (REFERENCE.md 5)
@@ -206,15 +216,19 @@ def test_hardness_band_is_an_option(shop, monkeypatch, capsys):
     assert rows["OR-214-NBR"]["hardness_ok"] is True
     wide = {c["part"]: c for c in ok_json(monkeypatch, capsys, shop, *base,
                                           "--hardness-tol", "10")["candidates"]}
-    assert wide["XR-214"]["hardness_ok"] is True and wide["XR-214"]["verdict"] == "pass"
+    assert wide["XR-214"]["hardness_ok"] is True
+    # the verdict with the wide band is the geometry's alone (marginal over the tolerances
+    # in this seat); a static face gland with room to spare would pass
+    assert wide["XR-214"]["verdict"] == "marginal"
 
 
 def test_seat_without_dimensions_lists_what_fits(shop, monkeypatch, capsys):
     data = ok_json(monkeypatch, capsys, shop, "match", "--fork", "T-32", "--seat", "top_cap")
     assert data["mode"] == "fitting"
     verdicts = {c.get("part") or c["designation"]: c["verdict"] for c in data["candidates"]}
-    assert verdicts["OR-214-NBR"] == "pass" and "OR-214-EPDM" not in verdicts
-    assert verdicts["AS568-214"] == "pass"
+    # marginal over the tolerances (see above); EPDM fails and is not listed
+    assert verdicts["OR-214-NBR"] == "marginal" and "OR-214-EPDM" not in verdicts
+    assert verdicts["AS568-214"] == "marginal"
     assert "OR-222-NBR" not in verdicts  # 37.69 mm inside on a 25.5 mm groove
     engine = make_engine(f"sqlite:///{shop}")
     from sqlmodel import Session
@@ -248,7 +262,12 @@ def test_hand_worked_gland_through_the_cli(shop, monkeypatch, capsys):
     assert round(fill, 1) == 70.4
     assert checks["gland fill"]["value"] == pytest.approx(fill * 1.05)
     assert checks["squeeze"]["allowed"] == "15 to 30 %"  # static range, REFERENCE.md 2
-    assert data["verdict"] == "pass"
+    # REFERENCE.md 2 calls it fine for static use at nominal sizes; over the ring's and the
+    # H8 / h9 seat tolerances the minimum squeeze drops under 15 %: marginal, minimum drives
+    assert checks["squeeze"]["status"] == "marginal"
+    assert checks["squeeze"]["low"] < 15 < checks["squeeze"]["value"]
+    assert checks["squeeze"]["driver"] == "minimum"
+    assert data["verdict"] == "marginal"
     assert all(set(c) >= {"name", "value", "allowed", "status", "source"}
                for c in data["checks"])
     assert list(data)[-1] == "caution" and data["caution"] == CAUTION
@@ -289,7 +308,7 @@ def test_spacer_end_pressure_through_the_cli(shop, monkeypatch, capsys):
 def test_fit_alone_lists_every_seat_where_the_part_fits(shop, monkeypatch, capsys):
     data = ok_json(monkeypatch, capsys, shop, "fit", "OR-214-NBR")
     seats = {(r["fork"], r["seat"]): r["verdict"] for r in data["seats"]}
-    assert seats[("T-32", "top_cap")] == "pass"
+    assert seats[("T-32", "top_cap")] == "marginal"  # over the tolerances, see above
     # an O-ring may stand in an X-ring seat only as marginal (common practice)
     assert seats.get(("T-32", "air_piston_seal")) == "marginal"
     assert all(v in ("pass", "marginal") for v in seats.values())
@@ -302,7 +321,7 @@ def test_fit_alone_lists_every_seat_where_the_part_fits(shop, monkeypatch, capsy
 def test_fit_takes_a_standard_designation(shop, monkeypatch, capsys):
     data = ok_json(monkeypatch, capsys, shop, "fit", "as568 214", "--fork", "T-32", "--seat",
                    "top_cap")
-    assert data["part"] == "AS568-214" and data["verdict"] == "pass"
+    assert data["part"] == "AS568-214" and data["verdict"] == "marginal"
     material = next(c for c in data["checks"] if c["name"] == "material")
     assert material["value"] == "any (standard size)"
 
@@ -436,8 +455,9 @@ def test_bench_tour_shows_a_match_and_a_verdict(shop, monkeypatch, capsys):
     bench_tour(f"sqlite:///{shop}")
     out = capsys.readouterr().out
     assert "reads 25.11 x 3.48 mm" in out  # 24.99 x 1.005, 3.53 x 0.985
-    assert "top_cap" in out and "AS568-214 (std)" in out
-    assert "verdict: PASS" in out
+    assert "top_cap" in out and "AS568-214" in out
+    # no ring of the test shop passes over its tolerances: the tour shows a marginal one
+    assert "verdict: MARGINAL" in out and "minimum drives" in out
     assert out.rstrip("\n").splitlines()[-1] == CAUTION
 
 
@@ -452,3 +472,63 @@ def test_arrays_of_the_shop_exclude_consumables(shop):
     assert "OIL-5" not in loaded.arrays.codes
     assert isinstance(loaded.arrays, PartArrays) and len(loaded.arrays) == 13
     assert Path(shop).exists()
+
+
+# ------------------------------------------------------------- narrow terminals
+
+def test_part_codes_are_never_cut_at_80_columns(shop, monkeypatch, capsys):
+    """COLUMNS=80 and a console 80 wide: every part code and designation is printed whole
+    on one line; other columns are dropped or wrapped first."""
+    monkeypatch.setenv("COLUMNS", "80")
+    for extra in ([], ["--fork", "T-32", "--seat", "top_cap"]):
+        data = ok_json(monkeypatch, capsys, shop, "match", "--id", "24.99", "--cs", "3.53",
+                       *extra)
+        monkeypatch.setattr(sys, "argv", ["inventory", "--db", shop, "match", "--id", "24.99",
+                                          "--cs", "3.53", *extra])
+        monkeypatch.setattr(common.console, "width", 80)
+        with pytest.raises(SystemExit) as exc:
+            run()
+        out = capsys.readouterr().out
+        assert not exc.value.code
+        lines = out.splitlines()
+        table = [line for line in lines if line.startswith(("│", "┃"))]
+        assert max(len(line) for line in table) <= 80
+        for c in data["candidates"]:
+            name = c.get("part") or c["designation"]
+            assert any(f"│ {name} " in line for line in table), (name, out)
+        assert "…" not in out
+        if not extra:  # without a seat the material shows, EPDM marked and ranked last
+            assert any("material" in line for line in table)
+            row = next(line for line in table
+                       if line.count("│") > 2 and line.split("│")[2].strip() == "OR-214-EPDM")
+            assert "EPDM !" in row
+        else:
+            assert any("verdict" in line for line in table)
+
+
+def test_match_table_drops_columns_before_cutting_codes():
+    from rich.console import Console
+
+    from inventory.cli.bench_cmd import DROP_ORDER, match_table
+
+    long_code = "OR-M25.8-1.80-NBR70-SPECIAL"
+    columns = {"#": ["1"], "part": [long_code], "kind": ["o_ring"], "size mm": ["25.80 x 1.80"],
+               "material": ["NBR"], "score": ["0.32"], "driven by": ["id 0.17"],
+               "stock": ["12 MAIN, BENCH"], "verdict": ["marginal"],
+               "notes": [f"stocked as {long_code}; PAST STORAGE x3"]}
+    seen = {}
+    for width in (160, 100, 80, 60):
+        console = Console(width=width, record=True)
+        table, footnotes = match_table("t", columns, width)
+        console.print(table)
+        text = console.export_text()
+        assert any(f"│ {long_code} │" in line for line in text.splitlines()), text
+        assert max(len(line) for line in text.splitlines()) <= width
+        assert "…" not in text
+        notes = "\n".join(footnotes) if footnotes else text
+        assert long_code in notes.replace("│", "").replace(" ", "") or long_code in notes
+        seen[width] = (text.split("┡")[0], footnotes)
+    assert all(name in seen[160][0] for name in DROP_ORDER)  # wide: nothing dropped
+    assert "driven by" not in seen[80][0] and "kind" not in seen[80][0]
+    assert "verdict" in seen[60][0] and "notes" not in seen[60][0]
+    assert seen[60][1] == [f"#1: stocked as {long_code}; PAST STORAGE x3"]

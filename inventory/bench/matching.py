@@ -287,8 +287,10 @@ def match(query: MatchQuery, candidates: PartArrays, *,
 
     ``max_score`` drops candidates scoring above it. With a ``seat`` each candidate also
     gets the fit verdict of :func:`inventory.bench.fit.fit` (computed on the same rules,
-    with the hardness check when ``reference_shore_a`` is given). Raises ``ValueError``
-    when no dimension is given.
+    with the hardness check when ``reference_shore_a`` is given), and the candidates rank
+    pass before marginal before fail (before a kind that does not go there), then by
+    score, among the ``limit + 16`` closest by score. Raises ``ValueError`` when no
+    dimension is given.
     """
     dims = query.dims()
     if not dims:
@@ -306,18 +308,24 @@ def match(query: MatchQuery, candidates: PartArrays, *,
     sub = candidates.cols.take(top)
     parts_top = _score_columns(query, sub, tolerance, weights)
     total_top = np.sum(list(parts_top.values()), axis=0)
-    order = np.lexsort((top, total_top))[:limit]
+    verdicts = None
+    seat_kinds = None
+    if seat is None:
+        order = np.lexsort((top, total_top))
+    else:
+        seat_kinds = kind_status_table(PartKind(seat.part_kind), rules)
+        verdicts = worst(evaluate(sub, seat, rules, reference_shore_a=reference_shore_a))
+        verdicts = np.where(seat_kinds[sub.kind] == NOT_APPLICABLE, len(STATUS_NAMES),
+                            verdicts)
+        order = np.lexsort((top, total_top, verdicts))
     if max_score is not None:
         order = order[total_top[order] <= max_score]
+    order = order[:limit]
     top = top[order]
     parts = {name: part[order] for name, part in parts_top.items()}
     total = total_top[order]
-    verdicts = None
-    seat_kinds = None
-    if seat is not None and len(top):
-        verdicts = worst(evaluate(candidates.cols.take(top), seat, rules,
-                                  reference_shore_a=reference_shore_a))
-        seat_kinds = kind_status_table(PartKind(seat.part_kind), rules)
+    if verdicts is not None:
+        verdicts = verdicts[order]
     cols = candidates.cols
     out = []
     for rank, i in enumerate(top):
@@ -328,7 +336,8 @@ def match(query: MatchQuery, candidates: PartArrays, *,
         cand_verdict = None
         if verdicts is not None and seat_kinds is not None:
             applies = seat_kinds[cols.kind[i]]
-            cand_verdict = "n/a" if applies == NOT_APPLICABLE else STATUS_NAMES[verdicts[rank]]
+            cand_verdict = ("n/a" if applies == NOT_APPLICABLE
+                            else STATUS_NAMES[int(verdicts[rank])])
         derived = kind in ROUND_SECTION and candidates.source == "standard"
         out.append(Candidate(
             index=int(i), code=str(candidates.codes[i]), source=candidates.source,

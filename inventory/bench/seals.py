@@ -239,6 +239,33 @@ def medium_status(code: str | None, medium: Medium, *,
     return status, f"{key} ({mat.name}): {mat.oil} in mineral oil, seat medium {medium}"
 
 
+#: The medium a part of each kind usually works in inside a suspension fork, used to flag
+#: a polymer when no seat is named: dampers, lower-leg baths and air springs all carry
+#: suspension oil or grease, so every seal kind meets mineral oil (common practice).
+#: Volume spacers and crush washers are not rated.
+USUAL_MEDIUM: Mapping[PartKind, Medium] = MappingProxyType({
+    k: Medium.OIL for k in (PartKind.O_RING, PartKind.X_RING, PartKind.U_CUP,
+                            PartKind.DUST_WIPER, PartKind.SCRAPER_SEAL, PartKind.FOAM_RING,
+                            PartKind.GLIDE_RING, PartKind.TOP_OUT_BUMPER)
+})
+
+
+def usual_medium_status(kind: PartKind, code: str | None) -> tuple[str, str]:
+    """(status, reason) of a polymer in the usual medium of its kind (:data:`USUAL_MEDIUM`);
+    ``("pass", "")`` for kinds that are not rated or a material not recorded."""
+    medium = USUAL_MEDIUM.get(PartKind(kind))
+    if medium is None or normalise_material(code) is None:
+        return "pass", ""
+    status, reason = medium_status(code, medium)
+    if status == "pass":
+        return status, ""
+    key = normalise_material(code)
+    mat = MATERIALS.get(key or "")
+    why = (f"{key}: {mat.oil} in mineral oil, the usual medium of {_KIND_LABEL[kind]}s"
+           if mat else reason)
+    return status, why
+
+
 # ------------------------------------------------------------------------- shelf life
 
 @dataclass(frozen=True, slots=True)

@@ -34,6 +34,7 @@ from inventory.bench.seals import (
     is_past_storage_limit,
     normalise_material,
     parse_dimension,
+    usual_medium_status,
 )
 from inventory.bench.sizes import normalise_designation
 from inventory.core import lookup
@@ -378,11 +379,30 @@ def run_match(shop: Shop, req: MatchRequest) -> MatchResult:
         except ValueError as exc:
             raise InventoryError(str(exc)) from None
         for c in found:
-            ranked.append((c.score, arrays.source != "stock", len(ranked),
-                           _row(arrays.spec(c.index), arrays.source, shop, req, candidate=c,
-                                stocked_as=stocked.get(c.code, ()))))
-    ranked.sort(key=lambda t: t[:3])
-    return MatchResult([t[3] for t in ranked], "match", req)
+            spec = arrays.spec(c.index)
+            row = _row(spec, arrays.source, shop, req, candidate=c,
+                       stocked_as=stocked.get(c.code, ()))
+            ranked.append((_rank_group(row, spec, req), c.score, arrays.source != "stock",
+                           len(ranked), row))
+    ranked.sort(key=lambda t: t[:4])
+    return MatchResult([t[4] for t in ranked], "match", req)
+
+
+_VERDICT_RANK = {"pass": 0, "marginal": 1, "fail": 2, "n/a": 3}
+
+
+def _rank_group(row: dict, spec: PartSpec, req: MatchRequest) -> int:
+    """What ranks before the score. With a seat: its verdict, pass before marginal before
+    fail. Without one: a polymer that does not suit the usual medium of its kind
+    (:func:`~inventory.bench.seals.usual_medium_status`) is marked in the row and, unless
+    that material was asked for, ranked after the others."""
+    if req.seat is not None:
+        return _VERDICT_RANK.get(row.get("verdict", "n/a"), 3)
+    status, why = usual_medium_status(PartKind(spec.kind), spec.material)
+    row["material_status"] = status
+    if why:
+        row["material_note"] = why
+    return int(status == "fail" and req.query.material is None)
 
 
 # ----------------------------------------------------------------------------- fit

@@ -12,6 +12,7 @@ import math
 from pathlib import Path
 
 import typer
+from rich.table import Table
 
 from inventory.bench import service as svc
 from inventory.bench.fit import CAUTION, FitResult, FitRules, fit, kind_applies
@@ -49,6 +50,8 @@ def _say_caution() -> None:
 
 def _flags(row: dict) -> str:
     out = []
+    if row.get("material_note"):
+        out.append(row["material_note"])
     if row.get("past_storage"):
         out.append(f"PAST STORAGE x{row['past_storage_units']}")
     if row.get("hardness_ok") is False:
@@ -94,31 +97,94 @@ def render_match(result: svc.MatchResult, unit: str) -> None:
         tol_text = (f"{format_length(tol.abs_mm, unit)}"
                     + (f" + {tol.rel * 100:g} %" if tol.rel else ""))
         title = f"Candidates for {dims}{where} (tolerance {tol_text})"
-    header = ["#", "part", "kind", f"size {unit}"]
-    if result.mode == "match":
-        header += ["score", "driven by"]
-    header.append("stock")
-    if seat:
-        header.append("verdict")
-    header.append("notes")
-    rows = []
+    columns: dict[str, list[str]] = {name: [] for name in (
+        "#", "part", "kind", f"size {unit}", "material", "score", "driven by", "stock",
+        "verdict", "notes")}
     for n, r in enumerate(result.rows, start=1):
-        code = r.get("part") or f"{r['designation']} (std)"
-        line = [n, code, r["kind"], size_text(r, unit)]
-        if result.mode == "match":
-            line += [f"{r['score']:.2f}", _driver(r)]
-        line.append(_stock_text(r))
-        if seat:
-            line.append(r.get("verdict", ""))
-        line.append(_flags(r))
-        rows.append(line)
+        values = {"#": str(n), "part": r.get("part") or f"{r['designation']}\n(std)",
+                  "kind": r["kind"], f"size {unit}": size_text(r, unit),
+                  "material": _material_text(r),
+                  "score": f"{r['score']:.2f}" if r.get("score") is not None else "",
+                  "driven by": _driver(r), "stock": _stock_text(r),
+                  "verdict": r.get("verdict", ""), "notes": _flags(r)}
+        for name, value in values.items():
+            columns[name].append(value)
+    if result.mode != "match":
+        del columns["score"], columns["driven by"]
+    if not seat:
+        del columns["verdict"]
     caption = ("score: sum over dimensions of deviation / tolerance, plus kind and material "
                "penalties (lower is closer); std = standard size, orderable, not stocked"
                if result.mode == "match" else "std = standard size, orderable, not stocked")
-    print_table(title, header, rows, right=("#", "score"), caption=caption)
-    if not rows:
+    if any(r.get("material_note") for r in result.rows):
+        caption += ("; ! = polymer unsuited to the usual medium of the kind (ranked after "
+                    "the others)")
+    table, footnotes = match_table(title, columns, console.width, caption=caption)
+    console.print(table)
+    for line in footnotes:
+        console.print(line, highlight=False, markup=False)
+    if not result.rows:
         say("no candidates")
     _say_caution()
+
+
+#: Columns of the match table that may be left out on a narrow terminal, first to go first.
+#: The part code, size, verdict and notes stay; the code is never cut or wrapped.
+DROP_ORDER = ("driven by", "kind", "score", "stock", "material")
+#: The one column that wraps (at spaces); every other column keeps its values on one line.
+WRAPPING = "notes"
+
+
+def _longest(name: str, values: list[str], *, words: bool = False) -> int:
+    lines = [line for v in values + [name] for line in v.split("\n")]
+    if words:
+        return max((len(w) for line in lines for w in line.split()), default=1)
+    return max(len(line) for line in lines)
+
+
+def match_table(title: str, columns: dict[str, list[str]], width: int, *,
+                caption: str | None = None) -> tuple[Table, list[str]]:
+    """The candidates as a rich table that fits ``width`` columns, and lines to print under
+    it. Part codes are never cut: the notes wrap at spaces first, then the columns of
+    :data:`DROP_ORDER` are left out, then the notes move under the table (``#3: ...``),
+    then the size wraps."""
+    cols = dict(columns)
+    wrapping = {WRAPPING}
+    footnotes: list[str] = []
+
+    def need() -> int:  # rich's box: one rule and two padding spaces per column, one more
+        return (sum(_longest(n, v, words=n in wrapping) for n, v in cols.items())
+                + 3 * len(cols) + 1)
+
+    for name in DROP_ORDER:
+        if need() <= width:
+            break
+        cols.pop(name, None)
+    if need() > width and WRAPPING in cols:
+        notes = cols.pop(WRAPPING)
+        footnotes = [f"#{n}: {text}" for n, text in zip(cols["#"], notes, strict=True)
+                     if text]
+    size = next((n for n in cols if n.startswith("size")), None)
+    if need() > width and size:
+        wrapping.add(size)
+    table = Table(title=title, caption=caption, header_style="bold")
+    for name, values in cols.items():
+        if name in wrapping:
+            table.add_column(name, min_width=_longest(name, values, words=True))
+        else:
+            table.add_column(name, justify="right" if name in ("#", "score") else "left",
+                             no_wrap=True, width=_longest(name, values))
+    n_rows = len(next(iter(cols.values()))) if cols else 0
+    for i in range(n_rows):
+        table.add_row(*[cols[name][i] for name in cols])
+    return table, footnotes
+
+
+def _material_text(row: dict) -> str:
+    mat = row.get("material")
+    if mat is None:
+        return "any" if row.get("source") == "standard" else "-"
+    return f"{mat} !" if row.get("material_note") else str(mat)
 
 
 def match(ctx: typer.Context,
@@ -185,8 +251,15 @@ def _value(v, unit: str = "") -> str:
     return str(v)
 
 
+def _value_and_range(c) -> str:
+    """The nominal value, and under it the range over the tolerances when there is one."""
+    value = _value(c.value, c.unit)
+    rng = c.range_text()
+    return f"{value}\n({rng})" if rng else value
+
+
 def render_fit(result: FitResult) -> None:
-    rows = [[c.name, _value(c.value, c.unit), c.allowed, str(c.status),
+    rows = [[c.name, _value_and_range(c), c.allowed, str(c.status),
              c.note, c.source] for c in result.checks]
     print_table(f"{result.part} in {result.fork} {result.seat}",
                 ["check", "value", "allowed", "status", "note", "source"], rows)

@@ -118,15 +118,23 @@ def bench_tour(url: str) -> None:
     rings.sort(key=lambda p: (p.standard != "AS568-214", p.material != "NBR", p.code))
     # an oil-wetted seat shows the material rule too (EPDM never goes in oil)
     seats.sort(key=lambda x: (str(x.medium) != "oil", x.fork, x.seat))
+    # a ring that passes over its tolerances where there is one, else a marginal one (the
+    # fit table then shows which extreme drives the verdict)
     chosen = None
+    marginal = None
     for ring in rings:
         for seat in seats:
-            if PartKind(seat.part_kind) == PartKind.O_RING and \
-                    str(fit(ring, seat).verdict) == "pass":
+            if PartKind(seat.part_kind) != PartKind.O_RING:
+                continue
+            verdict = str(fit(ring, seat).verdict)
+            if verdict == "pass":
                 chosen = ring, seat
                 break
+            if verdict == "marginal" and marginal is None:
+                marginal = ring, seat
         if chosen:
             break
+    chosen = chosen or marginal
     if chosen is None:
         say("bench lookup: no stocked standard O-ring fits a demo seat; skipped")
         return
