@@ -15,6 +15,7 @@ from typing import Any
 
 from sqlmodel import Session, select
 
+from inventory.catalog.service import TABLES
 from inventory.core.errors import InventoryError, Problem, Source
 from inventory.core.model import Gland, Medium, Motion, PartKind, ServiceLevel, SpringLayout
 from inventory.core.tables import (
@@ -111,8 +112,7 @@ SCHEMAS: dict[str, Schema] = {
         C("qty", cells.positive_int, required=True),
     ), key=("kit", "part")),
 }
-ORDER = ["locations", "parts", "suppliers", "supplier_items", "fork_families", "seats", "kits",
-         "kit_lines"]
+ORDER = list(TABLES)
 
 
 @dataclass

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import typer
 
-from inventory.catalog.load import ORDER, export_catalog, load_catalog
+from inventory.catalog import service
 from inventory.cli.common import print_json, reading, say, unit_of_work
 
 app = typer.Typer(help="Load and export the catalog (csv folder or xlsx workbook).",
@@ -16,11 +16,11 @@ app = typer.Typer(help="Load and export the catalog (csv folder or xlsx workbook
 @app.command()
 def load(ctx: typer.Context,
          path: Path = typer.Argument(..., help=f"Folder of csv files or a workbook with sheets "
-                                               f"{', '.join(ORDER)}."),
+                                               f"{', '.join(service.TABLES)}."),
          as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table.")) -> None:
     """Validate the whole catalog, then write it in one transaction (or write nothing)."""
     with unit_of_work(ctx) as s:
-        report = load_catalog(s, path)
+        report = service.load(s, path)
     if as_json:
         print_json(report.to_dict())
         return
@@ -33,6 +33,6 @@ def export(ctx: typer.Context,
            target: Path = typer.Argument(..., help="A folder (csv files) or a FILE.xlsx.")) -> None:
     """Write the catalog out in the same layout `catalog load` reads."""
     with reading(ctx) as s:
-        paths = export_catalog(s, target)
+        paths = service.export(s, target)
     for p in paths:
         say(f"wrote {p}")

@@ -4,13 +4,17 @@ in and out."""
 from __future__ import annotations
 
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import typer
 
 from inventory.cli.common import console, print_json, print_table, reading, unit_of_work
 from inventory.core.errors import InventoryError, Problem
-from inventory.history.exports import TABLES, export_table, write_template
-from inventory.history.imports import KINDS, ImportReport, ImportSettings, run_import
+from inventory.history import service
+from inventory.history.service import KINDS, TABLES
+
+if TYPE_CHECKING:
+    from inventory.history.imports import ImportReport
 
 ORDERS = {"dmy": "dmy", "day-first": "dmy", "dayfirst": "dmy", "mdy": "mdy",
           "month-first": "mdy", "monthfirst": "mdy"}
@@ -76,16 +80,16 @@ def import_file(
         order = ORDERS.get(date_order.strip().lower())
         if order is None:
             raise InventoryError(f"bad --date-order {date_order!r}: expected dmy or mdy")
-    settings = ImportSettings(kind=kind, sheet=sheet, mapping=parse_maps(maps),
-                              resolutions=resolutions, review=review, date_order=order,
-                              stock=not no_stock, stock_before_ledger=stock_before_ledger)
+    settings = dict(sheet=sheet, mapping=parse_maps(maps), resolutions=resolutions,
+                    review=review, date_order=order, stock=not no_stock,
+                    stock_before_ledger=stock_before_ledger)
     if resolutions is not None and not resolutions.exists():
         raise InventoryError(f"{resolutions}: no such file", hint="give the review workbook "
                              "written by the preview")
     if apply:
         try:
             with unit_of_work(ctx) as s:
-                rep = run_import(s, file, settings, apply=True)
+                rep = service.import_file(s, file, kind=kind, apply=True, **settings)
         except InventoryError as exc:
             failed = getattr(exc, "report", None)
             if failed is not None:
@@ -94,7 +98,7 @@ def import_file(
         _render(rep, as_json, "applied" if rep.applied else "nothing new")
         return
     with reading(ctx) as s:
-        rep = run_import(s, file, settings, apply=False)
+        rep = service.import_file(s, file, kind=kind, apply=False, **settings)
     _render(rep, as_json, "preview")
     if not rep.ok:
         raise rep.error()
@@ -153,7 +157,7 @@ def export(ctx: typer.Context,
     if (xlsx is None) == (csv is None):
         raise InventoryError("give exactly one of --xlsx FILE or --csv FILE")
     with reading(ctx) as s:
-        path, n = export_table(s, table, xlsx or csv, fmt="xlsx" if xlsx else "csv")
+        path, n = service.export_table(s, table, xlsx or csv, fmt="xlsx" if xlsx else "csv")
     say(f"wrote {path} ({n} row(s))")
 
 
@@ -163,6 +167,6 @@ def template(ctx: typer.Context,
              ) -> None:
     """Write an empty import template with drop-down lists and an example row."""
     with reading(ctx) as s:
-        path = write_template(s, kind, xlsx)
+        path = service.write_template(s, kind, xlsx)
     say(f"wrote {path}: fill in the {kind!r} sheet (the 'example' sheet shows one row), then "
         f"`inventory import {kind} {path.name}`")

@@ -10,10 +10,6 @@ import typer
 from inventory.cli import options
 from inventory.cli.common import print_json, print_table, reading, say
 from inventory.core.choices import DEFAULT_VALUATION, Valuation
-from inventory.monthend.aggregates import parse_month
-from inventory.monthend.report import report_dict
-from inventory.monthend.service import default_xlsx, write_month_end
-from inventory.ordering.service import reorder_source
 
 app = typer.Typer(help="Month-end reports.", no_args_is_help=True)
 
@@ -41,17 +37,16 @@ def month(ctx: typer.Context,
           ) -> None:
     """Stock value, usage, turns, classes, dead stock, count variances, expiring lots and the
     reorder list for one month; refuses if the ledger does not reconcile."""
+    from inventory.monthend import service  # loads the report writers: only when it runs
+
     day = _today(today)
-    m = parse_month(month, today=day)
-    if xlsx is None and not as_json:
-        xlsx = default_xlsx(m)
     with reading(ctx) as s:
-        reorder = reorder_source() if plan else None
-        files = write_month_end(s, m, today=day, xlsx=xlsx, html=html, method=method.value,
-                                reorder=reorder)
+        files = service.month_end(s, month, today=day, xlsx=xlsx, html=html,
+                                  default_workbook=not as_json, method=method.value, plan=plan)
     if as_json:
-        print_json(report_dict(files.report))
+        print_json(service.report_json(files))
         return
+    m = files.report.month
     t = files.report.totals
     print_table(f"Stock report {m.label} ({files.report.method_label})", ["figure", "value"], [
         ["opening value", f"{t.opening_value:,.2f}"],

@@ -1,20 +1,33 @@
 """Schema migrations: create or upgrade a database to the head revision, and refuse to work
-on an out-of-date one with the one command that upgrades it."""
+on an out-of-date one with the one command that upgrades it.
+
+Every command checks the schema before it works, so that check is cheap: one plain
+``SELECT version_num FROM alembic_version`` compared with :data:`HEAD_REVISION` (a test keeps
+the constant equal to Alembic's head). Alembic itself is imported only to migrate.
+"""
 
 from __future__ import annotations
 
 from importlib import resources
+from typing import TYPE_CHECKING
 
-from alembic import command
-from alembic.config import Config
-from alembic.runtime.migration import MigrationContext
-from alembic.script import ScriptDirectory  # noqa: F401 (used by tests)
+from sqlalchemy import text
 from sqlalchemy.engine import Engine
+from sqlalchemy.exc import DBAPIError
 
 from inventory.core.errors import InventoryError
 
+if TYPE_CHECKING:
+    from alembic.config import Config
+
+#: The newest revision in ``migrations/versions`` (tests/test_migrations.py checks it).
+HEAD_REVISION = "0005"
+VERSION_TABLE = "alembic_version"
+
 
 def alembic_config(engine: Engine) -> Config:
+    from alembic.config import Config
+
     cfg = Config()
     cfg.set_main_option("script_location", str(resources.files("inventory.core") / "migrations"))
     cfg.set_main_option("sqlalchemy.url", engine.url.render_as_string(hide_password=False))
@@ -22,15 +35,31 @@ def alembic_config(engine: Engine) -> Config:
 
 
 def head_revision(engine: Engine) -> str:
-    return ScriptDirectory.from_config(alembic_config(engine)).get_current_head()
+    """The head revision as Alembic reads it from the migration scripts."""
+    from alembic.script import ScriptDirectory
+
+    head = ScriptDirectory.from_config(alembic_config(engine)).get_current_head()
+    assert head is not None
+    return head
 
 
 def current_revision(engine: Engine) -> str | None:
+    """The revision recorded in the database (None for a database without the schema)."""
+    from sqlalchemy import inspect
+
     with engine.connect() as conn:
-        return MigrationContext.configure(conn).get_current_revision()
+        if not inspect(conn).has_table(VERSION_TABLE):
+            return None
+        try:
+            rows = conn.execute(text(f"SELECT version_num FROM {VERSION_TABLE}")).all()
+        except DBAPIError:
+            return None
+    return rows[0][0] if len(rows) == 1 else None
 
 
 def upgrade(engine: Engine, revision: str = "head") -> None:
+    from alembic import command
+
     cfg = alembic_config(engine)
     with engine.begin() as conn:
         cfg.attributes["connection"] = conn
@@ -38,6 +67,8 @@ def upgrade(engine: Engine, revision: str = "head") -> None:
 
 
 def downgrade(engine: Engine, revision: str) -> None:
+    from alembic import command
+
     cfg = alembic_config(engine)
     with engine.begin() as conn:
         cfg.attributes["connection"] = conn
@@ -47,7 +78,7 @@ def downgrade(engine: Engine, revision: str) -> None:
 def require_current(engine: Engine, url_for_hint: str | None = None) -> None:
     """Raise unless the database is at the head revision."""
     current = current_revision(engine)
-    head = head_revision(engine)
+    head = HEAD_REVISION
     if current == head:
         return
     db = f" --db {url_for_hint}" if url_for_hint else ""

@@ -30,13 +30,14 @@ from inventory.core.tables import (
     StockBalance,
     Supplier,
 )
+from inventory.history import service
 from inventory.history.imports import EXAMPLES
 from inventory.history.imports import SCHEMAS as IMPORT_SCHEMAS
 from inventory.history.jobs import list_jobs
 from inventory.sheets.write import SheetSpec, write_csv, write_workbook
 from inventory.stock import ledger
 
-TABLES = ("parts", "stock", "lots", "movements", "jobs")
+TABLES = service.TABLES  # one list, kept where the faces read it
 MM = "0.00"
 MONEY = "#,##0.00##"
 COUNT = "#,##0"

@@ -56,3 +56,27 @@ def latest_complete_month(session: Session, today: date) -> Month:
         return done
     day = last.date() if hasattr(last, "date") else date.fromisoformat(str(last)[:10])
     return min(Month.of(day), done)
+
+
+def month_end(session: Session, month: str, *, today: date, xlsx: str | Path | None = None,
+              html: str | Path | None = None, default_workbook: bool = True,
+              method: str = "fifo", plan: bool = True) -> MonthEndFiles:
+    """``report month`` for the faces: parse the month (a complete one, as of ``today``),
+    take the reorder list from the order planner when ``plan`` (else the usage rule), and
+    write the workbook (``reports/stock-YYYY-MM.xlsx`` unless given, when
+    ``default_workbook``) and the HTML page if asked."""
+    from inventory.monthend.aggregates import parse_month
+    from inventory.ordering.service import reorder_source
+
+    m = parse_month(month, today=today)
+    if xlsx is None and default_workbook:
+        xlsx = default_xlsx(m)
+    return write_month_end(session, m, today=today, xlsx=xlsx, html=html, method=method,
+                           reorder=reorder_source() if plan else None)
+
+
+def report_json(files: MonthEndFiles) -> dict:
+    """The ``report month --json`` document (also the web API's)."""
+    from inventory.monthend.report import report_dict
+
+    return report_dict(files.report)

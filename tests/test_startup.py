@@ -1,0 +1,77 @@
+"""Fast start: the everyday commands do not import the heavy libraries.
+
+`inventory --help`, `inventory match` and `inventory stock on-hand` run in fresh interpreters
+(the console script's entry point under a small wrapper that reports ``sys.modules`` at exit);
+none of scipy, matplotlib, openpyxl, alembic, pandas may have been imported. The list is the
+issue's (issue 10, "Fast start"); what each costs to import is measured by
+benchmarks/startup.py.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+
+import pytest
+
+from tests.conftest import write_catalog
+
+HEAVY = ("scipy", "matplotlib", "openpyxl", "alembic", "pandas")
+
+WRAPPER = """
+import atexit, json, sys
+def report():
+    loaded = sorted({m.split('.')[0] for m in sys.modules} & set(HEAVY))
+    with open(OUT, 'w') as f:
+        json.dump(loaded, f)
+atexit.register(report)
+from inventory.cli.main import run
+sys.argv = ['inventory', *ARGS]
+run()
+"""
+
+
+def loaded_by(args: list[str], cwd, out) -> tuple[int, list[str], str]:
+    code = (f"HEAVY = {HEAVY!r}\nOUT = {str(out)!r}\nARGS = {args!r}\n" + WRAPPER)
+    env = {k: v for k, v in os.environ.items() if k != "INVENTORY_DB"}
+    proc = subprocess.run([sys.executable, "-c", code], cwd=cwd, env=env, capture_output=True,
+                          text=True, timeout=300)
+    return proc.returncode, json.loads(out.read_text()), proc.stderr
+
+
+@pytest.fixture(scope="module")
+def shop(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("startup")
+    cat = write_catalog(folder / "cat")
+    db = str(folder / "shop.db")
+    for args in (["--db", db, "init"], ["--db", db, "catalog", "load", str(cat)],
+                 ["--db", db, "stock", "receive", "OR-214", "20", "--cost", "0.25"]):
+        proc = subprocess.run([sys.executable, "-m", "inventory", *args], cwd=folder,
+                              capture_output=True, text=True, timeout=300)
+        assert proc.returncode == 0, proc.stderr
+    return folder, db
+
+
+@pytest.mark.parametrize("args", [
+    ["--help"],
+    ["match", "--id", "24.99", "--cs", "3.53"],  # AS568-214: 24.99 x 3.53 mm (AS568 table)
+    ["stock", "on-hand"],
+])
+def test_everyday_commands_import_no_heavy_library(shop, tmp_path, args):
+    folder, db = shop
+    full = args if args == ["--help"] else ["--db", db, *args]
+    code, loaded, err = loaded_by(full, folder, tmp_path / "modules.json")
+    assert code == 0, err
+    assert loaded == [], f"`inventory {' '.join(args)}` imported {loaded}"
+
+
+def test_the_wrapper_does_see_a_heavy_import(shop, tmp_path):
+    # the check itself can fail: a command that writes a workbook must load openpyxl
+    folder, db = shop
+    target = tmp_path / "parts.xlsx"
+    code, loaded, err = loaded_by(["--db", db, "export", "parts", "--xlsx", str(target)], folder,
+                                  tmp_path / "modules.json")
+    assert code == 0, err
+    assert "openpyxl" in loaded
