@@ -22,7 +22,7 @@ def shop(tmp_path, monkeypatch, capsys):
     ("args", "line"),
     [
         (["stock", "issue", "OR-215", "1"], "error: unknown part 'OR-215' (did you mean OR-214?)"),
-        (["stock", "issue", "OR-214", "-3"], "error: QTY: expected a quantity above 0, got -3"),
+        (["stock", "issue", "OR-214", "-3"], "error: QTY: expected a whole number above 0, got -3"),
         (["stock", "receive", "OR-214", "5", "--cured", "2025Q5"],
          "error: --cured: expected a cure quarter like 2026Q3 (also 3Q26, Q3/26, or the "
          "month 8/26), got '2025Q5'"),
@@ -32,7 +32,7 @@ def shop(tmp_path, monkeypatch, capsys):
         (["stock", "move", "OR-214", "1", "--from", "MAIN", "--to", "MIAN"],
          "error: unknown location 'MIAN' (did you mean MAIN?)"),
         (["stock", "adjust", "OR-214", "0", "--reason", "x"],
-         "error: QTY: expected a quantity other than 0 (-2 takes two out, 3 adds three), "
+         "error: QTY: expected a whole number other than 0 (-2 takes two out, 3 adds three), "
          "got 0"),
     ],
 )

@@ -89,4 +89,4 @@ def code(text: str | None, option: str, what: str) -> str | None:
 
 def quantity(value: int | str, option: str, *, signed: bool = False,
              zero: bool = False) -> int:
-    return read(option, parse.quantity, value, what="quantity", signed=signed, zero=zero)
+    return read(option, parse.quantity, value, signed=signed, zero=zero)

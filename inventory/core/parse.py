@@ -70,6 +70,7 @@ MAX_LEN = {
     "supplier": 32,  # supplier.code
     "fork": 32,  # fork_family.code
     "order": 64,  # movement.reference
+    "code": 64,  # any code: the longest code column (part.code)
 }
 
 _ASCII_DIGIT = frozenset("0123456789")
@@ -308,21 +309,16 @@ def fill_rate(value: Any, *, what: str = "fill rate") -> float:
 
 
 def length(value: Any, *, what: str = "length", unit: str = "mm") -> float:
-    """A length in mm from ``32``, ``31,5``, ``1.26in``, ``1-1/4in`` (:mod:`inventory.core.units`);
-    finite, ASCII digits only. Errors are :mod:`units`' own (``unknown length unit ...``)."""
-    if isinstance(value, str):
-        check_ascii_digits(value, what)
-        if re.search(r"(?i)\d\s*e[-+]?\d|\bnan\b|\binf(inity)?\b", value):
-            raise _err(value.strip(), "a length like 32, 31.5 or 1.26in")
-    elif isinstance(value, float) and not math.isfinite(value):
-        raise _err(value, "a finite length")
-    mm = _units.read_length(value, unit).mm
-    if not math.isfinite(mm):
-        raise _err(value, "a finite length")
-    return mm
+    """A length in mm from ``32``, ``31,5``, ``1.26in``, ``1-1/4in``: the one length parser,
+    :func:`inventory.core.units.read_length` (finite, positive, ASCII digits only); its
+    errors are its own (``not a length: 'nan' ...``)."""
+    return _units.read_length(value, unit).mm
 
 
 # -------------------------------------------------------------------------------- dates
+
+DATE_EXPECTED = "a date like 2026-03-25, 25/03/2026 or 25 Mar 2026"
+
 
 def day(value: Any, *, what: str = "date", order: _dates.Order | None = None,
         date1904: bool = False) -> date:
@@ -338,14 +334,14 @@ def day(value: Any, *, what: str = "date", order: _dates.Order | None = None,
     raw = str(value).strip()
     check_ascii_digits(raw, what)
     if raw.isdigit() and len(raw) != 8:
-        raise _err(raw, "a date like 2026-03-25, 25/03/2026 or 25 Mar 2026")
+        raise _err(raw, DATE_EXPECTED)
     try:
         return _dates.parse_text(raw, order=order)
     except ValueError as exc:
         if "cannot tell day from month" in str(exc):
             raise _err(raw, "a date whose day and month can be told apart (write it as "
                             "YYYY-MM-DD)") from None
-        raise
+        raise ValueError(str(exc).replace(_dates.EXPECTED, DATE_EXPECTED)) from None
 
 
 def booking_day(value: Any, *, what: str = "date", today: date | None = None,

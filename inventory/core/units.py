@@ -93,6 +93,9 @@ def read_length(text: str | float | int, default_unit: str = "mm") -> Length:
     stripped = raw.strip()
     if not stripped:
         raise ValueError("empty length: give a number such as 32, 32mm or 1.26in")
+    if any(ch.isdigit() and ch not in "0123456789" for ch in stripped):
+        # full-width or Arabic-Indic digits: Python reads them, a person checking would not
+        raise ValueError(f"not a length: {stripped!r} (use the digits 0-9)")
     if stripped.startswith("-"):
         raise ValueError(f"length must be positive, got {stripped!r}")
     if _GROUPED.search(stripped):

@@ -36,7 +36,7 @@ def text(value: Any) -> str:
 def code(value: Any) -> str:
     """A code (part, lot, supplier, ...): printable characters only, at most 64 long (the
     longest code column); :func:`inventory.core.parse.code`."""
-    return parse.code(text(value), what="code", max_len=64)
+    return parse.code(text(value), what="code")
 
 
 def integer(value: Any) -> int:
