@@ -175,5 +175,24 @@ def build_demo(db: str = "demo.db", *, replace: bool = False, progress: bool = T
     with transaction(engine) as session:
         load_catalog(session, folder)
         replay(session, folder, progress=progress)
+        signs = demo_people(session)
         build_mark.mark_finished(session, DEMO)
+    if progress:
+        print("Web app sign-in (inventory serve, then http://127.0.0.1:8000/):")
+        for name, role, password in signs:
+            print(f"  {role:<10} name {name:<6} password {password}")
     return url
+
+
+#: One person per role for the demo shop, with the passwords the demo prints (demo only:
+#: a shop adds its own people with `inventory user add`).
+DEMO_PEOPLE = (("tech", "technician", "bench-demo-1"), ("boss", "manager", "office-demo-1"),
+               ("admin", "admin", "admin-demo-1"))
+
+
+def demo_people(session: Session) -> tuple[tuple[str, str, str], ...]:
+    from inventory.people.service import add_person
+
+    for name, role, password in DEMO_PEOPLE:
+        add_person(session, name, role, password)
+    return DEMO_PEOPLE
