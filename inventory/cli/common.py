@@ -21,7 +21,7 @@ from sqlalchemy.engine import Engine, make_url
 from sqlmodel import Session
 
 from inventory.core import build_mark, migrate
-from inventory.core.db import make_engine, resolve_url, transaction
+from inventory.core.db import make_engine, read_transaction, resolve_url, transaction
 from inventory.core.errors import InventoryError
 
 console = Console()
@@ -74,7 +74,9 @@ def unit_of_work(ctx: typer.Context) -> Iterator[Session]:
 
 @contextmanager
 def reading(ctx: typer.Context) -> Iterator[Session]:
-    with Session(engine(ctx)) as session:
+    """A read-only unit of work (:func:`inventory.core.db.read_transaction`): reports and
+    lookups never take SQLite's write lock, so they do not hold up a booking."""
+    with read_transaction(engine(ctx)) as session:
         yield session
 
 

@@ -1,8 +1,10 @@
 """Engine from a URL, transactions, and the schema-version check.
 
 SQLite (the default, a file ``inventory.db`` in the working directory) runs in WAL mode with
-foreign keys on; every transaction starts ``BEGIN IMMEDIATE`` so two writers serialise
-instead of failing half-way. PostgreSQL is reached by URL (psycopg 3); writers lock the
+foreign keys on; every write transaction starts ``BEGIN IMMEDIATE`` so two writers
+serialise instead of failing half-way, while reports and lookups read through
+:func:`read_transaction` (deferred, a WAL snapshot) and never take the write lock.
+PostgreSQL is reached by URL (psycopg 3); writers lock the
 balance rows they change (``SELECT ... FOR UPDATE``).
 
 Waits are bounded: a write that waits longer than ``$INVENTORY_LOCK_TIMEOUT`` seconds
@@ -87,8 +89,18 @@ def _sqlite_pragmas(dbapi_conn, _record, *, busy_ms: int = int(DEFAULT_LOCK_TIME
     cur.close()
 
 
+#: Execution option marking a read-only connection (see :func:`read_transaction`).
+READ_ONLY = "inventory_read_only"
+
+
 def _sqlite_begin(conn) -> None:
-    conn.exec_driver_sql("BEGIN IMMEDIATE")
+    # Writers take the write lock at BEGIN, so two writers serialise instead of failing
+    # half-way; readers begin DEFERRED and, in WAL mode, read a snapshot without blocking
+    # a writer or being blocked by one.
+    if conn.get_execution_options().get(READ_ONLY):
+        conn.exec_driver_sql("BEGIN DEFERRED")
+    else:
+        conn.exec_driver_sql("BEGIN IMMEDIATE")
 
 
 _engines: dict[str, Engine] = {}
@@ -148,6 +160,26 @@ def transaction(engine: Engine) -> Iterator[Session]:
         except BaseException:
             session.rollback()
             raise
+
+
+@contextmanager
+def read_transaction(engine: Engine) -> Iterator[Session]:
+    """A read-only unit of work for reports and lookups: it never takes the write lock, so a
+    month-end report does not hold up a booking at the bench.
+
+    SQLite: ``BEGIN DEFERRED`` (WAL: a consistent snapshot from the first read, writers go
+    on). PostgreSQL: ``REPEATABLE READ READ ONLY`` (one snapshot for the whole report, and a
+    write by mistake is refused). It always ends with a rollback: nothing is written."""
+    if engine.dialect.name == "postgresql":
+        bound = engine.execution_options(**{READ_ONLY: True}, isolation_level="REPEATABLE READ",
+                                         postgresql_readonly=True)
+    else:
+        bound = engine.execution_options(**{READ_ONLY: True})
+    with Session(bound, expire_on_commit=False) as session:
+        try:
+            yield session
+        finally:
+            session.rollback()
 
 
 def run_transaction(engine: Engine, work: Callable[[Session], T], *,
