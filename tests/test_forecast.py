@@ -380,3 +380,26 @@ def test_fit_distribution_cold_start_and_mean() -> None:
     np.testing.assert_allclose(dist.mean[3:], res.mean(2).mean(axis=1)[3:])
     assert np.all(dist.vmr >= 1.0)
     assert set(fit.a) >= {"intermittent"} or "pooled" in fit.a
+
+
+def test_chunked_fit_is_the_fit_of_each_interleaved_chunk() -> None:
+    """Bounded memory (issue 14 item 2): above ``chunk_series`` the series are fitted in
+    interleaved chunks. Each series gets exactly what a plain fit of its own chunk gives
+    (the reference: fit_forecast on that chunk's rows, with chunking off), in input order."""
+    y = _intermittent(5, n=90, t=36)
+    pos = np.arange(36) % 12
+    opt = fc.FitOptions(horizon=6, chunk_series=40)
+    whole = fc.fit_forecast(y, season_pos=pos, options=opt)
+    assert whole.level.shape == (90,) and whole.origin_paths.shape[1] == 90
+    for j in range(3):  # 90 series in chunks of at most 40: 3 chunks, rows j, j + 3, ...
+        rows = np.arange(j, 90, 3)
+        alone = fc.fit_forecast(y[rows], season_pos=pos,
+                                options=fc.FitOptions(horizon=6, chunk_series=0))
+        np.testing.assert_array_equal(whole.level[rows], alone.level)
+        np.testing.assert_array_equal(whole.method[rows], alone.method)
+        np.testing.assert_array_equal(whole.origin_paths[:, rows], alone.origin_paths)
+        np.testing.assert_array_equal(whole.classification.label[rows],
+                                      alone.classification.label)
+    # the distribution fit takes the merged result like any other
+    dist = fc.fit_distribution(y, whole, cover=2, hold=1).dist
+    assert len(dist) == 90

@@ -171,6 +171,10 @@ class FitOptions:
     - ``seasonal``: "auto" (on only if the backtest RMSSE improves by ``seasonal_gain``, a
       fraction), "on" or "off"; ``period``: season length in periods.
     - ``max_level``: largest ADIDA / IMAPA bucket.
+    - ``chunk_series``: above this many series the fit runs on interleaved chunks of at
+      most this many (series i goes to chunk i mod k), each chunk choosing its own class
+      constants, methods and season, so memory stays bounded (the candidate passes hold
+      about 14 KB per series); every chunk still has thousands of series per fit.
     """
 
     methods: tuple[str, ...] = METHODS
@@ -188,6 +192,7 @@ class FitOptions:
     seasonal_gain: float = 0.01
     period: int = 12
     max_level: int = 12
+    chunk_series: int = 4000
 
 
 @dataclass(frozen=True)
@@ -576,7 +581,10 @@ def fit_forecast(
     is off. ``groups``: label per series for pooling seasonal indices (default one pool).
     """
     opt = options or FitOptions()
-    v, obs = sm.prepare(y)
+    y_arr = np.asarray(y, dtype=float)
+    if y_arr.ndim == 2 and opt.chunk_series > 0 and y_arr.shape[0] > opt.chunk_series:
+        return _fit_in_chunks(y_arr, season_pos, groups, opt)
+    v, obs = sm.prepare(y_arr)
     n, t_len = v.shape
     cls = dm.classify(np.where(obs, v, np.nan))
     codes = cls.codes()
@@ -637,6 +645,55 @@ def fit_forecast(
         class_choice=choice, seasonal_scores=(plain_score, seasonal_score), season_screen=screen,
         params=_final_params(keys, cands),
     )
+
+
+def _fit_in_chunks(y: FloatArray, season_pos: ArrayLike | None, groups: ArrayLike | None,
+                   opt: FitOptions) -> ForecastResult:
+    """:func:`fit_forecast` on interleaved chunks of at most ``opt.chunk_series`` series,
+    merged in the original order (see :class:`FitOptions`)."""
+    n = y.shape[0]
+    k = -(-n // opt.chunk_series)
+    g_all = None if groups is None else np.asarray(groups)
+    parts = []
+    for j in range(k):
+        rows = np.arange(j, n, k)
+        parts.append((rows, fit_forecast(y[rows], season_pos=season_pos,
+                                         groups=None if g_all is None else g_all[rows],
+                                         options=replace(opt, chunk_series=0))))
+    order = np.argsort(np.concatenate([rows for rows, _ in parts]), kind="stable")
+
+    def cat(get, axis: int = 0) -> NDArray:
+        return np.take(np.concatenate([get(r) for _, r in parts], axis=axis), order, axis=axis)
+
+    first = parts[0][1]
+    cls = dm.Classification(
+        adi=cat(lambda r: r.classification.adi), cv2=cat(lambda r: r.classification.cv2),
+        n_demands=cat(lambda r: r.classification.n_demands),
+        label=cat(lambda r: r.classification.label), ddof=first.classification.ddof)
+    choice: dict[str, str] = {}
+    for _, r in parts:
+        for c, m in r.class_choice.items():
+            seen = choice.get(c, "")
+            if m not in seen.split(" | "):
+                choice[c] = f"{seen} | {m}" if seen else m
+    seasonal = any(r.seasonal for _, r in parts)
+    return ForecastResult(
+        level=cat(lambda r: r.level), method=cat(lambda r: r.method), classification=cls,
+        seasonal=seasonal, indices=cat(lambda r: r.indices), next_pos=first.next_pos,
+        origins=first.origins, origin_paths=cat(lambda r: r.origin_paths, axis=1),
+        scores={m: cat(lambda r, m=m: r.scores[m]) for m in first.scores},
+        class_choice=choice,
+        seasonal_scores=(_mean_of([r.seasonal_scores[0] for _, r in parts]),
+                         _mean_of([r.seasonal_scores[1] for _, r in parts])),
+        params={m: cat(lambda r, m=m: r.params[m]) for m in first.params},
+        season_screen=(_mean_of([r.season_screen[0] for _, r in parts]),
+                       _mean_of([r.season_screen[1] for _, r in parts])),
+    )
+
+
+def _mean_of(xs: list[float]) -> float:
+    ok = [x for x in xs if np.isfinite(x)]
+    return float(np.mean(ok)) if ok else float("nan")
 
 
 def with_level(result: ForecastResult, level: ArrayLike) -> ForecastResult:
