@@ -28,6 +28,7 @@ from inventory.bench.fit_geometry import (
 from inventory.bench.seals import MATERIALS, MEDIUM_STATUS, ROUND_SECTION, normalise_material
 from inventory.bench.sizes import normalise_designation, standard_orings
 from inventory.bench.tolerances import HOLE, SHAFT, check_role, limits
+from inventory.core.fits import fit_class_problems, seat_problems
 from inventory.core.model import Gland, Medium, Motion, PartKind, PartSpec, SeatSpec
 
 PASS, MARGINAL, FAIL = 0, 1, 2
@@ -804,6 +805,9 @@ def evaluate(c: PartColumns, seat: SeatSpec, rules: FitRules, *,
     family = FAMILY.get(PartKind(seat.part_kind))
     if family is None:
         return checks + _seat_problem(n, f"no fit rules for {seat.part_kind} seats")
+    impossible = seat_problems(seat) + fit_class_problems(seat)
+    if impossible:  # geometry that cannot exist or a class of the wrong role: no numbers
+        return checks + _seat_problem(n, "; ".join(f"{col}: {msg}" for col, msg in impossible))
     checks += _RULE_SETS[family](c, seat, rules)
     if family in MATERIAL_FAMILIES:
         mat = material_status_table(Medium(seat.medium), rules)[c.material]

@@ -12,16 +12,19 @@ to and including 120 mm; a band "over 30 to 50" holds 30 < size <= 50.
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 from functools import lru_cache
 
 from inventory.bench.sizes import ISO286_FILE, read_standard_csv
-
-GRADES = range(5, 12)
-SHAFT_LETTERS = "efgh"
-HOLE_LETTERS = "EFGH"
-_FIT = re.compile(r"^\s*([A-Za-z])\s*(\d{1,2})\s*$")
+from inventory.core.fits import (  # noqa: F401 - re-exported: the class names live in core
+    GRADES,
+    HOLE,
+    HOLE_LETTERS,
+    SHAFT,
+    SHAFT_LETTERS,
+    check_role,
+    parse_fit,
+)
 
 
 @dataclass(frozen=True, slots=True)
@@ -65,38 +68,6 @@ def _band(nominal_mm: float) -> _Band:
         f"nominal size {nominal_mm:g} mm is outside the ISO 286 table shipped "
         f"(over {low:g} up to {high:g} mm)"
     )
-
-
-def parse_fit(fit: str) -> tuple[str, int]:
-    """``"f7"`` -> ``("f", 7)``; ``ValueError`` for letters or grades not covered."""
-    m = _FIT.match(fit or "")
-    if not m:
-        raise ValueError(f"not a tolerance class: {fit!r} (examples: H8, f7, h9)")
-    letter, grade = m.group(1), int(m.group(2))
-    if letter not in SHAFT_LETTERS + HOLE_LETTERS:
-        raise ValueError(
-            f"tolerance class {fit!r} not covered: letters E-H (holes) and e-h (shafts)"
-        )
-    if grade not in GRADES:
-        raise ValueError(f"tolerance class {fit!r} not covered: grades 5 to 11")
-    return letter, grade
-
-
-HOLE, SHAFT = "hole", "shaft"
-
-
-def check_role(fit: str, role: str) -> tuple[str, int]:
-    """:func:`parse_fit`, and a ``ValueError`` when the class is of the other role: a hole
-    (bore, rod-gland groove) takes upper-case letters E-H, a shaft (rod, piston-groove root)
-    lower-case e-h (ISO 286-1 convention)."""
-    letter, grade = parse_fit(fit)
-    if role == HOLE and letter.islower():
-        raise ValueError(f"{fit.strip()} is a shaft class; a hole needs a hole class "
-                         f"(upper-case E-H, e.g. H8)")
-    if role == SHAFT and letter.isupper():
-        raise ValueError(f"{fit.strip()} is a hole class; a shaft needs a shaft class "
-                         f"(lower-case e-h, e.g. f7)")
-    return letter, grade
 
 
 def it_um(nominal_mm: float, grade: int) -> int:

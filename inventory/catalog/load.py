@@ -9,6 +9,7 @@ Rows whose key already exists are updated, so a load followed by an export round
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -17,7 +18,16 @@ from sqlmodel import Session, select
 
 from inventory.catalog.service import TABLES
 from inventory.core.errors import InventoryError, Problem, Source
-from inventory.core.model import Gland, Medium, Motion, PartKind, ServiceLevel, SpringLayout
+from inventory.core.fits import fit_class_problems, seat_problems
+from inventory.core.model import (
+    Gland,
+    Medium,
+    Motion,
+    PartKind,
+    SeatSpec,
+    ServiceLevel,
+    SpringLayout,
+)
 from inventory.core.tables import (
     ForkFamily,
     Kit,
@@ -200,10 +210,32 @@ def _check_refs(session: Session, recs: Records, parsed: dict[str, Parsed]) -> l
     return problems
 
 
+def _check_geometry(recs: Records, parsed: dict[str, Parsed]) -> list[Problem]:
+    """Seats whose geometry cannot exist (a groove root at or above its bore, a housing bore
+    not above its stanchion), tolerance classes of the wrong role or not covered (``f7``
+    typed for a bore), and parts whose outside diameter is not above the inside: an error
+    at the cell to blame (:mod:`inventory.core.fits`)."""
+    problems: list[Problem] = []
+    fields = [f.name for f in dataclasses.fields(SeatSpec)]
+    for src, r in recs.get("seats", []):
+        seat = SeatSpec(**{k: r[k] for k in fields if r.get(k) is not None})
+        for column, message in seat_problems(seat) + fit_class_problems(seat):
+            problems.append(Problem(message, source=parsed["seats"].source(src, column)))
+    for src, r in recs.get("parts", []):
+        if r.get("id_mm") is not None and r.get("od_mm") is not None \
+                and r["od_mm"] <= r["id_mm"]:
+            problems.append(Problem(
+                f"expected an outside diameter above the inside diameter "
+                f"(id_mm {r['id_mm']:g}), got {r['od_mm']:g}",
+                source=parsed["parts"].source(src, "od_mm")))
+    return problems
+
+
 def load_catalog(session: Session, path: str | Path) -> LoadReport:
     """Validate the whole catalog, then write it in the caller's transaction."""
     recs, parsed, problems = read_catalog(path)
     problems += _check_refs(session, recs, parsed)
+    problems += _check_geometry(recs, parsed)
     if problems:
         raise InventoryError(problems, hint="fix the rows above; nothing was written")
     report = LoadReport(tables=[t for t in ORDER if t in recs])
