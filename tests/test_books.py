@@ -415,3 +415,45 @@ def test_void_and_return_refuse_closed_books_dates(store):
                         "the return counts in the month it is booked")
     with transaction(store) as s:
         reopen_month(s, "2026-10", reason="test")
+
+
+# ------------------------------------------------------------------ first month, first run
+
+
+def test_first_month_with_under_a_month_of_history(shop):
+    # a shop that started on 2026-11-20: its first month end works and can be closed
+    ok("--db", shop, "stock", "receive", "OR-214", "5", "--cost", "0.25", "--date", "2026-11-20")
+    ok("--db", shop, "stock", "issue", "OR-214", "1", "--date", "2026-11-25")
+    out = ok("--db", shop, "report", "month", "2026-11", "--json", "--today", TODAY.isoformat())
+    assert '"closing_value": "1.00"' in out  # 4 x 0.25, hand count
+    ok("--db", shop, "month", "close", "2026-11", "--today", TODAY.isoformat())
+
+
+def test_catalog_without_locations_gets_the_default_location(tmp_path):
+    db = str(tmp_path / "shop.db")
+    files = {k: v for k, v in __import__("tests.conftest", fromlist=["TINY"]).TINY.items()
+             if k != "locations.csv"}
+    ok("--db", db, "init")
+    out = ok("--db", db, "catalog", "load", str(write_catalog(tmp_path / "cat", files)))
+    assert out.splitlines()[0] == "locations: 1 new, 0 updated"
+    assert ok("--db", db, "stock", "receive", "OR-214", "1", "--cost", "0.25").startswith(
+        "received 1 x OR-214")
+
+
+def test_init_creates_a_missing_postgresql_database(pg_server):
+    import uuid
+
+    import psycopg
+
+    from inventory.core.db import dispose_all
+
+    name = f"inv_test_{uuid.uuid4().hex[:12]}"
+    url = pg_server.rsplit("/", 1)[0] + f"/{name}"
+    try:
+        out = ok("--db", url, "init")
+        assert out.splitlines()[0] == f"created PostgreSQL database {name}"
+        assert "schema already at" in " ".join(ok("--db", url, "init").split())
+    finally:
+        dispose_all()
+        with psycopg.connect(pg_server.replace("+psycopg", ""), autocommit=True) as conn:
+            conn.execute(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')

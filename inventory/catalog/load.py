@@ -249,7 +249,17 @@ def load_catalog(session: Session, path: str | Path) -> LoadReport:
             report.inserted[table] = ins
             report.updated[table] = upd
         session.flush()
+    if session.exec(select(Location.id)).first() is None:
+        # No locations.csv and none before: stock goes to the ledger's default location.
+        session.add(Location(code=DEFAULT_LOCATION,
+                             description="Main store (default: the catalog has no locations.csv)"))
+        session.flush()
+        report.tables.insert(0, "locations")
+        report.inserted["locations"], report.updated["locations"] = 1, 0
     return report
+
+
+DEFAULT_LOCATION = "MAIN"  # the same code as inventory.stock.ledger.DEFAULT_LOCATION
 
 
 def _upsert(session: Session, model, where: dict[str, Any], values: dict[str, Any]) -> bool:

@@ -52,7 +52,11 @@ def init(ctx: typer.Context) -> None:
     """Create the database, or upgrade it to this version's schema."""
     from inventory.cli.common import engine
     from inventory.core import migrate
+    from inventory.core.provision import ensure_database
 
+    created = ensure_database(state(ctx).url)
+    if created:
+        say(f"created PostgreSQL database {created}")
     eng = engine(ctx, check_schema=False)
     before = migrate.current_revision(eng)
     migrate.upgrade(eng)

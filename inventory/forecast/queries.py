@@ -51,6 +51,8 @@ def _month_span(first: date, last: date) -> NDArray[np.datetime64]:
 
 
 def _month_no(year: int, month: int, months: NDArray[np.datetime64]) -> int:
+    if not months.size:  # no whole month of history yet: nothing falls inside the span
+        return -1
     return int((np.datetime64(f"{int(year):04d}-{int(month):02d}", "M") - months[0]).astype(int))
 
 

@@ -512,6 +512,9 @@ def demand_outlook(
     step("reading the history")
     until, first = last_complete_period(today, freq)
     hist = load_history(session, until=until, freq=freq)
+    if not hist.periods.size:  # a new shop: its first month is not over yet
+        raise InventoryError(f"no complete {'month' if freq == 'M' else 'week'} of history "
+                             f"before {today.isoformat()} to forecast from", kind="empty")
     ser = _series(hist, by)
     n, t_len = ser.y.shape
     if t_len < 1 or n == 0 or not (np.nan_to_num(ser.y) > 0).any():
