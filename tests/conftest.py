@@ -135,3 +135,11 @@ def store(db_url, tmp_path):
         load_catalog(s, write_catalog(tmp_path / "cat"))
     yield engine
     engine.dispose()
+
+
+def pytest_sessionfinish(session, exitstatus):
+    """No tests collected is a failure, not pytest's exit status 5: a run that tested
+    nothing must not pass CI (e.g. a wrong path or -k)."""
+    if exitstatus == pytest.ExitCode.NO_TESTS_COLLECTED:
+        session.exitstatus = pytest.ExitCode.TESTS_FAILED
+

@@ -370,7 +370,7 @@ def run_match(shop: Shop, req: MatchRequest) -> MatchResult:
         rows.sort(key=lambda r: (order[r["verdict"]], r["source"] != "stock"))
         return MatchResult(rows, "fitting", req)
     limit = DEFAULT_LIMIT if req.limit is None else req.limit
-    ranked = []
+    ranked: list[tuple] = []
     for arrays in _sources(shop, req, kind):
         try:
             found = match(req.query, arrays, tolerance=req.tolerance, limit=limit,

@@ -809,7 +809,7 @@ def _no_supplier(req, cal, c, codes, position, seen, a0, months: float = 3.0
                  ) -> list[Uncovered]:
     has = np.zeros(len(codes), dtype=bool)
     has[c.part] = True
-    out = []
+    out: list[Uncovered] = []
     rows = np.flatnonzero(~has & seen)
     if rows.size == 0:
         return out

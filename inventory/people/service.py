@@ -64,7 +64,7 @@ class PersonInfo:
 
 
 def _info(p: Person) -> PersonInfo:
-    return PersonInfo(p.name, p.role, p.active, _aware(p.created))
+    return PersonInfo(p.name, p.role, p.active, _aware(p.created) or p.created)
 
 
 def may(role: str, right: str) -> bool:
