@@ -1,7 +1,8 @@
 """Standard O-ring size series (SAE AS568, ISO 3601-1 metric) as numpy arrays.
 
 The tables ship with the package as CSV files in ``inventory/standards`` and are read once
-through :mod:`importlib.resources` (package data, not user files), then cached. Each file
+through :mod:`importlib.resources` (package data, not user files) and the project's one csv
+reader (:func:`inventory.sheets.csvread.csv_text_grid`), then cached. Each file
 starts with a ``# source: ...`` line naming where its numbers come from and which are
 recalled from memory; :func:`table_source` returns that line so reports can cite it.
 
@@ -11,7 +12,6 @@ Designations are labels only (REFERENCE.md 1.1, common practice): ``AS568-214`` 
 
 from __future__ import annotations
 
-import csv
 from dataclasses import dataclass
 from functools import cache, lru_cache
 from importlib import resources
@@ -19,6 +19,7 @@ from importlib import resources
 import numpy as np
 
 from inventory.core.units import MM_PER_INCH
+from inventory.sheets.csvread import csv_text_grid
 
 AS568_FILE = "as568.csv"
 ISO3601_FILE = "iso3601_metric.csv"
@@ -33,8 +34,10 @@ def read_standard_csv(name: str) -> tuple[str, tuple[dict[str, str], ...]]:
     comments = [line for line in text.splitlines() if line.startswith("#")]
     if not comments or not comments[0].startswith("# source:"):
         raise ValueError(f"standard table {name} lacks its '# source:' line")
-    body = [line for line in text.splitlines() if line.strip() and not line.startswith("#")]
-    rows = tuple(dict(row) for row in csv.DictReader(body))
+    body = "\n".join(line for line in text.splitlines()
+                     if line.strip() and not line.startswith("#"))
+    header, *lines = csv_text_grid(body, name, sniff=False)
+    rows = tuple(dict(zip(header, line, strict=True)) for line in lines)
     return comments[0][len("# source:"):].strip(), rows
 
 

@@ -27,7 +27,6 @@ origins and pools the results.
 
 from __future__ import annotations
 
-import csv
 import time
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -38,18 +37,19 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from inventory.core.choices import DEFAULT_ALLOCATION
+from inventory.core.errors import InventoryError
 from inventory.forecast import demand as dm
 from inventory.forecast import methods as fc
 from inventory.forecast.distributions import DemandDistribution
 from inventory.ordering import policy
 from inventory.ordering.calibration import NO_CALIBRATION, FillCalibration, learn_fill_calibration
-from inventory.stock.valuation import abc_classes
 from inventory.ordering.simulate import (  # noqa: F401  (re-exported: one import path)
     Allocation,
     Simulation,
     policy_levels,
     simulate_order_up_to,
 )
+from inventory.stock.valuation import abc_classes
 
 FloatArray = NDArray[np.float64]
 
@@ -104,6 +104,21 @@ def _parse_qty(text: str, where: str) -> float:
     return q
 
 
+def _csv_rows(p: Path) -> list[list[str]]:
+    """The lines of a demand file through the project's one csv reader
+    (:func:`inventory.sheets.csvread.csv_grid`: UTF-8, UTF-16 or Windows-1252; comma, semicolon
+    or tab), its problems as :class:`DemandFileError`."""
+    from inventory.sheets.csvread import csv_grid
+
+    try:
+        rows, _ = csv_grid(p)
+    except InventoryError as exc:
+        raise DemandFileError(str(exc)) from None
+    if not rows:
+        raise DemandFileError(f"{p}: empty file")
+    return rows
+
+
 def read_wide_csv(path: str | Path, *, month_column: str = "month") -> DemandTable:
     """A wide monthly CSV: a ``month`` column (YYYY-MM) and one column per part.
 
@@ -111,10 +126,7 @@ def read_wide_csv(path: str | Path, *, month_column: str = "month") -> DemandTab
     once. Months must be consecutive and increasing.
     """
     p = Path(path)
-    with p.open(newline="", encoding="utf-8-sig") as fh:
-        rows = list(csv.reader(fh))
-    if not rows:
-        raise DemandFileError(f"{p}: empty file")
+    rows = _csv_rows(p)
     header = [h.strip() for h in rows[0]]
     if month_column not in header:
         raise DemandFileError(f"{p}:1: no {month_column!r} column (header: {header[:5]}...)")
@@ -160,35 +172,39 @@ def read_long_csv(
     """A long CSV, one line per demand (date, part, qty), bucketed by calendar month (or
     ISO week with ``freq="W"``) over the whole date range; missing periods are zeros."""
     p = Path(path)
-    with p.open(newline="", encoding="utf-8-sig") as fh:
-        reader = csv.DictReader(fh)
-        fields = [f.strip() for f in (reader.fieldnames or [])]
-        missing = [c for c in (date_column, part_column, qty_column) if c not in fields]
-        if missing:
-            raise DemandFileError(f"{p}:1: missing column(s) {missing} (header: {fields})")
-        dates: list[np.datetime64] = []
-        parts: list[str] = []
-        qtys: list[float] = []
-        errors: list[str] = []
-        for r, row in enumerate(reader, start=2):
-            row = {k.strip(): v for k, v in row.items() if k is not None}
-            try:
-                dates.append(np.datetime64(row[date_column].strip(), "D"))
-            except (ValueError, AttributeError):
-                errors.append(f"{p}:{r}:{date_column}: expected a date, got {row[date_column]!r}")
-                continue
-            part = (row[part_column] or "").strip()
-            if not part:
-                errors.append(f"{p}:{r}:{part_column}: empty part")
-                dates.pop()
-                continue
-            try:
-                qtys.append(_parse_qty(row[qty_column] or "", f"{p}:{r}:{qty_column}"))
-            except DemandFileError as exc:
-                errors.append(str(exc))
-                dates.pop()
-                continue
-            parts.append(part)
+    grid = _csv_rows(p)
+    fields = [f.strip() for f in grid[0]]
+    missing = [c for c in (date_column, part_column, qty_column) if c not in fields]
+    if missing:
+        raise DemandFileError(f"{p}:1: missing column(s) {missing} (header: {fields})")
+    dates: list[np.datetime64] = []
+    parts: list[str] = []
+    qtys: list[float] = []
+    errors: list[str] = []
+    for r, cells in enumerate(grid[1:], start=2):
+        if not cells:
+            continue  # a blank line
+        # a short line leaves its last fields None (as a dictionary reader does), so a missing
+        # date is reported rather than read as no date
+        row: dict[str, str | None] = dict(zip(fields, [*cells, *[None] * len(fields)],
+                                              strict=False))
+        try:
+            dates.append(np.datetime64(row[date_column].strip(), "D"))
+        except (ValueError, AttributeError):
+            errors.append(f"{p}:{r}:{date_column}: expected a date, got {row[date_column]!r}")
+            continue
+        part = (row[part_column] or "").strip()
+        if not part:
+            errors.append(f"{p}:{r}:{part_column}: empty part")
+            dates.pop()
+            continue
+        try:
+            qtys.append(_parse_qty(row[qty_column] or "", f"{p}:{r}:{qty_column}"))
+        except DemandFileError as exc:
+            errors.append(str(exc))
+            dates.pop()
+            continue
+        parts.append(part)
     if errors:
         more = f" (and {len(errors) - 20} more)" if len(errors) > 20 else ""
         raise DemandFileError("\n".join(errors[:20]) + more)
@@ -206,8 +222,7 @@ def read_long_csv(
 def read_demand_csv(path: str | Path, *, freq: dm.Freq = "M") -> DemandTable:
     """Wide if the header has a ``month`` column, long if it has date, part and qty."""
     p = Path(path)
-    with p.open(newline="", encoding="utf-8-sig") as fh:
-        header = [h.strip() for h in next(csv.reader(fh), [])]
+    header = [h.strip() for h in _csv_rows(p)[0]]
     if "month" in header:
         return read_wide_csv(p)
     if {"date", "part", "qty"} <= set(header):

@@ -7,14 +7,13 @@ dropped; nothing else is interpreted here.
 
 from __future__ import annotations
 
-import csv
-import io
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from inventory.core.errors import InventoryError, Source
 from inventory.sheets.cells import is_blank
+from inventory.sheets.csvread import csv_grid, csv_text_grid, decode_csv  # noqa: F401
 
 SPREADSHEET_SUFFIXES = {".xlsx", ".xlsm", ".xls", ".ods"}
 
@@ -59,50 +58,6 @@ def _to_table(name: str, file: str, sheet: str | None, grid: list[list[Any]],
             if (row and row[0].__class__ is str and row[0] and not row[0].isspace())
             or has_data(row)]  # the first test is a shortcut for the usual row
     return Table(name, file, sheet, header, start + 1, rows)
-
-
-def decode_csv(data: bytes, file: str) -> tuple[str, str]:
-    """Text of a csv file and the encoding used: UTF-16 when it starts with a byte-order mark
-    (spreadsheet programs' "Unicode text"), UTF-8 (with or without BOM), else the Windows
-    western code page that spreadsheet programs often save in."""
-    if data.startswith((b"\xff\xfe", b"\xfe\xff")):
-        try:
-            return data.decode("utf-16"), "utf-16"
-        except UnicodeDecodeError:
-            pass
-    elif b"\x00" in data[:4096]:
-        raise InventoryError(
-            f"{file}: the file holds NUL bytes: it is not a text csv (perhaps UTF-16 without a "
-            "byte-order mark, or a binary file renamed .csv)",
-            hint="save it as 'CSV UTF-8' from the spreadsheet program")
-    for enc in ("utf-8-sig", "cp1252"):
-        try:
-            return data.decode(enc), enc
-        except UnicodeDecodeError:
-            continue
-    raise InventoryError(f"{file}: cannot decode the file as UTF-8 or Windows-1252",
-                         hint="save it as 'CSV UTF-8' from the spreadsheet program")
-
-
-def csv_grid(path: Path) -> tuple[list[list[Any]], str]:
-    """The cells of a csv file as text, and the encoding it was read in. The delimiter
-    (comma, semicolon or tab) is sniffed from the start of the file."""
-    data = path.read_bytes()
-    if not data.strip():
-        raise InventoryError(f"{path.name}: the file is empty",
-                             hint="export the sheet again with its header row and data")
-    text, enc = decode_csv(data, path.name)
-    try:
-        dialect = csv.Sniffer().sniff(text[:4096], delimiters=",;\t")
-    except csv.Error:
-        dialect = csv.excel
-    try:
-        grid = [list(r) for r in csv.reader(io.StringIO(text, newline=""), dialect)]
-    except csv.Error as exc:
-        raise InventoryError(f"{path.name}: not a readable csv file ({exc})",
-                             hint="save it again as 'CSV UTF-8' from the spreadsheet program"
-                             ) from None
-    return grid, enc
 
 
 def read_csv(path: Path) -> Table:
