@@ -9,7 +9,7 @@ import typer
 
 from inventory.cli import options
 from inventory.cli.common import print_json, print_table, reading, say, unit_of_work
-from inventory.stock import allocation, ledger, returns
+from inventory.stock import service
 
 SIGNED = {"ignore_unknown_options": True}  # lets "-2" through as a quantity
 
@@ -45,7 +45,7 @@ def receive(ctx: typer.Context,
             cost: str = typer.Option(None, "--cost", help="Unit cost; defaults to the last lot's."),
             lot: str = typer.Option(None, "--lot", help="Lot code; an existing lot is topped up."),
             cured: str = typer.Option(None, "--cured", help="Cure quarter, e.g. 2026Q3 or 3/26."),
-            location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location", help="Location code."),
+            location: str = typer.Option(service.DEFAULT_LOCATION, "--location", help="Location code."),
             order: str = typer.Option(None, "--order", help="Purchase order reference: receives "
                                       "against its line and closes it when complete."),
             tolerance: float = typer.Option(0.05, "--tolerance",
@@ -71,7 +71,7 @@ def receive(ctx: typer.Context,
             _report([got.movement], "received", part)
             say(got.summary)
             return
-        mv = ledger.receive(s, part, qty, unit_cost, lot=lot, cured=cured, location=location,
+        mv = service.book_receipt(s, part, qty, unit_cost, lot=lot, cured=cured, location=location,
                             ts=ts)
         _report([mv], "received", part)
 
@@ -92,9 +92,8 @@ def issue(ctx: typer.Context,
     lots past their storage limit are skipped unless --inspected."""
     qty, job = options.quantity(qty, "QTY"), options.code(job, "--job", "job")
     with unit_of_work(ctx) as s:
-        moves = ledger.issue(s, part, qty, location=location, reference=job, ts=when(day),
-                             inspected=inspected)
-        notes = allocation.notes(s)
+        moves, notes = service.book_issue(s, part, qty, location=location, reference=job,
+                                          ts=when(day), inspected=inspected)
     _report(moves, "issued", part)
     _notes(notes)
 
@@ -115,7 +114,7 @@ def reverse(ctx: typer.Context,
             ) -> None:
     """Reverse a movement booked by mistake with a new movement that points at it."""
     with unit_of_work(ctx) as s:
-        mv = returns.reverse(s, movement, reason=reason, ts=when(day))
+        mv = service.reverse(s, movement, reason=reason, ts=when(day))
     say(f"reversed movement {movement}: {mv.qty:+d} booked as movement {mv.id}")
 
 
@@ -129,7 +128,7 @@ def return_(ctx: typer.Context,
     """Put unused parts from a job back into the lots they came from (net usage drops)."""
     qty, job = options.quantity(qty, "QTY"), options.code(job, "--job", "job")
     with unit_of_work(ctx) as s:
-        got = returns.return_from_job(s, job, part, qty, ts=when(day))
+        got = service.return_from_job(s, job, part, qty, ts=when(day))
     _report(got.movements, "returned", part)
     if got.note:
         say(f"note: {got.note}")
@@ -144,7 +143,7 @@ def void_job(ctx: typer.Context,
     """Void a job: everything it took (less returns) goes back with new movements."""
     job = options.code(job, "JOB", "job")
     with unit_of_work(ctx) as s:
-        got = returns.void_job(s, job, reason=reason, ts=when(day))
+        got = service.void_job(s, job, reason=reason, ts=when(day))
     say(f"voided job {job}: {sum(m.qty for m in got.movements)} unit(s) back in "
         f"{len(got.movements)} movement(s)")
     if got.note:
@@ -156,7 +155,7 @@ def adjust(ctx: typer.Context,
            part: str = typer.Argument(...),
            qty: int = typer.Argument(..., help="Signed correction, e.g. -2 or 3."),
            reason: str = typer.Option(..., "--reason", help="Why (damaged, found, ...)."),
-           location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location", help="Location code."),
+           location: str = typer.Option(service.DEFAULT_LOCATION, "--location", help="Location code."),
            cost: str = typer.Option(None, "--cost", help="Unit cost of units added."),
            day: str = typer.Option(None, "--date", help="Booking date (default today)."),
            cost_ok: bool = typer.Option(False, "--cost-ok", help=COST_OK_HELP),
@@ -166,7 +165,7 @@ def adjust(ctx: typer.Context,
     reason = options.code(reason, "--reason", "reason")
     unit_cost, ts = _money(cost, cost_ok), when(day)
     with unit_of_work(ctx) as s:
-        _report(ledger.adjust(s, part, qty, reason=reason, location=location, ts=ts,
+        _report(service.book_adjustment(s, part, qty, reason=reason, location=location, ts=ts,
                               unit_cost=unit_cost), "adjusted", part)
 
 
@@ -174,13 +173,13 @@ def adjust(ctx: typer.Context,
 def count(ctx: typer.Context,
           part: str = typer.Argument(...),
           counted: int = typer.Argument(..., help="Units on the shelf."),
-          location: str = typer.Option(ledger.DEFAULT_LOCATION, "--location", help="Location code."),
+          location: str = typer.Option(service.DEFAULT_LOCATION, "--location", help="Location code."),
           day: str = typer.Option(None, "--date", help="Booking date (default today)."),
           ) -> None:
     """Record a shelf count; the variance is booked as a movement."""
     counted = options.quantity(counted, "COUNTED", zero=True)
     with unit_of_work(ctx) as s:
-        moves = ledger.count(s, part, counted, location=location, ts=when(day))
+        moves = service.book_count(s, part, counted, location=location, ts=when(day))
         if not moves:
             say(f"{part}: count agrees with the ledger ({counted})")
         for mv in moves:
@@ -198,7 +197,7 @@ def move(ctx: typer.Context,
     """Move stock between locations; lots keep their identity."""
     qty = options.quantity(qty, "QTY")
     with unit_of_work(ctx) as s:
-        moves = ledger.move(s, part, qty, from_location=from_, to_location=to, ts=when(day))
+        moves = service.book_move(s, part, qty, from_location=from_, to_location=to, ts=when(day))
         say(f"moved {qty} x {part} from {from_.upper()} to {to.upper()} "
             f"({len(moves) // 2} lot(s))")
 
@@ -212,7 +211,7 @@ def on_hand(ctx: typer.Context,
             ) -> None:
     """Stock on hand, summed from the ledger."""
     with reading(ctx) as s:
-        lines = ledger.on_hand(s, part=part, location=location, by_lot=by_lot)
+        lines = service.on_hand(s, part=part, location=location, by_lot=by_lot)
     if as_json:
         print_json([ln.to_dict() for ln in lines])
         return

@@ -5,10 +5,11 @@ from __future__ import annotations
 
 from datetime import datetime
 from decimal import Decimal
+from typing import Any
 
 from sqlmodel import Session, select
 
-from inventory.core.tables import Location
+from inventory.core.tables import Location, Movement
 from inventory.stock import ledger
 from inventory.stock.ledger import DEFAULT_LOCATION, StockLine
 
@@ -56,3 +57,61 @@ def move(session: Session, part: str, qty: int, *, from_location: str,
          to_location: str) -> int:
     ledger.move(session, part, qty, from_location=from_location, to_location=to_location)
     return qty
+
+
+# -- bookings for the command line: the ledger's own calls, returning the movements written
+# (the command line prints their lot and movement ids); keyword arguments are the ledger's
+# (ts, lot, cured, location, reference, inspected, unit_cost, ...).
+
+
+def book_receipt(session: Session, part: str, qty: int, unit_cost: Decimal | None = None,
+                 **kwargs: Any) -> Movement:
+    """:func:`inventory.stock.ledger.receive`."""
+    return ledger.receive(session, part, qty, unit_cost, **kwargs)
+
+
+def book_issue(session: Session, part: str, qty: int,
+               **kwargs: Any) -> tuple[list[Movement], list[str]]:
+    """:func:`inventory.stock.ledger.issue`, with the allocation's notes (lots skipped past
+    their storage limit, extensions recorded) for the person at the counter."""
+    from inventory.stock import allocation
+
+    moves = ledger.issue(session, part, qty, **kwargs)
+    return list(moves), list(allocation.notes(session))
+
+
+def book_adjustment(session: Session, part: str, qty: int, **kwargs: Any) -> list[Movement]:
+    """:func:`inventory.stock.ledger.adjust`."""
+    return list(ledger.adjust(session, part, qty, **kwargs))
+
+
+def book_count(session: Session, part: str, counted: int, **kwargs: Any) -> list[Movement]:
+    """:func:`inventory.stock.ledger.count` (no movement when the count agrees)."""
+    return list(ledger.count(session, part, counted, **kwargs))
+
+
+def book_move(session: Session, part: str, qty: int, **kwargs: Any) -> list[Movement]:
+    """:func:`inventory.stock.ledger.move` (two movements per lot moved)."""
+    return list(ledger.move(session, part, qty, **kwargs))
+
+
+def reverse(session: Session, movement: int, **kwargs: Any) -> Movement:
+    """:func:`inventory.stock.returns.reverse`: a new movement undoing one booked by mistake."""
+    from inventory.stock import returns
+
+    return returns.reverse(session, movement, **kwargs)
+
+
+def return_from_job(session: Session, job: str, part: str, qty: int, **kwargs: Any) -> Any:
+    """:func:`inventory.stock.returns.return_from_job` (its result has ``movements`` and
+    ``note``)."""
+    from inventory.stock import returns
+
+    return returns.return_from_job(session, job, part, qty, **kwargs)
+
+
+def void_job(session: Session, job: str, **kwargs: Any) -> Any:
+    """:func:`inventory.stock.returns.void_job` (its result has ``movements`` and ``note``)."""
+    from inventory.stock import returns
+
+    return returns.void_job(session, job, **kwargs)
