@@ -155,3 +155,54 @@ def test_same_job_written_another_way_is_already_applied(shop, tmp_path):
                      "the file says 3 (a job is imported once: give a corrected job a new "
                      f"reference, or correct stock with a stock adjustment; {NOTHING})"]
     assert unchanged
+
+
+def test_catalog_load_refuses_the_same_change(shop, tmp_path):
+    # `inventory catalog load` writes parts too: the same rule at the parts file's cell
+    folder = write_catalog(tmp_path / "cat2")
+    text = (folder / "parts.csv").read_text(encoding="utf-8")
+    (folder / "parts.csv").write_text(text.replace("OR-214,o_ring,", "OR-214,oil,")
+                                      .replace("NBR,70,,each,AS568-214", "NBR,70,,ml,AS568-214"),
+                                      encoding="utf-8")
+    engine = make_engine(f"sqlite:///{shop}")
+    before = snapshot(engine)
+    code, out, err = cli("--db", shop, "catalog", "load", str(folder))
+    assert code == 1 and "Traceback" not in err
+    assert err.strip().splitlines()[:2] == [
+        "error: parts.csv:B2 (kind): part OR-214 has stock movements (36 each on hand): kind "
+        "'oil' would change it, expected 'o_ring'",
+        "error: parts.csv:K2 (unit): part OR-214 has stock movements (36 each on hand): unit "
+        "'ml' would change it, expected 'each'"]
+    assert snapshot(engine) == before
+    # the unchanged catalog loads again (no movement, no change of kind: no complaint)
+    assert cli("--db", shop, "catalog", "load", str(write_catalog(tmp_path / "cat3")))[0] == 0
+
+
+def test_stocked_part_rule_on_both_databases(store, tmp_path):
+    """The same two refusals through the library on SQLite and PostgreSQL (the stock query
+    is SQL: a correlated EXISTS and a summed balance)."""
+    from dataclasses import replace
+
+    from inventory.catalog.load import load_catalog
+    from inventory.core.db import transaction
+    from inventory.core.errors import InventoryError
+    from inventory.history.imports import ImportSettings, run_import
+    from inventory.stock import ledger
+
+    with transaction(store) as s:
+        ledger.receive(s, "OR-214", 36, "0.25", user="test")
+    path = csv_file(tmp_path / "c.csv", "code,kind,unit\nOR-214,oil,ml\nWP-32,grease,each\n")
+    with Session(store) as s:
+        rep = run_import(s, path, replace(ImportSettings(kind="catalog")))
+    assert [(p.source.row, p.source.column, p.message.split(":")[1].strip()) for p in
+            rep.problems] == [(2, 2, "kind 'oil' would change it, expected 'o_ring'"),
+                              (2, 3, "unit 'ml' would change it, expected 'each'")]
+    folder = write_catalog(tmp_path / "cat2")
+    parts = folder / "parts.csv"
+    parts.write_text(parts.read_text(encoding="utf-8").replace("OR-214,o_ring,", "OR-214,oil,"),
+                     encoding="utf-8")
+    with pytest.raises(InventoryError) as err, transaction(store) as s:
+        load_catalog(s, folder)
+    assert [str(p) for p in err.value.problems] == [
+        "parts.csv:B2 (kind): part OR-214 has stock movements (36 each on hand): kind 'oil' "
+        "would change it, expected 'o_ring'"]

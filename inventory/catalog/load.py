@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from sqlalchemy import func
 from sqlmodel import Session, select
 
 from inventory.catalog.service import TABLES
@@ -33,8 +34,10 @@ from inventory.core.tables import (
     Kit,
     KitLine,
     Location,
+    Movement,
     Part,
     Seat,
+    StockBalance,
     Supplier,
     SupplierItem,
 )
@@ -231,11 +234,45 @@ def _check_geometry(recs: Records, parsed: dict[str, Parsed]) -> list[Problem]:
     return problems
 
 
+def _check_stocked(session: Session, recs: Records, parsed: dict[str, Parsed]) -> list[Problem]:
+    """A part with stock movements keeps its kind and unit (re-typing an O-ring with stock as
+    oil in ml would change what every movement of it means): a row that would change them is
+    an error at its cell. A row without a unit means "each", as it does when loading."""
+    rows = recs.get("parts", [])
+    codes = [r["code"] for _, r in rows]
+    if not codes:
+        return []
+    stocked: dict[str, tuple[str, str, int]] = {}
+    for i in range(0, len(codes), 500):
+        chunk = codes[i:i + 500]
+        moved = (select(Movement.part_id).where(Movement.part_id == Part.id).exists())
+        held = (select(func.coalesce(func.sum(StockBalance.qty), 0))
+                .where(StockBalance.part_id == Part.id).scalar_subquery())
+        for code, kind, unit, on_hand in session.exec(
+                select(Part.code, Part.kind, Part.unit, held)
+                .where(Part.code.in_(chunk), moved)):
+            stocked[code] = (str(kind), str(unit), int(on_hand))
+    problems: list[Problem] = []
+    for src, r in rows:
+        if r["code"] not in stocked:
+            continue
+        kind, unit, on_hand = stocked[r["code"]]
+        for name, now, given in (("kind", kind, str(r["kind"])),
+                                 ("unit", unit, str(r["unit"] or "each"))):
+            if given != now:
+                problems.append(Problem(
+                    f"part {r['code']} has stock movements ({on_hand} {unit} on hand): "
+                    f"{name} {given!r} would change it, expected {now!r}", kind="conflict",
+                    source=parsed["parts"].source(src, name)))
+    return problems
+
+
 def load_catalog(session: Session, path: str | Path) -> LoadReport:
     """Validate the whole catalog, then write it in the caller's transaction."""
     recs, parsed, problems = read_catalog(path)
     problems += _check_refs(session, recs, parsed)
     problems += _check_geometry(recs, parsed)
+    problems += _check_stocked(session, recs, parsed)
     if problems:
         raise InventoryError(problems, hint="fix the rows above; nothing was written")
     report = LoadReport(tables=[t for t in ORDER if t in recs])
