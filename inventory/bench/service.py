@@ -509,3 +509,9 @@ class ShopCache:
                 self.loads += 1
             parts, arrays, by_code = self._parts, self._arrays, self._by_code
         return Shop(parts, arrays, _StockOnDemand(session, by_code, on), on)
+
+
+def fork_code(session: Session, text: str) -> str:
+    """The fork family code for ``text`` (its code, any case); unknown -> one line with the
+    closest codes."""
+    return lookup.fork(session, text).code

@@ -19,7 +19,6 @@ from inventory.bench.fit import CAUTION, FitResult, FitRules, fit, kind_applies
 from inventory.bench.matching import MatchQuery, PartArrays, standard_part_arrays
 from inventory.bench.part_search import find_parts
 from inventory.cli.common import console, print_json, print_table, reading, say
-from inventory.core import lookup
 from inventory.core.convert import all_seats
 from inventory.core.errors import InventoryError
 from inventory.core.model import PartKind
@@ -311,7 +310,7 @@ def fit_command(ctx: typer.Context,
             return
         seats = all_seats(s)
         if fork is not None:
-            code = lookup.fork(s, fork).code
+            code = svc.fork_code(s, fork)
             seats = [x for x in seats if x.fork == code]
     applicable = [x for x in seats if kind_applies(spec.kind, x.part_kind, rules=rules)]
     results = svc.fit_everywhere(spec, applicable, rules=rules, reference_shore_a=ref,

@@ -8,16 +8,14 @@ import typer
 
 from inventory.cli import options
 from inventory.cli.common import console, print_json, print_table, reading, unit_of_work
-from inventory.core import lookup
 from inventory.core.errors import InventoryError
+from inventory.history import service as history
 from inventory.history.jobs import (
     JobItem,
-    fork_choices,
     job_detail,
     list_jobs,
     next_ref,
     record_job,
-    resolve_fork_text,
     service_level,
 )
 
@@ -58,22 +56,6 @@ def parse_part(spec: str) -> JobItem:
     return JobItem(code, n)
 
 
-def resolve_fork(session, text: str) -> str:
-    """A fork family code from a code or a free text the import would accept on its own."""
-    try:
-        return lookup.fork(session, text).code
-    except InventoryError:
-        pass
-    choices, remembered, codes = fork_choices(session)
-    code, _, _, cands = resolve_fork_text(text, choices, remembered, codes)
-    if code:
-        return code
-    best = ", ".join(f"{c.code} ({c.score:.0f})" for c in cands[:3])
-    raise InventoryError(f"unknown fork family {text!r}", kind="unknown",
-                         hint=f"closest: {best}" if best else "list them with "
-                         "`inventory catalog export`")
-
-
 @app.command()
 def add(ctx: typer.Context,
         day: str = typer.Option(None, "--date", help="Job date, e.g. 2026-03-14 (default today)."),
@@ -101,7 +83,7 @@ def add(ctx: typer.Context,
         raise InventoryError("a job needs at least one --kit or --part",
                              hint="e.g. --kit K-TR34-LL or --part OR-214=2")
     with unit_of_work(ctx) as s:
-        code = resolve_fork(s, fork)
+        code = history.resolve_fork(s, fork)
         job_ref = ref or next_ref(s, d)
         record_job(s, ref=job_ref, day=d, fork=code, service=level, items=items, hours=hours,
                    fork_ref=fork_ref)

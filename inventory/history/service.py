@@ -21,7 +21,7 @@ if TYPE_CHECKING:
 #: What ``export`` can write (inventory.history.exports uses this list).
 TABLES = ("parts", "stock", "lots", "movements", "jobs")
 
-__all__ = ["KINDS", "TABLES", "export_table", "import_file", "write_template"]
+__all__ = ["KINDS", "TABLES", "export_table", "import_file", "resolve_fork", "write_template"]
 
 
 def import_file(session: Session, file: str | Path, *, kind: str, apply: bool,
@@ -47,3 +47,24 @@ def write_template(session: Session, kind: str, target: str | Path) -> Path:
     from inventory.history.exports import write_template as write
 
     return write(session, kind, target)
+
+
+def resolve_fork(session: Session, text: str) -> str:
+    """A fork family code from its code or from a free text the history import would accept
+    on its own; otherwise one line naming the closest families."""
+    from inventory.core import lookup
+    from inventory.core.errors import InventoryError
+    from inventory.history.jobs import fork_choices, resolve_fork_text
+
+    try:
+        return lookup.fork(session, text).code
+    except InventoryError:
+        pass
+    choices, remembered, codes = fork_choices(session)
+    code, _, _, cands = resolve_fork_text(text, choices, remembered, codes)
+    if code:
+        return code
+    best = ", ".join(f"{c.code} ({c.score:.0f})" for c in cands[:3])
+    raise InventoryError(f"unknown fork family {text!r}", kind="unknown",
+                         hint=f"closest: {best}" if best else "list them with "
+                         "`inventory catalog export`")
