@@ -54,7 +54,17 @@ def test_forecast_json_table_workbook_and_charts(shop, monkeypatch, capsys, tmp_
     assert doc["files"] == []  # --json writes files only when asked
     assert doc["forecast_periods"] == ["2026-07-01", "2026-08-01", "2026-09-01", "2026-10-01"]
     wp = next(s for s in doc["series"] if s["code"] == "WP-32")
-    assert set(wp) >= {"code", "kind", "class", "method", "forecast", "low", "high", "cover"}
+    assert set(wp) >= {"code", "kind", "class", "method", "forecast", "low", "high", "cover",
+                       "unit", "method_phrase"}
+    # plain words (issue 14 item 3): oil is counted in ml, seals each; the technical method
+    # stays in --json beside the phrase a manager reads, which names the demand pattern
+    oil = next(s for s in doc["series"] if s["code"] == "OIL-5")
+    assert oil["unit"] == "ml" and wp["unit"] == "each"
+    from inventory.forecast.service import PLAIN_CLASS
+
+    for s in doc["series"]:
+        assert s["method_phrase"].startswith(PLAIN_CLASS[s["class"]])
+        assert ("forks due back" in s["method_phrase"]) == (s["installed_base_weight"] > 0)
     assert len(wp["forecast"]) == 4 and all(lo <= hi for lo, hi in zip(wp["low"], wp["high"],
                                                                         strict=True))
     # the table, the default workbook and charts under reports/
@@ -62,6 +72,7 @@ def test_forecast_json_table_workbook_and_charts(shop, monkeypatch, capsys, tmp_
                          "--top", "1", "--part", "OR-214")
     assert code == 0, err
     assert "Forecast by part" in out and "WP-32" in out and "OR-214" in out
+    assert "total over 2 months" in " ".join(out.split()) and " mean " not in out
     assert "Season:" in out and "Installed base:" in out
     book = tmp_path / "reports" / "forecast-part-2026-07.xlsx"
     assert book.exists()

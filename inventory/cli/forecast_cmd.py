@@ -75,13 +75,14 @@ def render_table(report: ForecastReport, rows: int, codes: tuple[str, ...] = ())
     periods = [_label(report, d) for d in report.forecast_periods]
     q_lo, q_hi = (round(100 * q) for q in report.quantiles)
     cover = f"{report.cover_periods:.3g} {unit}s"
-    header = ["code", "class", "method", *periods, f"{cover} mean", f"{q_lo}-{q_hi} %"]
-    body = [[s.code, s.cls, s.label, *[_fmt(x) for x in s.forecast], _fmt(s.cover_mean),
+    header = ["code", "unit", "how it is forecast", *periods,
+              f"total over {cover} (lead time + review)", f"{q_lo}-{q_hi} % range of that total"]
+    body = [[s.code, s.unit, s.phrase, *[_fmt(x) for x in s.forecast], _fmt(s.cover_mean),
              f"{s.cover_low}-{s.cover_high}"] for s in shown]
     left = len(report.series) - len(shown)
     caption = (f"{len(shown)} of {len(report.series)} series by usage value"
                + (f"; {left} more in the workbook or --json" if left > 0 else ""))
-    table = Table(title=f"Forecast by {report.by}, units per {unit}, from "
+    table = Table(title=f"Forecast by {report.by}, per {unit} in each part's unit, from "
                         f"{report.today.isoformat()}", caption=caption, header_style="bold")
     for i, h in enumerate(header):
         table.add_column(h, justify="left" if i < 3 else "right", no_wrap=i in (0, 2))
@@ -96,7 +97,8 @@ def render_table(report: ForecastReport, rows: int, codes: tuple[str, ...] = ())
         say(f"Installed base: {ibi.reason}; {ibi.forks} forks, return probability "
             f"{ibi.return_probability:.2f}, median {ibi.hours_per_week:.1f} ride h/week")
     if report.class_choice:
-        say("Methods per class: " + ", ".join(f"{c} {m}" for c, m in
+        say("Methods per class (technical; also in --json and the workbook): "
+            + ", ".join(f"{c} {m}" for c, m in
                                              sorted(report.class_choice.items())))
     else:
         say("Methods: too little history to choose by backtest; one method for all")

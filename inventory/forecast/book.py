@@ -37,16 +37,18 @@ def forecast_sheet(report: ForecastReport) -> SheetSpec:
     """One row per series: what it is, the forecast per period, the cover range."""
     q_lo, q_hi = (f"{round(100 * q)} %" for q in report.quantiles)
     labels = [period_label(report, d) for d in report.forecast_periods]
-    header = ["code", "kind", "class", "method", "installed base weight", "unit cost",
-              "usage value (12 months)",
-              *labels, "cover mean", f"cover {q_lo}", "cover median", f"cover {q_hi}"]
-    rows = [[s.code, s.kind, s.cls, s.method, s.ib_weight, s.unit_cost, round(s.usage_value, 2),
+    header = ["code", "kind", "unit", "class", "how it is forecast", "method (technical)",
+              "installed base weight", "unit cost", "usage value (12 months)",
+              *labels, "total over cover", f"total over cover {q_lo}",
+              "total over cover median", f"total over cover {q_hi}"]
+    rows = [[s.code, s.kind, s.unit, s.cls, s.phrase, s.method, s.ib_weight, s.unit_cost,
+             round(s.usage_value, 2),
              *[round(x, 2) for x in s.forecast], round(s.cover_mean, 2), s.cover_low,
              s.cover_median, s.cover_high]
             for s in sorted(report.series, key=lambda s: (-s.usage_value, s.code))]
     fmt = {h: "0.00" for h in labels}
     fmt.update({"unit cost": "#,##0.00##", "usage value (12 months)": "#,##0.00",
-                "cover mean": "0.00"})
+                "total over cover": "0.00"})
     return SheetSpec("Forecast", header, rows, number_formats=fmt)
 
 

@@ -88,15 +88,30 @@ class SeriesForecast:
     cover_median: int
     cover_high: int
     ib_weight: float = 0.0
+    unit: str = "each"
 
     @property
     def label(self) -> str:
-        """The method, with the installed-base weight when it was blended in."""
+        """The technical method, with the installed-base weight when it was blended in."""
         return self.method + (f" +IB {self.ib_weight:.1f}" if self.ib_weight > 0 else "")
+
+    @property
+    def phrase(self) -> str:
+        """The method in a manager's words: how the demand was smoothed, what its pattern
+        is, and whether the forks due back for service fed it."""
+        words = PLAIN_CLASS.get(self.cls, f"smoothed, {self.cls}")
+        if self.ib_weight > 0.5 + 1e-9:
+            words += ", mostly from forks due back"
+        elif self.ib_weight >= 0.5 - 1e-9:
+            words += ", half from forks due back"
+        elif self.ib_weight > 0:
+            words += ", partly from forks due back"
+        return words
 
     def to_dict(self) -> dict[str, Any]:
         return {
-            "code": self.code, "kind": self.kind, "class": self.cls, "method": self.method,
+            "code": self.code, "kind": self.kind, "unit": self.unit, "class": self.cls,
+            "method": self.method, "method_phrase": self.phrase,
             "installed_base_weight": self.ib_weight,
             "unit_cost": self.unit_cost, "usage_value": round(self.usage_value, 2),
             "history": list(self.history), "forecast": [round(x, 3) for x in self.forecast],
@@ -282,6 +297,16 @@ class _Series:
     to_series: FloatArray | None
     family_of: FloatArray | None
     unit_cost: list[float | None]
+
+
+#: the demand pattern (Syntetos-Boylan-Croston class) as a manager reads it
+PLAIN_CLASS = {
+    "smooth": "smoothed, steady",
+    "erratic": "smoothed, steady but uneven sizes",
+    "intermittent": "smoothed, intermittent",
+    "lumpy": "smoothed, intermittent and uneven sizes",
+    "no demand": "not sold yet: the rate of new parts",
+}
 
 
 def _scale(kind: str) -> str:
@@ -668,6 +693,7 @@ def forecast_items(
             cover_mean=float(over.mean[i]), cover_low=int(c_lo[i]), cover_median=int(c_med[i]),
             cover_high=int(c_hi[i]),
             ib_weight=0.0 if out.ib_weights is None else float(out.ib_weights[i]),
+            unit="jobs" if by == "family" else _scale(out.kinds[i]),
         ))
     return ForecastReport(
         today=today, by=by, freq=freq, horizon=horizon,
