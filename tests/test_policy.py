@@ -280,3 +280,27 @@ def test_pooled_levels_meet_the_pooled_target(method: str) -> None:
     per_part = policy.order_up_to_levels(d, np.where(groups == "A", 0.97, 0.90))
     # per-part rounding overshoots the pooled target, so meeting it pooled needs less stock
     assert levels.sum() <= per_part.sum()
+
+
+def test_one_level_search_finds_the_smallest_level_or_raises() -> None:
+    """Issue 10 item 8: one level search for the planner and the backtest. It finds the
+    same level as a plain linear scan over whole units (the reference), and a target no
+    level reaches raises instead of returning a level that silently misses it."""
+    from inventory.forecast.distributions import negative_binomial
+    from inventory.ordering.levels import reorder_point_for_fill
+    from inventory.ordering.policy import cycle_fill_rate, order_up_to_levels, smallest_level
+
+    dist = negative_binomial([0.3, 2.0, 7.5], 2.5)
+    got = order_up_to_levels(dist, 0.95, lead_time=1, review_period=1)
+    for i in range(3):
+        d = dist.take(np.array([i]))
+        s = 0
+        while cycle_fill_rate(d, s, lead_time=1, review_period=1)[0] < 0.95 - 1e-12:
+            s += 1
+        assert got[i] == s
+    # the reorder point goes through the same search
+    rp = reorder_point_for_fill(dist, [5, 5, 5], 0.9, protection=2.0)
+    assert np.all(rp >= -6)
+    with pytest.raises(RuntimeError, match="no level reaches the target"):
+        smallest_level(lambda s, idx: s >= 1e30, np.full(2, -1.0), np.ones(2),
+                       np.arange(2), max_doublings=5, what="test")

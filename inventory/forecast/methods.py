@@ -650,44 +650,69 @@ def fit_forecast(
 def _fit_in_chunks(y: FloatArray, season_pos: ArrayLike | None, groups: ArrayLike | None,
                    opt: FitOptions) -> ForecastResult:
     """:func:`fit_forecast` on interleaved chunks of at most ``opt.chunk_series`` series,
-    merged in the original order (see :class:`FitOptions`)."""
+    merged in the original order (see :class:`FitOptions`). Each chunk's result is copied
+    into the merged arrays and dropped before the next chunk is fitted."""
     n = y.shape[0]
     k = -(-n // opt.chunk_series)
     g_all = None if groups is None else np.asarray(groups)
-    parts = []
+    out: dict[str, NDArray] = {}
+    choice: dict[str, str] = {}
+    seasonal = False
+    s_scores: list[tuple[float, float]] = []
+    screens: list[tuple[float, float]] = []
+    first: ForecastResult | None = None
+
+    def put(key: str, rows: NDArray[np.int64], value: NDArray, axis: int = 0) -> None:
+        if key not in out:
+            shape = list(value.shape)
+            shape[axis] = n
+            dtype = value.dtype if value.dtype.kind != "U" else np.dtype("<U128")
+            out[key] = np.empty(shape, dtype=dtype)
+        idx: list[slice | NDArray[np.int64]] = [slice(None)] * value.ndim
+        idx[axis] = rows
+        out[key][tuple(idx)] = value
+
     for j in range(k):
         rows = np.arange(j, n, k)
-        parts.append((rows, fit_forecast(y[rows], season_pos=season_pos,
-                                         groups=None if g_all is None else g_all[rows],
-                                         options=replace(opt, chunk_series=0))))
-    order = np.argsort(np.concatenate([rows for rows, _ in parts]), kind="stable")
-
-    def cat(get, axis: int = 0) -> NDArray:
-        return np.take(np.concatenate([get(r) for _, r in parts], axis=axis), order, axis=axis)
-
-    first = parts[0][1]
-    cls = dm.Classification(
-        adi=cat(lambda r: r.classification.adi), cv2=cat(lambda r: r.classification.cv2),
-        n_demands=cat(lambda r: r.classification.n_demands),
-        label=cat(lambda r: r.classification.label), ddof=first.classification.ddof)
-    choice: dict[str, str] = {}
-    for _, r in parts:
-        for c, m in r.class_choice.items():
-            seen = choice.get(c, "")
+        r = fit_forecast(y[rows], season_pos=season_pos,
+                         groups=None if g_all is None else g_all[rows],
+                         options=replace(opt, chunk_series=0))
+        c = r.classification
+        for key, val in (("level", r.level), ("method", r.method), ("adi", c.adi),
+                         ("cv2", c.cv2), ("n_demands", c.n_demands), ("label", c.label),
+                         ("indices", r.indices)):
+            put(key, rows, np.asarray(val))
+        put("paths", rows, r.origin_paths, axis=1)
+        for m, val in r.scores.items():
+            put("score:" + m, rows, val)
+        for m, val in r.params.items():
+            put("param:" + m, rows, val)
+        for cl, m in r.class_choice.items():
+            seen = choice.get(cl, "")
             if m not in seen.split(" | "):
-                choice[c] = f"{seen} | {m}" if seen else m
-    seasonal = any(r.seasonal for _, r in parts)
+                choice[cl] = f"{seen} | {m}" if seen else m
+        seasonal = seasonal or r.seasonal
+        s_scores.append(r.seasonal_scores)
+        screens.append(r.season_screen)
+        if first is None:
+            first = r
+        del r
+    assert first is not None
+
+    def text(key: str) -> NDArray[np.str_]:
+        return out[key].astype(str)  # the narrowest unicode width again
+
+    cls = dm.Classification(adi=out["adi"], cv2=out["cv2"], n_demands=out["n_demands"],
+                            label=text("label"), ddof=first.classification.ddof)
     return ForecastResult(
-        level=cat(lambda r: r.level), method=cat(lambda r: r.method), classification=cls,
-        seasonal=seasonal, indices=cat(lambda r: r.indices), next_pos=first.next_pos,
-        origins=first.origins, origin_paths=cat(lambda r: r.origin_paths, axis=1),
-        scores={m: cat(lambda r, m=m: r.scores[m]) for m in first.scores},
+        level=out["level"], method=text("method"), classification=cls, seasonal=seasonal,
+        indices=out["indices"], next_pos=first.next_pos, origins=first.origins,
+        origin_paths=out["paths"],
+        scores={m[6:]: v for m, v in out.items() if m.startswith("score:")},
         class_choice=choice,
-        seasonal_scores=(_mean_of([r.seasonal_scores[0] for _, r in parts]),
-                         _mean_of([r.seasonal_scores[1] for _, r in parts])),
-        params={m: cat(lambda r, m=m: r.params[m]) for m in first.params},
-        season_screen=(_mean_of([r.season_screen[0] for _, r in parts]),
-                       _mean_of([r.season_screen[1] for _, r in parts])),
+        seasonal_scores=(_mean_of([x[0] for x in s_scores]), _mean_of([x[1] for x in s_scores])),
+        params={m[6:]: v for m, v in out.items() if m.startswith("param:")},
+        season_screen=(_mean_of([x[0] for x in screens]), _mean_of([x[1] for x in screens])),
     )
 
 

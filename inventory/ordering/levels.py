@@ -22,7 +22,8 @@ backtest also uses); this module only prepares their inputs for a real supplier:
   and the fill rate is one minus that over Q (Silver, Pyke and Peterson ch. 7;
   REFERENCE.md 8 gives the normal form 1 - sigma_L G(k) / Q, the second term being
   negligible there). :func:`reorder_point_for_fill` finds the smallest whole s by bisection,
-  for any of the distribution kinds.
+  for any of the distribution kinds, with the one level search of
+  :func:`inventory.ordering.policy.smallest_level` (which raises rather than miss a target).
 """
 
 from __future__ import annotations
@@ -124,24 +125,8 @@ def reorder_point_for_fill(
     active = np.flatnonzero(over.mean > 0)
     hi = np.ceil(over.mean + 4.0 * np.sqrt(over.variance()) + 1.0)
     lo = -np.ceil(q) - 1.0  # a level of -Q - 1 fills nothing
-    todo = active
-    for _ in range(max_doublings):
-        if todo.size == 0:
-            break
-        ok = meets(hi[todo], todo)
-        todo = todo[~ok]
-        hi[todo] = 2.0 * hi[todo] + 1.0
-    gap = 1.0 if whole else tol
-    todo = active[hi[active] - lo[active] > gap]
-    while todo.size:
-        mid = 0.5 * (lo[todo] + hi[todo])
-        if whole:
-            mid = np.floor(mid)
-        ok = meets(mid, todo)
-        hi[todo] = np.where(ok, mid, hi[todo])
-        lo[todo] = np.where(ok, lo[todo], mid)
-        todo = todo[hi[todo] - lo[todo] > gap]
-    out = hi.copy()
+    out = policy.smallest_level(meets, lo, hi, active, whole=whole, tol=tol,
+                                max_doublings=max_doublings, what="reorder_point_for_fill")
     out[over.mean <= 0] = -1.0
     return out
 

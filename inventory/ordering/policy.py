@@ -25,6 +25,7 @@ Everything is vectorised over parts (numpy arrays); scalars broadcast.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from decimal import Decimal
 from typing import Literal
 
@@ -47,6 +48,7 @@ __all__ = [
     "order_up_to_normal",
     "cycle_fill_rate",
     "order_up_to_levels",
+    "smallest_level",
     "expected_fill",
     "pooled_order_up_to_levels",
     "eoq",
@@ -212,7 +214,7 @@ def order_up_to_levels(
     lt = np.broadcast_to(_f(lead_time), (n,))
     rp = np.broadcast_to(_f(review_period), (n,))
 
-    def meets(s: FloatArray, idx: NDArray[np.intp]) -> NDArray[np.bool_]:
+    def meets(s: FloatArray, idx: NDArray[np.int64]) -> NDArray[np.bool_]:
         fr = cycle_fill_rate(dist.take(idx), s, lead_time=lt[idx], review_period=rp[idx])
         return fr >= target[idx] - 1e-12
 
@@ -220,26 +222,55 @@ def order_up_to_levels(
     hi = np.ceil(cover.mean + 4.0 * np.sqrt(cover.variance()) + 1.0)
     active = np.flatnonzero(dist.mean > 0)
     hi[dist.mean <= 0] = 0.0
-    # grow the upper bracket until it meets the target
-    todo = active
+    out = smallest_level(meets, np.full(n, -1.0), hi, active, max_doublings=max_doublings,
+                         what="order_up_to_levels")
+    return out.astype(np.int64)
+
+
+def smallest_level(
+    meets: Callable[[FloatArray, NDArray[np.int64]], NDArray[np.bool_]],
+    lo: FloatArray,
+    hi: FloatArray,
+    active: NDArray[np.int64],
+    *,
+    whole: bool = True,
+    tol: float = 1e-7,
+    max_doublings: int = 40,
+    what: str = "level search",
+) -> FloatArray:
+    """THE level search of the planner and the backtest: per part in ``active``, the
+    smallest level in (lo, hi] for which ``meets(levels, rows)`` holds, ``meets`` being
+    monotone (false below, true from some level on).
+
+    ``lo`` must fail (or be a floor no answer lies below); ``hi`` is a first guess of an
+    upper bracket and grows (2 hi + 1) until it meets, at most ``max_doublings`` times:
+    a part that still fails raises ``RuntimeError`` naming ``what``, never a silent miss.
+    Then a vectorised bisection: whole units (``whole``) or to ``tol``. Rows outside
+    ``active`` keep ``hi``. Returns a new array.
+    """
+    lo = np.array(lo, dtype=float)
+    hi = np.array(hi, dtype=float)
+    todo = np.asarray(active, dtype=np.int64)
     for _ in range(max_doublings):
         if todo.size == 0:
             break
         ok = meets(hi[todo], todo)
         todo = todo[~ok]
         hi[todo] = 2.0 * hi[todo] + 1.0
-    else:
-        if todo.size:
-            raise RuntimeError("order_up_to_levels: no level reaches the target")
-    lo = np.full(n, -1.0)
-    todo = active[hi[active] - lo[active] > 1]
+    if todo.size and not np.all(meets(hi[todo], todo)):
+        raise RuntimeError(f"{what}: no level reaches the target for {todo.size} part(s) "
+                           f"within {max_doublings} doublings")
+    gap = 1.0 if whole else tol
+    todo = active[hi[active] - lo[active] > gap]
     while todo.size:
-        mid = np.floor(0.5 * (lo[todo] + hi[todo]))
+        mid = 0.5 * (lo[todo] + hi[todo])
+        if whole:
+            mid = np.floor(mid)
         ok = meets(mid, todo)
         hi[todo] = np.where(ok, mid, hi[todo])
         lo[todo] = np.where(ok, lo[todo], mid)
-        todo = todo[hi[todo] - lo[todo] > 1]
-    return hi.astype(np.int64)
+        todo = todo[hi[todo] - lo[todo] > gap]
+    return hi
 
 
 def expected_fill(
