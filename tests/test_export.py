@@ -126,8 +126,10 @@ def test_templates_have_lists_and_an_example_that_imports(store, tmp_path, kind)
     assert len(wb[kind].data_validations.dataValidation) == len(expected)
     settings = ImportSettings(kind=kind, today=date(2030, 1, 1))
     with Session(store) as s:
-        empty = run_import(s, path, settings)  # the data sheet: headers only
-        assert (empty.rows, empty.problems) == (0, [])
+        empty = run_import(s, path, settings)  # the data sheet: headers only, said so
+        assert (empty.rows, [p.kind for p in empty.problems]) == (0, ["empty"])
+        assert str(empty.problems[0]) == (f"{kind}.xlsx:{kind}: sheet {kind!r} has a header "
+                                          "row (row 1) but no data rows")
         example = run_import(s, path, ImportSettings(kind=kind, sheet="example",
                                                      today=date(2030, 1, 1)))
         assert example.problems == [] and example.new == 1, example.problems
