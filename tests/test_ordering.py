@@ -633,3 +633,12 @@ def test_budget_within_one_percent_of_exhaustive_search():
         assert base + got >= 0.99 * (base + best) - 1e-9
         checked += 1
     assert checked == 400
+
+
+def test_budget_blocking_a_supplier_whose_last_line_orders_nothing():
+    # found on the demo (pre-season plan, --budget 5000): a blocked supplier's line with no
+    # increments lies beyond the last line that has some; it must simply get nothing
+    taken = greedy_budget(np.array([0, 0, 1]), [5, 5, 5], np.array([1.0, 0.5, 0.7]), 10,
+                          blocked=[1, 4])
+    # worked by hand: line 1 blocked, so both of line 0's increments (10 of 10) are bought
+    assert taken.tolist() == [2, 0]

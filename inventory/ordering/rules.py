@@ -190,7 +190,8 @@ def greedy_budget(
     order = np.lexsort((seq, ln, -ironed))
     closed = np.zeros(n_lines, dtype=bool)
     if blocked is not None:
-        closed[np.asarray(blocked, dtype=np.int64)] = True
+        bl = np.asarray(blocked, dtype=np.int64)
+        closed[bl[bl < n_lines]] = True  # a blocked line with no increments has nothing to close
     left = int(budget)
     for k in order:
         i = int(ln[k])
