@@ -463,3 +463,41 @@ def test_stress_receive_issue_count_and_order_receipts(store, db_url):
         assert dup == []
     print(f"\n{db_url.split(':')[0]} stress: {n} workers x {seconds:g} s: {dict(kinds)}, "
           f"{sum(1 for _ in mine)} part/kind sums checked, order line {on_line}/150")
+
+
+# -- through the command line ---------------------------------------------------------------------
+
+
+@pytest.mark.slow
+def test_parallel_commands_succeed_or_refuse_in_one_line(store, db_url, tmp_path):
+    """Issue 12's examples as typed: parallel `stock receive OR-214 1 --cost 0.25` (lot
+    codes collided) and `stock receive --order` against one line (booked more than the line
+    shows, "complete" twice). Every process either succeeds or prints exactly one line."""
+    import subprocess
+    import sys
+
+    ref = _order(store, 6)
+    store.dispose()
+    env = {**os.environ, "INVENTORY_DB": db_url.replace("+psycopg", "")}
+    cmd = [sys.executable, "-m", "inventory", "stock", "receive", "OR-214"]
+    procs = [subprocess.Popen(cmd + (["2", "--order", ref, "--tolerance", "0"] if i % 2 else
+                                     ["1", "--cost", "0.25"]),
+                              cwd=tmp_path, env=env, stdout=subprocess.PIPE,
+                              stderr=subprocess.PIPE, text=True) for i in range(8)]
+    outs = [(p.wait(timeout=180), *p.communicate()) for p in procs]
+    plain = [o for i, o in enumerate(outs) if i % 2 == 0]
+    against = [o for i, o in enumerate(outs) if i % 2]
+    assert [o[0] for o in plain] == [0] * 4, plain
+    ok = [o for o in against if o[0] == 0]
+    refused = [o for o in against if o[0] != 0]
+    assert len(ok) == 3 and len(refused) == 1, against  # 3 x 2 = the 6 ordered
+    assert sum("order complete" in o[1] for o in ok) == 1
+    [line] = refused[0][2].strip().splitlines()
+    assert line.startswith(f"error: {ref} is closed"), line
+    with Session(store) as s:
+        line_qty = s.exec(select(PurchaseOrderLine.received_qty)).one()
+        booked = s.exec(select(func.sum(Movement.qty)).where(Movement.reference == ref)).one()
+        assert line_qty == booked == 6
+        codes = s.exec(select(Lot.code)).all()
+        assert len(codes) == len(set(codes)) == 4 + 3
+        assert ledger.verify_balances(s) == []
