@@ -6,7 +6,7 @@ from __future__ import annotations
 
 from sqlmodel import select
 
-from inventory.core.errors import Problem, Source
+from inventory.core.errors import InventoryError, Problem, Source
 from inventory.core.tables import ForkAlias, ForkFamily
 from inventory.history.imports.report import ForkDecision, cell_ref
 from inventory.history.imports.steps import Context
@@ -45,9 +45,13 @@ def resolve_forks(ctx: Context, texts: dict[str, tuple[str, Source, int]]
                                   for d in asked],
                          [(c.code, c.label) for c in choices])
             ctx.report.review_path = str(target)
-        except OSError as exc:
+        except (OSError, InventoryError) as exc:
+            if isinstance(exc, OSError):
+                why = exc.strerror or str(exc)
+            else:  # the writer's one-line reason: disk full, permission denied, ...
+                why = exc.problems[0].message.replace(f"cannot write {target}", "").strip(": ")
             ctx.report.problems.append(Problem(
-                f"cannot write the review workbook {target} ({exc.strerror or exc})",
+                f"cannot write the review workbook {target} ({why or 'failed'})",
                 kind="usage", hint="choose where it goes with --review FILE.xlsx"))
     return out
 
