@@ -11,7 +11,7 @@ Standard sizes are "orderable, not stocked".
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from datetime import date
 
@@ -202,7 +202,7 @@ def stock_by_part(session: Session, specs: dict[str, PartSpec], *,
 class Shop:
     """The shop's matchable parts as arrays, their stock, and the day it was read."""
 
-    parts: tuple[PartSpec, ...]
+    parts: Sequence[PartSpec]  # a tuple, or PartRows (records made on demand)
     arrays: PartArrays
     stock: dict[str, StockInfo] = field(default_factory=dict)
     on: date = field(default_factory=date.today)
@@ -212,12 +212,13 @@ class Shop:
 
 
 def load_shop(session: Session, *, on: date | None = None) -> Shop:
+    """The shop's matchable parts read by SQL into arrays (:mod:`inventory.bench.shop_read`:
+    no ORM objects); stock, locations and shelf life are summed per candidate shown."""
+    from inventory.bench.shop_read import read_part_arrays
+
     on = on or date.today()
-    rows = session.exec(select(Part).order_by(Part.code))
-    specs = [part_spec(p) for p in rows if PartKind(p.kind) not in NOT_BENCH_KINDS]
-    by_code = {p.code: p for p in specs}
-    return Shop(tuple(specs), PartArrays.from_specs(specs),
-                stock_by_part(session, by_code, on=on), on)
+    rows, arrays = read_part_arrays(session, exclude=NOT_BENCH_KINDS)
+    return Shop(rows, arrays, _StockOnDemand(session, rows.by_code(), on), on)
 
 
 def find_seat(session: Session, fork: str | None, seat: str | None) -> SeatSpec | None:
@@ -333,9 +334,11 @@ def _row(spec: PartSpec, source: str, shop: Shop, req: MatchRequest, *,
 
 def _stocked_as(shop: Shop) -> dict[str, list[str]]:
     out: dict[str, list[str]] = {}
-    for p in shop.parts:
-        if p.standard:
-            out.setdefault(normalise_designation(p.standard), []).append(p.code)
+    standards = getattr(shop.parts, "standards", None)
+    pairs = standards() if standards else ((p.code, p.standard) for p in shop.parts)
+    for code, standard in pairs:
+        if standard:
+            out.setdefault(normalise_designation(standard), []).append(code)
     return out
 
 
@@ -449,7 +452,7 @@ class _StockOnDemand(dict):
     """Stock per part code, read from the ledger the first time a code is asked for (a
     search shows a handful of candidates; summing the whole ledger per search is waste)."""
 
-    def __init__(self, session: Session, specs: dict[str, PartSpec], on: date) -> None:
+    def __init__(self, session: Session, specs: Mapping[str, PartSpec], on: date) -> None:
         super().__init__()
         self._session, self._specs, self._on = session, specs, on
 
@@ -473,9 +476,9 @@ class ShopCache:
         self._lock = threading.Lock()
         self._key: tuple | None = None
         self._when = 0.0
-        self._parts: tuple[PartSpec, ...] = ()
+        self._parts: Sequence[PartSpec] = ()
         self._arrays: PartArrays | None = None
-        self._by_code: dict[str, PartSpec] = {}
+        self._by_code: Mapping[str, PartSpec] = {}
         self.loads = 0
 
     @staticmethod
@@ -500,11 +503,10 @@ class ShopCache:
         with self._lock:
             if (self._arrays is None or key != self._key
                     or time.monotonic() - self._when > self.max_age):
-                rows = session.exec(select(Part).order_by(Part.code))
-                specs = [part_spec(p) for p in rows if PartKind(p.kind) not in NOT_BENCH_KINDS]
-                self._parts = tuple(specs)
-                self._arrays = PartArrays.from_specs(specs)
-                self._by_code = {p.code: p for p in specs}
+                from inventory.bench.shop_read import read_part_arrays
+
+                rows, self._arrays = read_part_arrays(session, exclude=NOT_BENCH_KINDS)
+                self._parts, self._by_code = rows, rows.by_code()
                 self._key, self._when = key, time.monotonic()
                 self.loads += 1
             parts, arrays, by_code = self._parts, self._arrays, self._by_code

@@ -382,19 +382,19 @@ def parts_find(ctx: typer.Context,
     """Fuzzy search over part codes, descriptions and dimensions."""
     unit = _unit(unit)
     query = " ".join(text)
-    with reading(ctx) as s:
-        shop = svc.load_shop(s)
-    try:
-        hits = find_parts(query, shop.parts, limit=limit, default_unit=unit)
-    except ValueError as exc:
-        raise InventoryError(str(exc)) from None
     out = []
-    for h in hits:
-        p = shop.parts[h.index]
-        info = shop.stock_of(p.code)
-        out.append({**h.to_dict(), "kind": str(p.kind), "description": p.description,
-                    "id_mm": p.id_mm, "od_mm": p.od_mm, "height_mm": p.height_mm,
-                    "cs_mm": p.cs_mm, "on_hand": info.on_hand, "location": info.location})
+    with reading(ctx) as s:  # stock is read per hit shown, inside the read
+        shop = svc.load_shop(s)
+        try:
+            hits = find_parts(query, shop.parts, limit=limit, default_unit=unit)
+        except ValueError as exc:
+            raise InventoryError(str(exc)) from None
+        for h in hits:
+            p = shop.parts[h.index]
+            info = shop.stock_of(p.code)
+            out.append({**h.to_dict(), "kind": str(p.kind), "description": p.description,
+                        "id_mm": p.id_mm, "od_mm": p.od_mm, "height_mm": p.height_mm,
+                        "cs_mm": p.cs_mm, "on_hand": info.on_hand, "location": info.location})
     if as_json:
         print_json({"query": query, "hits": out})
         return

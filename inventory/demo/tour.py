@@ -15,7 +15,7 @@ from typing import TYPE_CHECKING
 from sqlmodel import Session
 
 from inventory.cli.common import print_table, say
-from inventory.core.db import make_engine, transaction
+from inventory.core.db import make_engine, read_transaction, transaction
 from inventory.demo.build import demo_dir
 from inventory.stock import ledger
 
@@ -110,11 +110,11 @@ def bench_tour(url: str) -> None:
     from inventory.core.convert import all_seats
     from inventory.core.model import PartKind
 
-    with Session(make_engine(url)) as s:
+    with read_transaction(make_engine(url)) as s:  # stock is read per part asked for
         shop = svc.load_shop(s)
         seats = all_seats(s)
-    rings = [p for p in shop.parts if PartKind(p.kind) == PartKind.O_RING
-             and p.standard and p.id_mm and p.cs_mm and shop.stock_of(p.code).on_hand > 0]
+        rings = [p for p in shop.parts if PartKind(p.kind) == PartKind.O_RING
+                 and p.standard and p.id_mm and p.cs_mm and shop.stock_of(p.code).on_hand > 0]
     rings.sort(key=lambda p: (p.standard != "AS568-214", p.material != "NBR", p.code))
     # an oil-wetted seat shows the material rule too (EPDM never goes in oil)
     seats.sort(key=lambda x: (str(x.medium) != "oil", x.fork, x.seat))
