@@ -15,7 +15,6 @@ materials), dates as date cells and as ISO text, fork codes and service levels a
 from __future__ import annotations
 
 import argparse
-import csv
 import os
 import sys
 import tempfile
@@ -33,6 +32,7 @@ from inventory.catalog.load import load_catalog  # noqa: E402
 from inventory.core import migrate  # noqa: E402
 from inventory.core.db import make_engine, transaction  # noqa: E402
 from inventory.history.imports import ImportSettings, run_import  # noqa: E402
+from inventory.sheets.csvread import csv_grid  # noqa: E402
 from inventory.stock import ledger  # noqa: E402
 
 DEMO = ROOT / "catalog_demo"
@@ -40,8 +40,8 @@ HEADER = ["job", "date", "fork", "service", "hours", "fork_ref", "item", "qty"]
 
 
 def _csv(name: str) -> list[dict]:
-    with open(DEMO / name, newline="", encoding="utf-8") as fh:
-        return list(csv.DictReader(fh))
+    header, *rows = csv_grid(DEMO / name)[0]  # the tool's one csv reader
+    return [dict(zip(header, r, strict=True)) for r in rows if r]
 
 
 def make_workbook(path: Path, rows: int) -> int:
