@@ -72,29 +72,18 @@ def plan(ctx: typer.Context,
          as_json: bool = typer.Option(False, "--json", help="Print the plan as JSON."),
          ) -> None:
     """Purchase orders per supplier, every line with its reason."""
-    from dataclasses import replace
+    from inventory.ordering import service  # the planner loads scipy: only when it runs
 
-    from inventory.ordering.model import PlanOptions
-    from inventory.ordering.service import make_plan, plan_to_dict
-
-    opts = replace(PlanOptions(), kit_mode=kits.value)
-    if line_cost is not None:
-        cost = _budget(line_cost, "--line-cost")
-        assert cost is not None
-        opts = replace(opts, line_order_cost=cost)
+    cost = _budget(line_cost, "--line-cost") if line_cost is not None else None
     as_of = _day(day, "--date") or date.today()
     rate = parse_rate(fill_rate) if fill_rate is not None else None
     with reading(ctx) as s:
-        result = make_plan(s, as_of=as_of, season_start=_day(season_start, "--season-start"),
-                           budget=_budget(budget), fill_rate=rate,
-                           part_targets=_targets(target), parts=part, suppliers=supplier,
-                           options=opts)
-    if xlsx is not None:
-        from inventory.ordering.workbook import write_plan_workbook
-
-        write_plan_workbook(result, xlsx)
+        result = service.plan_command(
+            s, as_of=as_of, kit_mode=kits.value, line_cost=cost, xlsx=xlsx,
+            season_start=_day(season_start, "--season-start"), budget=_budget(budget),
+            fill_rate=rate, part_targets=_targets(target), parts=part, suppliers=supplier)
     if as_json:
-        print_json(plan_to_dict(result))
+        print_json(service.plan_to_dict(result))
         return
     _render(result)
     if xlsx is not None:
@@ -132,13 +121,11 @@ def create(ctx: typer.Context,
            as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
            ) -> None:
     """Record a plan's purchase orders as open orders (quantities now on order)."""
-    from inventory.ordering.orders import create_orders
-    from inventory.ordering.workbook import read_plan_file
+    from inventory.ordering import service
 
-    drafts = read_plan_file(from_plan)
+    created = _day(day, "--date") or date.today()
     with unit_of_work(ctx) as s:
-        made = create_orders(s, drafts, created=_day(day, "--date") or date.today(),
-                             source=from_plan)
+        made = service.orders_from_plan_file(s, from_plan, created=created)
     if as_json:
         print_json([m.to_dict() for m in made])
         return
@@ -152,10 +139,10 @@ def list_cmd(ctx: typer.Context,
              as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
              ) -> None:
     """Purchase orders with what is received so far."""
-    from inventory.ordering.orders import list_orders
+    from inventory.ordering import service
 
     with reading(ctx) as s:
-        rows = list_orders(s, status=None if status == "all" else status)
+        rows = service.list_orders(s, status=None if status == "all" else status)
     if as_json:
         print_json([r.to_dict() for r in rows])
         return

@@ -395,3 +395,40 @@ def record_orders(session: Session, lines: Sequence[tuple[str, str, int, Decimal
     drafts = [DraftOrder(sup, *(dates or {}).get(sup, (None, None)), tuple(ls),
                          source=f"plan page, {sup}") for sup, ls in by_supplier.items()]
     return create_orders(session, drafts, created=created)
+
+
+# -- for the command line --------------------------------------------------------------------------
+
+
+def plan_command(session: Session, *, as_of: date, kit_mode: str | None = None,
+                 line_cost: Decimal | None = None, xlsx: Any = None, **plan_args: Any) -> Plan:
+    """``inventory plan``: :func:`make_plan` with the kit mode and the line-order cost set
+    on the default :class:`PlanOptions` (``plan_args``: season_start, budget, fill_rate,
+    part_targets, parts, suppliers); writes the plan workbook to ``xlsx`` when given."""
+    opts = PlanOptions()
+    if kit_mode is not None:
+        opts = replace(opts, kit_mode=kit_mode)
+    if line_cost is not None:
+        opts = replace(opts, line_order_cost=line_cost)
+    plan = make_plan(session, as_of=as_of, options=opts, **plan_args)
+    if xlsx is not None:
+        from inventory.ordering.workbook import write_plan_workbook
+
+        write_plan_workbook(plan, xlsx)
+    return plan
+
+
+def orders_from_plan_file(session: Session, path: Any, *, created: date) -> list:
+    """``inventory order create --from-plan``: read a plan workbook or its JSON and record
+    its purchase orders as open orders."""
+    from inventory.ordering.orders import create_orders
+    from inventory.ordering.workbook import read_plan_file
+
+    return create_orders(session, read_plan_file(path), created=created, source=path)
+
+
+def list_orders(session: Session, status: str | None = "open") -> list:
+    """Purchase orders with what is received so far (``status`` None: all)."""
+    from inventory.ordering.orders import list_orders as rows
+
+    return rows(session, status=status)
