@@ -330,7 +330,14 @@ class StockBook:
             q = q.where(StockBalance.part_id == part_id)
         q = q.order_by(StockBalance.part_id, *ledger.fifo_order(), StockBalance.id)
         if self.session.get_bind().dialect.name == "postgresql":
-            q = q.with_for_update(of=StockBalance)
+            # Lock in the ledger's one global order (part, lot, location) first, so a bulk
+            # booking beside a counter's never holds rows the other waits for in reverse;
+            # then read the current values in FIFO order.
+            key = select(StockBalance.id)
+            if part_id is not None:
+                key = key.where(StockBalance.part_id == part_id)
+            self.session.execute(key.order_by(StockBalance.part_id, StockBalance.lot_id,
+                                              StockBalance.location_id).with_for_update())
         return self.session.exec(q)
 
     def _load(self, part_id: int | None) -> None:
