@@ -26,7 +26,10 @@ def shop(tmp_path, monkeypatch, capsys):
     ok("catalog", "load", str(write_catalog(tmp_path / "cat")))
     ok("stock", "receive", "OR-214", "40", "--cost", "0.25", "--cured", "2024Q2",
        "--date", "2026-10-01")
-    ok("stock", "receive", "WP-32", "6", "--cost", "6.50", "--cured", "2021Q3",
+    # 4 wipers past their storage limit stay on the shelf (an issue skips them), 2 fresh
+    ok("stock", "receive", "WP-32", "4", "--cost", "6.50", "--cured", "2021Q3",
+       "--date", "2026-10-01")
+    ok("stock", "receive", "WP-32", "2", "--cost", "6.50", "--cured", "2026Q2",
        "--date", "2026-10-01")
     ok("stock", "issue", "OR-214", "12", "--job", "J-1", "--date", "2026-11-10")
     ok("stock", "issue", "WP-32", "2", "--date", "2026-11-12")
