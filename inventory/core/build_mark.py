@@ -39,11 +39,12 @@ def mark_finished(session: Session, what: str) -> None:
     _mark(session, FINISHED, what)
 
 
-def marks(engine: Engine) -> dict[str, str]:
+def marks(engine: Engine, *, schema_known: bool = False) -> dict[str, str]:
     """What was built in this database: ``{what: "started" | "finished"}`` (empty for a
-    database no build made, or one without the tables)."""
+    database no build made, or one without the tables; ``schema_known`` skips that check
+    when the caller has verified the schema already)."""
     with engine.connect() as conn:
-        if not inspect(conn).has_table(ImportBatch.__tablename__):
+        if not schema_known and not inspect(conn).has_table(ImportBatch.__tablename__):
             return {}
         kinds = conn.execute(select(ImportBatch.kind).where(
             ImportBatch.kind.like(STARTED + "%") | ImportBatch.kind.like(FINISHED + "%"))
@@ -59,8 +60,9 @@ def marks(engine: Engine) -> dict[str, str]:
 
 
 def require_finished(engine: Engine, what: str, hint: str) -> None:
-    """Raise when a build of ``what`` started in this database and did not finish."""
-    if marks(engine).get(what) == "started":
+    """Raise when a build of ``what`` started in this database and did not finish (the
+    schema is known to be current: one SELECT on the small import_batch table)."""
+    if marks(engine, schema_known=True).get(what) == "started":
         url = engine.url.render_as_string(hide_password=True)
         raise InventoryError(f"{what} build did not finish: {url} holds an unfinished {what} "
                              "database", kind="schema", hint=hint)
