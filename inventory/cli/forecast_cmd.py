@@ -130,17 +130,15 @@ def forecast(
     today: str = typer.Option(None, "--today", help="Forecast from this day (default today)."),
 ) -> None:
     """Forecast demand per part, kit or fork family, with a range, a workbook and charts."""
-    from inventory.forecast.service import forecast_items
+    from inventory.forecast import service  # scipy, openpyxl, matplotlib: only when it runs
 
     day = _day(today)
     by_: By = by.value  # type: ignore[assignment]
     with _progress(FORECAST_STEPS + 2, "forecast", quiet=as_json) as step, reading(ctx) as s:
-        report = forecast_items(s, today=day, horizon=horizon, by=by_,
-                                freq="W" if weekly else "M", lead_time_months=lead_time,
-                                review_months=review, progress=step)
-        chosen = report.chosen(top, tuple(parts))
-        written = write_outputs(report, chosen, xlsx=xlsx, charts=charts,
-                                defaults=not as_json, step=step)
+        report, _, written = service.forecast_command(
+            s, today=day, top=top, parts=tuple(parts), xlsx=xlsx, charts=charts,
+            defaults=not as_json, step=step, horizon=horizon, by=by_,
+            freq="W" if weekly else "M", lead_time_months=lead_time, review_months=review)
     if as_json:
         data = report.to_dict()
         data["files"] = [str(p) for p in written]
@@ -149,31 +147,6 @@ def forecast(
     render_table(report, rows, tuple(parts))
     for p in written:
         say(f"wrote {p}")
-
-
-def write_outputs(report: ForecastReport, chosen: list, *, xlsx: Path | None,
-                  charts: Path | None, defaults: bool, reports_dir: str | Path = "reports",
-                  step: Any = None) -> list[Path]:
-    """Write the workbook and the PNG charts (to the defaults under ``reports_dir`` unless
-    given, when ``defaults``); returns the files written."""
-    from inventory.forecast.book import write_forecast_book
-    from inventory.forecast.charts import write_charts
-
-    stamp = report.forecast_periods[0].strftime("%Y-%m") if report.forecast_periods else "x"
-    if xlsx is None and defaults:
-        xlsx = Path(reports_dir) / f"forecast-{report.by}-{stamp}.xlsx"
-    if charts is None and defaults:
-        charts = Path(reports_dir)
-    written: list[Path] = []
-    if xlsx is not None:
-        if step:
-            step("writing the workbook")
-        written.append(write_forecast_book(xlsx, report, chosen))
-    if charts is not None and chosen:
-        if step:
-            step("drawing the charts")
-        written += write_charts(charts, report, chosen)
-    return written
 
 
 # -- backtest ------------------------------------------------------------------------------------

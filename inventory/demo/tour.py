@@ -160,8 +160,8 @@ def forecast_tour(url: str, reports_dir: str | Path = "reports", *,
                   today: date | None = None) -> None:
     """The demo shop's next season: kit forecast per month from the day after the history
     (the demo's "today", 2026-12-02), a short table, and where the workbook and charts went."""
-    from inventory.cli.forecast_cmd import render_table, write_outputs
-    from inventory.forecast.service import forecast_items
+    from inventory.cli.forecast_cmd import render_table
+    from inventory.forecast.service import forecast_items, write_outputs
 
     day = today or date(2026, 12, 2)
     engine = make_engine(url)

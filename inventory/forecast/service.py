@@ -708,3 +708,48 @@ def forecast_items(
 
 def _to_date(p: np.datetime64) -> date:
     return date.fromisoformat(str(np.datetime64(p, "D")))
+
+
+# -- files for the faces ---------------------------------------------------------------------------
+
+
+def write_outputs(report: ForecastReport, chosen: list, *, xlsx: Any = None, charts: Any = None,
+                  defaults: bool = True, reports_dir: Any = "reports",
+                  step: Callable[[str], Any] | None = None) -> list:
+    """Write the forecast workbook and the PNG charts of the ``chosen`` series (to
+    ``reports_dir/forecast-<by>-<YYYY-MM>.xlsx`` and ``reports_dir`` unless given, when
+    ``defaults``); returns the paths written. openpyxl and matplotlib load only here."""
+    from pathlib import Path
+
+    from inventory.forecast.book import write_forecast_book
+    from inventory.forecast.charts import write_charts
+
+    stamp = report.forecast_periods[0].strftime("%Y-%m") if report.forecast_periods else "x"
+    if xlsx is None and defaults:
+        xlsx = Path(reports_dir) / f"forecast-{report.by}-{stamp}.xlsx"
+    if charts is None and defaults:
+        charts = Path(reports_dir)
+    written: list[Path] = []
+    if xlsx is not None:
+        if step:
+            step("writing the workbook")
+        written.append(write_forecast_book(xlsx, report, chosen))
+    if charts is not None and chosen:
+        if step:
+            step("drawing the charts")
+        written += write_charts(charts, report, chosen)
+    return written
+
+
+def forecast_command(session: Session, *, today: date, top: int = 0,
+                     parts: Sequence[str] = (), xlsx: Any = None, charts: Any = None,
+                     defaults: bool = True, step: Callable[[str], Any] | None = None,
+                     **forecast_args: Any) -> tuple[ForecastReport, list, list]:
+    """``inventory forecast``: :func:`forecast_items` (``forecast_args``: horizon, by, freq,
+    lead_time_months, review_months), the series chosen for the files (``top`` by volume
+    plus ``parts``), and the files written; returns (report, chosen, files)."""
+    report = forecast_items(session, today=today, progress=step, **forecast_args)
+    chosen = report.chosen(top, tuple(parts))
+    written = write_outputs(report, chosen, xlsx=xlsx, charts=charts, defaults=defaults,
+                            step=step)
+    return report, chosen, written
