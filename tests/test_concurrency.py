@@ -501,3 +501,60 @@ def test_parallel_commands_succeed_or_refuse_in_one_line(store, db_url, tmp_path
         codes = s.exec(select(Lot.code)).all()
         assert len(codes) == len(set(codes)) == 4 + 3
         assert ledger.verify_balances(s) == []
+
+
+# -- the deadlock retry ----------------------------------------------------------------------------
+
+
+def _other_side(url: str, y: int, x: int, a_locked, b_has_x) -> None:
+    """Hold row Y, then ask for row X (held by the test): a deadlock. This side's
+    deadlock_timeout is long, so PostgreSQL's detector runs in the test's session and makes
+    it the victim (PostgreSQL manual, "Lock Management": the check runs in the waiting
+    session after deadlock_timeout)."""
+    import psycopg
+
+    with psycopg.connect(url.replace("+psycopg", "")) as conn:
+        conn.execute("SET deadlock_timeout = '20s'")
+        conn.execute("SELECT id FROM stock_balance WHERE id = %s FOR UPDATE", (y,))
+        a_locked.set()
+        assert b_has_x.wait(30)
+        conn.execute("SELECT id FROM stock_balance WHERE id = %s FOR UPDATE", (x,))
+        time.sleep(0.2)
+        conn.commit()
+
+
+def test_a_deadlock_victim_is_retried_and_then_succeeds(store, db_url):
+    if not db_url.startswith("postgresql"):
+        pytest.skip("SQLite serialises writers; no deadlock can form")
+    from inventory.core.db import retry_deadlocks
+    from inventory.core.tables import StockBalance
+
+    with transaction(store) as s:
+        ledger.receive(s, "OR-214", 5, "0.25", lot="X")
+        ledger.receive(s, "WP-32", 5, "6.50", lot="Y")
+    with Session(store) as s:
+        x, y = (s.exec(select(StockBalance.id).join(Lot, Lot.id == StockBalance.lot_id)
+                       .where(Lot.code == c)).one() for c in ("X", "Y"))
+    store.dispose()
+    a_locked, b_has_x = FORK.Event(), FORK.Event()
+    other = FORK.Process(target=_other_side, args=(db_url, y, x, a_locked, b_has_x))
+    other.start()
+    assert a_locked.wait(30)
+    attempts = []
+
+    @retry_deadlocks
+    def both(session):
+        attempts.append(time.monotonic())
+        session.execute(text("SELECT id FROM stock_balance WHERE id = :x FOR UPDATE"), {"x": x})
+        b_has_x.set()
+        time.sleep(0.3)  # the other side is now waiting for X
+        session.execute(text("SELECT id FROM stock_balance WHERE id = :y FOR UPDATE"), {"y": y})
+        return "done"
+
+    engine = make_engine(db_url, fresh=True)
+    with transaction(engine) as s:
+        assert both(s) == "done"
+    engine.dispose()
+    other.join(30)
+    assert other.exitcode == 0
+    assert len(attempts) == 2  # the first was the deadlock victim, the second went through
