@@ -180,7 +180,7 @@ def test_plan_identity_is_the_lines_not_the_form():
     import hashlib
 
     want = hashlib.sha256(
-        "2026-12-04\nSUP-A\tOR-214\t20\t0.2500\nSUP-A\tWP-32\t4\t6.5000".encode()).hexdigest()
+        b"2026-12-04\nSUP-A\tOR-214\t20\t0.2500\nSUP-A\tWP-32\t4\t6.5000").hexdigest()
     assert drafts_identity(_drafts()) == want
     assert plan_identity(date(2026, 12, 4), [("SUP-A", "WP-32", 4, 6.5),
                                              ("SUP-A", "OR-214", 20, "0.25")]) == want

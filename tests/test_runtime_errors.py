@@ -13,16 +13,16 @@ simulated (the tests run as root, whom permissions do not stop).
 from __future__ import annotations
 
 import errno
-from datetime import date
 import multiprocessing as mp
 import os
+from datetime import date
 from pathlib import Path
 
 import pytest
 from sqlalchemy import create_engine, event, text
 from sqlmodel import Session
 
-from inventory.core.db import dispose_all, explain, make_engine, transaction
+from inventory.core.db import dispose_all, explain, transaction
 from inventory.core.errors import InventoryError
 from inventory.core.tables import Lot
 from inventory.stock import ledger

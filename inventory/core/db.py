@@ -29,7 +29,8 @@ from contextlib import contextmanager
 from pathlib import Path
 from typing import TypeVar
 
-from sqlalchemy import event, exc as sa_exc, inspect
+from sqlalchemy import event, inspect
+from sqlalchemy import exc as sa_exc
 from sqlalchemy.engine import Engine, make_url
 from sqlmodel import Session, create_engine
 
