@@ -86,6 +86,10 @@ def serve(ctx: typer.Context,
 
     from inventory.cli.common import engine, state
 
+    st = state(ctx)
+    if not st.db and not os.path.exists("inventory.db") and os.path.exists("demo.db"):
+        st.db = "demo.db"  # `inventory demo && inventory serve` serves the demo shop
+        say("no inventory.db here: serving the demo shop in demo.db")
     eng = engine(ctx)  # fails here, with the usual hint, when the database is missing or old
     url = eng.url.render_as_string(hide_password=False)
     os.environ["INVENTORY_DB"] = url
@@ -93,7 +97,6 @@ def serve(ctx: typer.Context,
         os.environ["INVENTORY_SECURE_COOKIES"] = "1"
     shown = eng.url.render_as_string(hide_password=True)
     say(f"serving {shown} on http://{host}:{port}/ (Ctrl+C stops)")
-    state(ctx)
     uvicorn.run("inventory.web.app:create_app", factory=True, host=host, port=port,
                 workers=workers, proxy_headers=True, log_level="warning")
 

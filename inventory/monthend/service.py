@@ -80,3 +80,16 @@ def report_json(files: MonthEndFiles) -> dict:
     from inventory.monthend.report import report_dict
 
     return report_dict(files.report)
+
+
+def close_month(session: Session, month: str, *, today: date, user: str | None = None):
+    """Close ``month`` (see :mod:`inventory.monthend.closing`), for the faces."""
+    from inventory.monthend.closing import close_month as close
+
+    return close(session, month, today=today, user=user)
+
+
+def is_closed(session: Session, month: str) -> bool:
+    from inventory.stock.months import is_closed as closed
+
+    return closed(session, month)

@@ -20,6 +20,7 @@ from starlette.applications import Starlette
 from starlette.concurrency import run_in_threadpool
 from starlette.exceptions import HTTPException
 from starlette.middleware import Middleware
+from starlette.middleware.gzip import GZipMiddleware
 from starlette.middleware.sessions import SessionMiddleware
 from starlette.requests import Request
 from starlette.responses import HTMLResponse, JSONResponse, RedirectResponse, Response
@@ -176,7 +177,19 @@ class Web:
                 return fn(s)
         return await run_in_threadpool(go)
 
-    write = read
+    async def write(self, fn: Callable, who: dict | None = None, *, attempts: int = 3):
+        """Like :meth:`read`; a transaction that lost a race on a unique key (two people
+        taking the same new job number at once) or a lock (deadlock, serialization) is
+        rolled back whole and run again, so the second person gets the real answer (for
+        example "not enough stock") rather than a server error."""
+        from sqlalchemy.exc import IntegrityError, OperationalError
+
+        for attempt in range(attempts):
+            try:
+                return await self.read(fn, who)
+            except (IntegrityError, OperationalError):
+                if attempt == attempts - 1:
+                    raise
 
 
 def page(request: Request, name: str, who: dict | None, status: int = 200,
@@ -406,6 +419,7 @@ async def _bench_again(request: Request, who: dict, form, errors: dict) -> Respo
 
 # -- stock
 
+STOCK_PAGE_LINES = 400
 STOCK_ACTIONS = {"issue": "issue", "count": "count", "receive": "receive", "adjust": "adjust",
                  "move": "move"}
 
@@ -425,12 +439,15 @@ async def stock_page(request: Request, errors: dict | None = None, values: dict 
             return [], stock.locations(s), message_of(exc)
         return lines, stock.locations(s), None
     lines, locations, err = await web.read(go, who)
+    total_lines = len(lines)
+    lines = lines[:STOCK_PAGE_LINES]  # a page stays small on a tablet; filter by part for more
     from inventory.bench.fit import CAUTION
 
     errs = dict(errors or {})
     if err:
         errs["filter"] = err
     return page(request, "stock.html", who, status=status if not err else 404, lines=lines,
+                total_lines=total_lines,
                 locations=locations, errors=errs, values=values or {}, part=part,
                 done=done or request.query_params.get("done"),
                 count_mode=request.query_params.get("mode") == "count", caution=CAUTION,
@@ -942,6 +959,14 @@ async def on_http(request: Request, exc: HTTPException) -> Response:
     return page(request, "error.html", who, status=exc.status_code, title=title, message=msg)
 
 
+async def on_error(request: Request, exc: Exception) -> Response:
+    if _wants_json(request):
+        return JSONResponse({"error": "the server failed: nothing was saved"}, 500)
+    return HTMLResponse("<!doctype html><title>Server error</title><h1>Something went wrong"
+                        "</h1><p>Nothing was saved. Go back and try again; if it happens "
+                        "again, tell the person who runs the server.</p>", 500)
+
+
 def create_app(url: str | None = None, *, secret: str | None = None,
                secure_cookies: bool | None = None) -> Starlette:
     """The app on database ``url`` (default ``$INVENTORY_DB``)."""
@@ -979,11 +1004,12 @@ def create_app(url: str | None = None, *, secret: str | None = None,
     ]
     app = Starlette(
         routes=routes,
-        middleware=[Middleware(SessionMiddleware, secret_key=secret or auth.secret_key(),
+        middleware=[Middleware(GZipMiddleware, minimum_size=1000),
+                    Middleware(SessionMiddleware, secret_key=secret or auth.secret_key(),
                                session_cookie="inventory_session", max_age=auth.IDLE_SECONDS,
                                same_site="lax", https_only=secure_cookies)],
         exception_handlers={auth.SignInNeeded: on_sign_in_needed,
                             auth.Forbidden: on_forbidden, auth.CsrfRefused: on_csrf,
-                            HTTPException: on_http})
+                            HTTPException: on_http, Exception: on_error})
     app.state.web = web
     return app
