@@ -10,14 +10,6 @@ from inventory.cli import options
 from inventory.cli.common import console, print_json, print_table, reading, unit_of_work
 from inventory.core.errors import InventoryError
 from inventory.history import service as history
-from inventory.history.jobs import (
-    JobItem,
-    job_detail,
-    list_jobs,
-    next_ref,
-    record_job,
-    service_level,
-)
 
 app = typer.Typer(help="Record service jobs (stock is taken through the ledger) and look "
                        "them up.", no_args_is_help=True)
@@ -41,7 +33,7 @@ def parse_day(text: str | None, what: str = "--date", *, today: date | None = No
     return out
 
 
-def parse_part(spec: str) -> JobItem:
+def parse_part(spec: str) -> tuple[str, int]:
     """``P=QTY`` (or ``P`` for one) from ``--part``."""
     code, sep, qty = spec.rpartition("=") if "=" in spec else (spec, "", "1")
     code = code.strip()
@@ -53,7 +45,7 @@ def parse_part(spec: str) -> JobItem:
         raise InventoryError(f"bad --part {spec!r}: quantity must be a whole number") from None
     if n <= 0:
         raise InventoryError(f"bad --part {spec!r}: quantity must be more than 0, got {n}")
-    return JobItem(code, n)
+    return code, n
 
 
 @app.command()
@@ -75,19 +67,16 @@ def add(ctx: typer.Context,
     ref = options.code(ref, "--ref", "job ref")
     fork_ref = options.code(fork_ref, "--fork-ref", "job ref")
     try:
-        level = service_level(service)
+        level = history.service_level(service)
     except ValueError as exc:
         raise InventoryError(f"bad --service: {exc}") from None
-    items = [JobItem(k, 1) for k in kits] + [parse_part(p) for p in parts]
+    items = [(k, 1) for k in kits] + [parse_part(p) for p in parts]
     if not items:
         raise InventoryError("a job needs at least one --kit or --part",
                              hint="e.g. --kit K-TR34-LL or --part OR-214=2")
     with unit_of_work(ctx) as s:
-        code = history.resolve_fork(s, fork)
-        job_ref = ref or next_ref(s, d)
-        record_job(s, ref=job_ref, day=d, fork=code, service=level, items=items, hours=hours,
-                   fork_ref=fork_ref)
-        row, moves = job_detail(s, job_ref)
+        row, moves = history.add_job(s, fork=fork, day=d, service=level, items=items, ref=ref,
+                                     hours=hours, fork_ref=fork_ref)
     if as_json:
         print_json(row.to_dict() | {"movements": [m.to_dict() for m in moves]})
         return
@@ -113,7 +102,7 @@ def list_(ctx: typer.Context,
     start = parse_day(since, "--from", today=date.max) if since else None
     end = parse_day(until, "--to", today=date.max) if until else None
     with reading(ctx) as s:
-        jobs = list_jobs(s, since=start, until=end, fork=fork, limit=limit)
+        jobs = history.list_jobs(s, since=start, until=end, fork=fork, limit=limit)
     if as_json:
         print_json([j.to_dict() for j in jobs])
         return
@@ -129,7 +118,7 @@ def show(ctx: typer.Context,
          as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table.")) -> None:
     """One job: what it used and the lots its parts came from."""
     with reading(ctx) as s:
-        row, moves = job_detail(s, ref)
+        row, moves = history.job_detail(s, ref)
     if as_json:
         print_json(row.to_dict() | {"movements": [m.to_dict() for m in moves]})
         return

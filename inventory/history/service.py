@@ -8,12 +8,14 @@ face can import this module at start-up for free.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from datetime import date
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from sqlmodel import Session
 
-from inventory.sheets.kinds import KINDS
+from inventory.sheets.kinds import KINDS, service_level
 
 if TYPE_CHECKING:
     from inventory.history.imports import ImportReport
@@ -21,7 +23,8 @@ if TYPE_CHECKING:
 #: What ``export`` can write (inventory.history.exports uses this list).
 TABLES = ("parts", "stock", "lots", "movements", "jobs")
 
-__all__ = ["KINDS", "TABLES", "export_table", "import_file", "resolve_fork", "write_template"]
+__all__ = ["KINDS", "TABLES", "add_job", "export_table", "import_file", "job_detail", "list_jobs",
+           "resolve_fork", "service_level", "write_template"]
 
 
 def import_file(session: Session, file: str | Path, *, kind: str, apply: bool,
@@ -68,3 +71,35 @@ def resolve_fork(session: Session, text: str) -> str:
     raise InventoryError(f"unknown fork family {text!r}", kind="unknown",
                          hint=f"closest: {best}" if best else "list them with "
                          "`inventory catalog export`")
+
+# -- service jobs ------------------------------------------------------------------------------
+
+
+def add_job(session: Session, *, fork: str, day: date, service: str,
+            items: Sequence[tuple[str, int]], ref: str | None = None, hours: int | None = None,
+            fork_ref: str | None = None) -> tuple[Any, list[Any]]:
+    """Record a job (fork family by code or free text, ``items`` as (part or kit code,
+    quantity)) and take its parts from stock, all or nothing; returns the job row and the
+    movements booked, as :func:`job_detail`."""
+    from inventory.history.jobs import JobItem, job_detail, next_ref, record_job
+
+    code = resolve_fork(session, fork)
+    job_ref = ref or next_ref(session, day)
+    record_job(session, ref=job_ref, day=day, fork=code, service=service,
+               items=[JobItem(c, n) for c, n in items], hours=hours, fork_ref=fork_ref)
+    return job_detail(session, job_ref)
+
+
+def list_jobs(session: Session, **filters: Any) -> list[Any]:
+    """Jobs with their lines (filters: since, until, fork, limit, newest_first)."""
+    from inventory.history.jobs import list_jobs as rows
+
+    return rows(session, **filters)
+
+
+def job_detail(session: Session, ref: str) -> tuple[Any, list[Any]]:
+    """One job, its lines and the stock movements booked against it."""
+    from inventory.history.jobs import job_detail as detail
+
+    return detail(session, ref)
+
