@@ -38,6 +38,7 @@ from inventory.core.tables import Part
 COLUMNS = ("code", "kind", "description", "id_mm", "od_mm", "height_mm", "cs_mm", "material",
            "hardness", "volume_cm3", "unit", "standard")
 _FLOATS = ("id_mm", "od_mm", "height_mm", "cs_mm", "hardness", "volume_cm3")
+CHUNK = 10_000
 
 
 class PartRows(Sequence[PartSpec]):
@@ -111,14 +112,30 @@ def read_rows(session: Session, *, exclude: Collection[PartKind] = ()) -> PartRo
     q = select(*[getattr(Part, c) for c in COLUMNS]).order_by(Part.code)
     if exclude:
         q = q.where(Part.kind.not_in([str(k) for k in exclude]))
-    rows = session.execute(q).all()
-    cols = list(zip(*rows, strict=True)) if rows else [() for _ in COLUMNS]
-    data: dict[str, Any] = {}
-    for name, values in zip(COLUMNS, cols, strict=True):
-        if name in _FLOATS:
-            data[name] = np.array(values, dtype=float)  # NULL -> NaN
-        else:
-            data[name] = np.array(values, dtype=object)
+    conn = session.connection()
+    # the driver's own cursor: plain tuples, no result-row objects for 100,000 parts (the
+    # kinds bound as literals are the tool's own enum values)
+    sql = str(q.compile(dialect=conn.dialect, compile_kwargs={"literal_binds": True}))
+    chunks: dict[str, list[np.ndarray]] = {name: [] for name in COLUMNS}
+    shared: dict[Any, Any] = {}  # one object per repeated text (kind, unit, material, ...)
+    cursor = conn.connection.dbapi_connection.cursor()  # type: ignore[union-attr]
+    try:
+        cursor.execute(sql)
+        while rows := cursor.fetchmany(CHUNK):  # a chunk at a time: no 100,000-row list
+            for name, values in zip(COLUMNS, zip(*rows, strict=True), strict=True):
+                if name in _FLOATS:
+                    chunks[name].append(np.array(values, dtype=float))  # NULL -> NaN
+                elif name == "code":
+                    chunks[name].append(np.array(values, dtype=object))
+                else:
+                    chunks[name].append(np.array([shared.setdefault(v, v) for v in values],
+                                                 dtype=object))
+    finally:
+        cursor.close()
+    data: dict[str, Any] = {
+        name: (np.concatenate(parts) if parts
+               else np.empty(0, dtype=float if name in _FLOATS else object))
+        for name, parts in chunks.items()}
     return PartRows(data)
 
 
