@@ -49,6 +49,7 @@ class PartRows(Sequence[PartSpec]):
         self.data = data
         self.codes: np.ndarray = data["code"]
         self._index: dict[str, int] | None = None
+        self._asked = 0
 
     def __len__(self) -> int:
         return len(self.codes)
@@ -73,9 +74,15 @@ class PartRows(Sequence[PartSpec]):
         return (self[i] for i in range(len(self)))
 
     def index_of(self, code: str) -> int | None:
-        if self._index is None:
+        """Row of ``code``: a scan for the first few codes asked (a lookup shows a handful),
+        an index once many are asked."""
+        self._asked += 1
+        if self._index is None and self._asked > 16:
             self._index = {str(c): i for i, c in enumerate(self.codes)}
-        return self._index.get(code)
+        if self._index is not None:
+            return self._index.get(code)
+        hit = np.flatnonzero(self.codes == code)
+        return int(hit[0]) if len(hit) else None
 
     def standards(self) -> Iterator[tuple[str, str]]:
         """(code, standard designation) of the parts that name a standard size."""
