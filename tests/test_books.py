@@ -457,3 +457,27 @@ def test_init_creates_a_missing_postgresql_database(pg_server):
         dispose_all()
         with psycopg.connect(pg_server.replace("+psycopg", ""), autocommit=True) as conn:
             conn.execute(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')
+
+
+def test_bulk_job_writer_skips_expired_lots_like_the_ledger(store):
+    # ISO 2230 group B (NBR): 7 years from the end of the cure quarter (REFERENCE.md 5):
+    # cured 2015Q1 -> limit 2022-03-31, so a 2025 job may not take it; 2024Q2 is fresh.
+    from inventory.history.jobs import JobSpec, record_jobs
+
+    with transaction(store) as s:
+        ledger.receive(s, "OR-214", 2, "0.25", lot="OLD", cured="2015Q1",
+                       ts=noon(date(2024, 12, 1)))
+        ledger.receive(s, "OR-214", 2, "0.25", lot="NEW", cured="2024Q2",
+                       ts=noon(date(2024, 12, 1)))
+    spec = JobSpec("B-1", date(2025, 1, 10), "XC-32", "damper", (JobItem("OR-214", 2),))
+    with transaction(store) as s:
+        record_jobs(s, [spec])
+    with Session(store) as s:
+        assert {ln.lot: ln.on_hand for ln in ledger.on_hand(s, part="OR-214", by_lot=True)} \
+            == {"OLD": 2}
+    spec = JobSpec("B-2", date(2025, 1, 11), "XC-32", "damper", (JobItem("OR-214", 1),))
+    with transaction(store) as s, pytest.raises(InventoryError) as info:
+        record_jobs(s, [spec])
+    assert str(info.value.problems[0]) == (
+        "job B-2: not enough stock of OR-214 on 2025-01-11: asked 1, usable 0; the rest is "
+        "past its ISO 2230 storage limit")
