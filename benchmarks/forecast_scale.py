@@ -101,7 +101,7 @@ def main(argv: list[str] | None = None) -> int:
             checks.append((f"{n:,} series: <= 400 MB peak", o["peak_mb"] <= 400.0,
                            f"{o['peak_mb']:.0f} MB"))
     done = sorted(rows)
-    for small, big in zip(done, done[1:]):
+    for small, big in zip(done, done[1:], strict=False):
         growth = (rows[big]["peak_mb"] - rows[small]["peak_mb"]) * 1024 / (big - small)
         print(f"growth {small:,} -> {big:,} series: {growth:.2f} KB per added series")
         checks.append((f"growth {small:,} -> {big:,}: <= 2 KB per added series",

@@ -616,7 +616,7 @@ def test_budget_within_one_percent_of_exhaustive_search():
             per.append(k)
         budget = int(rng.integers(0, sum(cost) + 1))
 
-        def value(t):
+        def value(t, m=m, line=line, cost=cost, gain=gain):
             c = g = 0.0
             for j in range(m):
                 idx = [i for i, ln in enumerate(line) if ln == j][: t[j]]

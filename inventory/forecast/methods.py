@@ -700,7 +700,9 @@ def _fit_in_chunks(y: FloatArray, season_pos: ArrayLike | None, groups: ArrayLik
     assert first is not None
 
     def text(key: str) -> NDArray[np.str_]:
-        return out[key].astype(str)  # the narrowest unicode width again
+        a = out[key]  # back to the narrowest unicode width the values need
+        width = int(np.char.str_len(a).max(initial=1)) if a.size else 1
+        return a.astype(f"<U{max(width, 1)}")
 
     cls = dm.Classification(adi=out["adi"], cv2=out["cv2"], n_demands=out["n_demands"],
                             label=text("label"), ddof=first.classification.ddof)

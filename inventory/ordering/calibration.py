@@ -32,7 +32,7 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 
 from inventory.forecast.distributions import DemandDistribution
 from inventory.ordering.simulate import Allocation, policy_levels, simulate_order_up_to
@@ -84,8 +84,7 @@ class FillCalibration:
 NO_CALIBRATION = FillCalibration((), ())
 
 
-def curve(asked: Sequence[float], achieved: Sequence[float],
-          origins: Sequence[int] = ()) -> FillCalibration:
+def curve(asked: ArrayLike, achieved: ArrayLike, origins: Sequence[int] = ()) -> FillCalibration:
     """A calibration from measured (asked, achieved) pairs; achieved is made non-decreasing
     in asked (more stock never fills less; a dip is simulation noise)."""
     order = np.argsort(np.asarray(asked, dtype=float))

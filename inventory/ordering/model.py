@@ -214,6 +214,12 @@ class PlanLine:
     build_ahead: float
     supplier_choice: str
     reason: str = ""
+    # what the sentence also names: the policy in words, the season's lead time, the
+    # supplier's minimum order value and currency
+    policy_text: str = ""
+    peak_days: float | None = None
+    min_order_value: Decimal = Decimal("0")
+    currency: str = "EUR"
 
     def to_dict(self) -> dict[str, Any]:
         d = asdict(self)

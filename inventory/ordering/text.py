@@ -3,7 +3,10 @@
 from __future__ import annotations
 
 from datetime import date
-from decimal import Decimal
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from inventory.ordering.model import PlanLine
 
 
 def _n(x: float) -> str:
@@ -19,9 +22,12 @@ def _d(x: float) -> str:
     return f"{x:.0f} d" if abs(x - round(x)) < 0.05 else f"{x:.1f} d"
 
 
-def policy_phrase(*, policy: str, level: float, order_quantity: int, eoq: float,
-                  fill_target: float, abc: str, pooled: bool, service: str,
-                  lead_quantile: float, cover_end: date, build_ahead: float) -> str:
+def policy_phrase(line: PlanLine, *, pooled: bool, service: str, cover_end: date) -> str:
+    """The policy behind a line in words: its level, target and class, the demand quantile
+    over the lead time (and for a pre-season line the cover and the build-ahead)."""
+    policy, level, order_quantity, eoq = line.policy, line.level, line.order_quantity, line.eoq
+    fill_target, abc, lead_quantile = line.fill_target, line.abc, line.lead_quantile
+    build_ahead = line.build_ahead
     what = "fill" if service == "fill" else "cycle service"
     target = f"{_pct(fill_target)} {what}" + (f" (class {abc}, pooled)" if pooled
                                                 else f" (class {abc})")
@@ -37,18 +43,26 @@ def policy_phrase(*, policy: str, level: float, order_quantity: int, eoq: float,
     return f"order-up-to level {_n(level)} for {target}; {quant}"
 
 
-def line_sentence(
-    *, part: str, supplier: str, choice: str, forecast_cover: float, cover_days: float,
-    lead_days: float, lead_sd_days: float, review_days: float, peak_days: float | None,
-    policy_text: str, on_hand: int, expired: int, on_order: int, raw_need: int,
-    for_kits: int, assembled: int, to_kits: int, qty: int, packs: int, pack: int,
-    minimum: int, rounded: int,
-    shelf_cap: int | None, shelf_limit: date | None, cure_assumed: str | None,
-    capped: bool, min_forced: bool, topped_up: int, min_order_value: Decimal,
-    budget_cut: int, late: bool, need_date: date | None, arrival: date,
-    unit_cost: Decimal, value: Decimal, currency: str, fill: float, fill_before: float,
-) -> str:
-    """One sentence naming every step from forecast to order quantity."""
+def line_sentence(line: PlanLine) -> str:
+    """One sentence naming every step from forecast to order quantity, from the line's own
+    figures."""
+    part, supplier, choice = line.part, line.supplier, line.supplier_choice
+    forecast_cover, cover_days = line.forecast_cover, line.cover_days
+    lead_days, lead_sd_days, review_days = line.lead_days, line.lead_sd_days, line.review_days
+    peak_days, policy_text = line.peak_days, line.policy_text
+    on_hand, expired, on_order = line.on_hand, line.expired, line.on_order
+    raw_need, for_kits, assembled, to_kits = (line.raw_need, line.for_kits, line.assembled,
+                                              line.to_kits)
+    qty, packs, pack, minimum, rounded = (line.qty, line.packs, line.pack_size, line.minimum,
+                                          line.rounded)
+    shelf_cap, shelf_limit, cure_assumed = line.shelf_cap, line.shelf_limit, line.cure_assumed
+    capped, min_forced, late = ("shelf_life" in line.caps, "min_forced" in line.caps,
+                                "late" in line.caps)
+    topped_up, min_order_value, budget_cut = (line.topped_up, line.min_order_value,
+                                              line.budget_cut)
+    need_date, arrival = line.need_date, line.arrival
+    unit_cost, value, currency = line.unit_cost, line.value, line.currency
+    fill, fill_before = line.expected_fill, line.fill_before_caps
     lead = f"lead {_d(lead_days)}" + (f" ± {_d(lead_sd_days)}" if lead_sd_days else "")
     if peak_days is not None and peak_days > lead_days:
         lead += f", {_d(peak_days)} in season"
@@ -98,7 +112,7 @@ def line_sentence(
     return "; ".join(parts) + "."
 
 
-def short_reason(line) -> str:  # noqa: ANN001  (a PlanLine; the model imports this module)
+def short_reason(line: PlanLine) -> str:
     """The console's few words on a plan line: what the level asks for, what the shelf and
     the kits change, and what the caps, the supplier minimum and the budget did."""
     parts = [f"level {_n(line.level)} for {_pct(line.fill_target)}, "
