@@ -144,20 +144,24 @@ def fit_distribution(
     labels = np.asarray(result.classification.label).astype(str)
     scale = (np.zeros(n, dtype=int) if scale_groups is None
              else np.unique(np.asarray(scale_groups).astype(str), return_inverse=True)[1])
-    cum = np.concatenate([np.zeros((n, 1)), np.cumsum(v, axis=1)], axis=1)
-    sold = np.concatenate([np.zeros((n, 1)), np.cumsum(v > 0, axis=1)], axis=1) > 0
+    # memory: per series only what the pairs need (the first sale, one origin's cumulative
+    # forecast at a time), not (series x periods) cumulative arrays
+    has = v > 0
+    first_sale = np.where(has.any(axis=1), np.argmax(has, axis=1), t_len)
+    del has
     paths = result.origin_paths
     h = paths.shape[2] if paths.ndim == 3 else 0
-    pcum = np.concatenate([np.zeros(paths.shape[:2] + (1,)), np.cumsum(paths, axis=2)], axis=2)
     mus, ds, cl, sc, cold_d = [], [], [], [], []
     for s, o in enumerate(result.origins):
-        use = obs[:, o] & sold[:, o]
-        cold = obs[:, o] & ~sold[:, o]
+        sold_o = first_sale < o
+        use = obs[:, o] & sold_o
+        cold = obs[:, o] & ~sold_o
+        pc = np.cumsum(paths[s], axis=1) if hold > 0 and h > 0 else np.zeros((n, 0))
         for lag in range(hold):
             if lag + k > h or o + lag + k > t_len:
                 break
-            d = cum[:, o + lag + k] - cum[:, o + lag]
-            mu = pcum[s, :, lag + k] - pcum[s, :, lag]
+            d = v[:, o + lag:o + lag + k].sum(axis=1)
+            mu = pc[:, lag + k - 1] - (pc[:, lag - 1] if lag > 0 else 0.0)
             mus.append(mu[use])
             ds.append(d[use])
             cl.append(labels[use])
