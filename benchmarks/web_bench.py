@@ -110,7 +110,7 @@ def serve(url: str, workers: int) -> tuple[subprocess.Popen, str]:
 def client(base: str, name: str):
     import httpx
 
-    c = httpx.Client(base_url=base, timeout=30, follow_redirects=False)
+    c = httpx.Client(base_url=base, timeout=120, follow_redirects=False)
     tok = re.search(r'name="csrf" value="([^"]+)"', c.get("/login").text).group(1)
     r = c.post("/login", data={"csrf": tok, "name": name, "password": PASSWORD})
     assert r.status_code == 303, r.text[:300]
@@ -156,6 +156,8 @@ def search_latency(base: str, n: int) -> tuple[float, float, int]:
 def load(base: str, users: int, seconds: float) -> dict:
     """``users`` threads, each signed in as its own technician: search, then book the top
     stocked candidate to a new job; count bookings, refusals and errors."""
+    import httpx
+
     stop = time.monotonic() + seconds
     stats = {"searches": 0, "booked": 0, "refused": 0, "errors": 0, "units": 0}
     lock = threading.Lock()
@@ -166,33 +168,41 @@ def load(base: str, users: int, seconds: float) -> dict:
         tok = re.search(r'name="csrf" value="([^"]+)"', c.get("/bench").text).group(1)
         rng = np.random.default_rng(100 + u)
         while time.monotonic() < stop:
-            q = {"id": f"{24.99 + rng.normal(0, 0.2):.2f}",
-                 "cs": f"{3.53 + rng.normal(0, 0.05):.2f}"}
-            r = c.get("/api/match", params=q)
-            with lock:
-                stats["searches"] += 1
-            if r.status_code != 200:
+            try:
+                step(c, tok, rng)
+            except httpx.HTTPError as exc:
                 with lock:
                     stats["errors"] += 1
-                    errors.append(f"search {r.status_code} {r.text[:200]}")
-                continue
-            cands = [x for x in r.json()["candidates"] if x["source"] == "stock"
-                     and x["on_hand"] > 0]
-            if not cands:
-                continue
-            part = cands[int(rng.integers(len(cands)))]["part"]
-            r = c.post("/bench/use", data={"csrf": tok, "part": part, "qty": "1",
-                                           "fork": "BENCH-FORK", "service": "lower_leg",
-                                           "back": "/bench"})
+                    errors.append(f"{type(exc).__name__}: {exc}")
+
+    def step(c, tok, rng) -> None:
+        q = {"id": f"{24.99 + rng.normal(0, 0.2):.2f}",
+             "cs": f"{3.53 + rng.normal(0, 0.05):.2f}"}
+        r = c.get("/api/match", params=q)
+        with lock:
+            stats["searches"] += 1
+        if r.status_code != 200:
             with lock:
-                if r.status_code == 303 and "booked=" in r.headers.get("location", ""):
-                    stats["booked"] += 1
-                    stats["units"] += 1
-                elif r.status_code == 400 and "not enough stock" in r.text:
-                    stats["refused"] += 1
-                else:
-                    stats["errors"] += 1
-                    errors.append(f"book {r.status_code} {r.text[:300]}")
+                stats["errors"] += 1
+                errors.append(f"search {r.status_code} {r.text[:200]}")
+            return
+        cands = [x for x in r.json()["candidates"] if x["source"] == "stock"
+                 and x["on_hand"] > 0]
+        if not cands:
+            return
+        part = cands[int(rng.integers(len(cands)))]["part"]
+        r = c.post("/bench/use", data={"csrf": tok, "part": part, "qty": "1",
+                                       "fork": "BENCH-FORK", "service": "lower_leg",
+                                       "back": "/bench"})
+        with lock:
+            if r.status_code == 303 and "booked=" in r.headers.get("location", ""):
+                stats["booked"] += 1
+                stats["units"] += 1
+            elif r.status_code == 400 and "not enough stock" in r.text:
+                stats["refused"] += 1
+            else:
+                stats["errors"] += 1
+                errors.append(f"book {r.status_code} {r.text[:300]}")
 
     threads = [threading.Thread(target=run, args=(u,)) for u in range(users)]
     for t in threads:
@@ -236,7 +246,7 @@ def main() -> int:
     ap.add_argument("--queries", type=int, default=300)
     ap.add_argument("--users", type=int, default=20)
     ap.add_argument("--seconds", type=float, default=60.0)
-    ap.add_argument("--workers", type=int, default=2)
+    ap.add_argument("--workers", type=int, default=1)
     ap.add_argument("--strict", action="store_true")
     args = ap.parse_args()
 
@@ -268,10 +278,15 @@ def main() -> int:
         proc, base = serve(url, args.workers)
         try:
             (p50, p95, biggest), sizes = search_latency(base, args.queries)
+            print(f"search p50 {p50:.1f} ms, p95 {p95:.1f} ms; pages {sizes}", flush=True)
             stats = load(base, args.users, args.seconds)
         finally:
             proc.terminate()
-            proc.wait(timeout=20)
+            try:
+                proc.wait(timeout=30)
+            except subprocess.TimeoutExpired:
+                proc.kill()
+                proc.wait()
         led, bal = final_stock(url, stocked)
         want = sum(stocked.values()) - stats["units"]
         rows = [

@@ -248,3 +248,46 @@ def test_manager_pages_and_writes(web):
         users = set(s.exec(select(Movement.user).where(Movement.part_id != 1)))
     assert "ana" in users
     assert web("lee").get("/plan").status_code == 200  # admin has the manager's rights
+
+
+def test_imports_upload_preview_decide_apply(web, tmp_path):
+    csv = tmp_path / "hist.csv"
+    # a job whose fork text no rule settles, and one by code
+    from datetime import date
+
+    day = date.today().isoformat()  # after the ledger's first receipt, so the jobs take stock
+    csv.write_text("job,date,fork,service,part,qty\n"
+                   f"A1,{day},my old thirty-two,lower leg,OR-214,1\n"
+                   f"A2,{day},XC-32,lower leg,OR-214,1\n", encoding="utf-8")
+    tech = web("sam")
+    assert tech.get("/imports").status_code == 403
+    ana = web("ana")
+    tok = csrf(ana.get("/imports"))
+    n = movements(web.store)
+    r = ana.post("/imports/preview", data={"kind": "history", "order": ""},
+                 files={"file": ("hist.csv", csv.read_bytes())})
+    assert r.status_code == 403  # no CSRF token
+    r = ana.post("/imports/preview", data={"csrf": tok, "kind": "", "order": ""},
+                 files={"file": ("hist.csv", csv.read_bytes())})
+    assert r.status_code == 400 and "pick what the file holds" in error_at(r.text, "kind")
+    r = ana.post("/imports/preview", data={"csrf": tok, "kind": "history", "order": ""},
+                 files={"file": ("hist.txt", b"x")})
+    assert r.status_code == 400 and "expected a .xlsx or .csv" in error_at(r.text, "file")
+    r = ana.post("/imports/preview", data={"csrf": tok, "kind": "history", "order": ""},
+                 files={"file": ("hist.csv", csv.read_bytes())})
+    assert movements(web.store) == n  # a preview writes nothing
+    texts = dict(re.findall(r'name="forktext-(\d+)" value="([^"]+)"', r.text))
+    token = re.search(r'name="token" value="([^"]+)"', r.text).group(1)
+    needs = [i for i, t in texts.items() if t == "my old thirty-two"]
+    assert needs, r.text[-3000:]
+    data = {"csrf": tok, "token": token, "nforks": str(len(texts)), "action": "apply"}
+    for i, t in texts.items():
+        data[f"forktext-{i}"] = t
+    r = ana.post("/imports/apply", data=data)
+    assert r.status_code == 400 and movements(web.store) == n  # undecided: nothing written
+    data[f"fork-{needs[0]}"] = "XC-32"
+    r = ana.post("/imports/apply", data=data)
+    assert r.status_code == 303 and "applied%20hist.csv" in r.headers["location"]
+    assert movements(web.store) == n + 2
+    jobs = {j["ref"]: j["fork"] for j in ana.get("/api/jobs").json()}
+    assert jobs == {"A1": "XC-32", "A2": "XC-32"}

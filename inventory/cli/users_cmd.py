@@ -80,6 +80,7 @@ def serve(ctx: typer.Context,
                                                    "TLS reverse proxy)."),
           ) -> None:
     """Serve the shop's web app (bench, stock, jobs, imports, plan, month end)."""
+    import inspect
     import os
 
     import uvicorn
@@ -97,8 +98,12 @@ def serve(ctx: typer.Context,
         os.environ["INVENTORY_SECURE_COOKIES"] = "1"
     shown = eng.url.render_as_string(hide_password=True)
     say(f"serving {shown} on http://{host}:{port}/ (Ctrl+C stops)")
+    extra = {}
+    if "timeout_worker_healthcheck" in inspect.signature(uvicorn.Config).parameters:
+        # a worker busy reading a large catalog into memory must not be taken for dead
+        extra["timeout_worker_healthcheck"] = 60
     uvicorn.run("inventory.web.app:create_app", factory=True, host=host, port=port,
-                workers=workers, proxy_headers=True, log_level="warning")
+                workers=workers, proxy_headers=True, log_level="warning", **extra)
 
 
 def register(root: typer.Typer) -> None:

@@ -103,3 +103,41 @@ def job_detail(session: Session, ref: str) -> tuple[Any, list[Any]]:
 
     return detail(session, ref)
 
+
+
+# -- imports decided in a page ------------------------------------------------------------------
+
+
+def import_deciding(session: Session, file: str | Path, *, kind: str, apply: bool,
+                    forks: dict[str, str] | None = None, **settings: Any) -> ImportReport:
+    """:func:`import_file` after remembering ``forks`` (free fork text -> fork family code,
+    decided by a person) as aliases, in the caller's transaction: a preview's caller rolls
+    it back, an apply keeps them with the import (or loses both when it fails)."""
+    from sqlmodel import select
+
+    from inventory.core import lookup
+    from inventory.core.tables import ForkAlias
+    from inventory.history.jobs import fork_key
+
+    for text, code in (forks or {}).items():
+        if not code:
+            continue
+        fam = lookup.fork(session, code)
+        assert fam.id is not None  # read from the database, so it has its id
+        key = fork_key(text)
+        row = session.exec(select(ForkAlias).where(ForkAlias.text == key)).first()
+        if row is None:
+            row = ForkAlias(text=key, fork_family_id=fam.id)
+        row.fork_family_id = fam.id
+        session.add(row)
+    session.flush()
+    return import_file(session, file, kind=kind, apply=apply, **settings)
+
+
+def fork_codes(session: Session) -> list[str]:
+    """Every fork family code, for pickers."""
+    from sqlmodel import select
+
+    from inventory.core.tables import ForkFamily
+
+    return list(session.exec(select(ForkFamily.code).order_by(ForkFamily.code)))

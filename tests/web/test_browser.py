@@ -88,6 +88,33 @@ def test_technician_finds_the_ring_and_books_it_to_a_job(browser, demo_app, shot
     ctx.close()
 
 
+def test_manager_imports_the_messy_history_deciding_fork_names(browser, demo_app, shots):
+    from pathlib import Path
+
+    app = demo_app
+    ctx, page = sign_in(browser, app, "boss", SIZES["desktop"])
+    page.goto(f"{app.base}/imports")
+    page.get_by_label("What the file holds").select_option("history")
+    messy = Path(__file__).resolve().parents[2] / "catalog_demo" / "messy_history.xlsx"
+    page.get_by_label("File (.xlsx or .csv)").set_input_files(str(messy))
+    page.get_by_role("button", name="Preview (nothing is written)").click()
+    page.wait_for_selector("#prev-h")
+    shoot(page, shots, app, "imports-preview")
+    undecided = page.locator("tr.needs select")
+    assert undecided.count() > 0  # the messy file has fork names no rule can settle
+    with Session(make_engine(app.db)) as s:
+        jobs_before = len(s.exec(select(ServiceJob.id)).all())
+    for i in range(undecided.count()):
+        undecided.nth(i).select_option(index=1)  # the best-scoring candidate
+    page.get_by_role("button", name="Apply the import").click()
+    done = page.get_by_role("status").inner_text()
+    assert done.startswith("applied messy_history.xlsx"), done
+    new = int(re.search(r"(\d+) new", done).group(1))
+    with Session(make_engine(app.db)) as s:
+        assert len(s.exec(select(ServiceJob.id)).all()) == jobs_before + new
+    ctx.close()
+
+
 def test_manager_reviews_the_plan_changes_a_quantity_and_creates_orders(browser, demo_app,
                                                                          shots):
     app = demo_app
