@@ -291,3 +291,27 @@ def test_imports_upload_preview_decide_apply(web, tmp_path):
     assert movements(web.store) == n + 2
     jobs = {j["ref"]: j["fork"] for j in ana.get("/api/jobs").json()}
     assert jobs == {"A1": "XC-32", "A2": "XC-32"}
+
+
+def test_job_return_and_void_book_new_movements(web):
+    sam = web("sam")
+    page = sam.get("/bench?id=24.99&cs=3.53")
+    r = sam.post("/bench/use", data={"csrf": csrf(page), "part": "OR-214", "qty": "2",
+                                     "fork": "XC-32", "service": "lower_leg"})
+    ref = re.search(r"booked=([^%&]+)", r.headers["location"]).group(1)
+    job = sam.get(f"/jobs/{ref}")
+    tok = csrf(job)
+    n = movements(web.store)
+    r = sam.post(f"/jobs/{ref}/return", data={"csrf": tok, "part": "OR-214", "qty": "5"})
+    assert r.status_code == 400 and "cannot return 5" in error_at(r.text, "return-qty")
+    r = sam.post(f"/jobs/{ref}/void", data={"csrf": tok, "reason": ""})
+    assert r.status_code == 400 and "reason" in error_at(r.text, "void-reason")
+    assert sam.post(f"/jobs/{ref}/void", data={"reason": "x"}).status_code == 403
+    assert movements(web.store) == n
+    r = sam.post(f"/jobs/{ref}/return", data={"csrf": tok, "part": "OR-214", "qty": "1"})
+    assert r.status_code == 303
+    r = sam.post(f"/jobs/{ref}/void", data={"csrf": tok, "reason": "customer cancelled"})
+    assert r.status_code == 303
+    # 3 received, 2 issued, 1 returned, 1 voided back: 3 on hand, the ledger grew by two
+    assert sam.get("/api/stock?part=OR-214").json()[0]["on_hand"] == 3
+    assert movements(web.store) == n + 2
