@@ -9,7 +9,7 @@ widths that fit and number formats; text that looks like a formula is written as
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -37,6 +37,7 @@ from inventory.history.jobs import list_jobs
 from inventory.sheets.write import SheetSpec, write_csv, write_workbook
 from inventory.stock import ledger
 
+STREAM_ROWS = 5_000  # rows fetched from the database at a time when streaming
 TABLES = service.TABLES  # one list, kept where the faces read it
 MM = "0.00"
 MONEY = "#,##0.00##"
@@ -45,8 +46,11 @@ COUNT = "#,##0"
 
 @dataclass(frozen=True)
 class Export:
+    """A table to write: ``rows`` may be a generator (movements stream from the database
+    cursor into the csv file, so a million movements never sit in memory)."""
+
     header: list[str]
-    rows: list[list[Any]]
+    rows: Iterable[list[Any]]
     number_formats: dict[str, str]
 
 
@@ -89,15 +93,18 @@ def _movements(session: Session) -> Export:
          .join(Part, Part.id == Movement.part_id)
          .join(Location, Location.id == Movement.location_id)
          .join(Lot, Lot.id == Movement.lot_id)
-         .order_by(Movement.ts, Movement.id))
-    rows = []
-    for r in session.exec(q):
-        r = list(r)
-        if r[1] is not None and r[1].tzinfo is not None:
-            r[1] = r[1].replace(tzinfo=None)  # spreadsheets have no time zones; stored as UTC
-        rows.append(r)
+         .order_by(Movement.ts, Movement.id)
+         .execution_options(yield_per=STREAM_ROWS))  # a server-side cursor on PostgreSQL
+
+    def rows() -> Iterator[list[Any]]:
+        for row in session.exec(q):
+            r = list(row)
+            if r[1] is not None and r[1].tzinfo is not None:
+                r[1] = r[1].replace(tzinfo=None)  # spreadsheets have no time zones; UTC stored
+            yield r
+
     return Export(["id", "ts_utc", "part", "location", "lot", "qty", "kind", "unit_cost",
-                   "reference", "reason", "user", "batch"], rows,
+                   "reference", "reason", "user", "batch"], rows(),
                   {"qty": COUNT, "unit_cost": MONEY})
 
 
@@ -126,12 +133,20 @@ def export_table(session: Session, table: str, path: str | Path, *, fmt: str | N
     if fmt not in ("xlsx", "csv"):
         raise InventoryError(f"{path.name}: expected a .xlsx or .csv file name")
     data = _EXPORTS[table](session)
+    count = 0
+
+    def counted() -> Iterator[list[Any]]:
+        nonlocal count
+        for row in data.rows:
+            count += 1
+            yield row
+
     if fmt == "csv":
-        write_csv(path, data.header, data.rows)
+        write_csv(path, data.header, counted())  # written row by row as read
     else:
-        write_workbook(path, [SheetSpec(table, data.header, data.rows,
+        write_workbook(path, [SheetSpec(table, data.header, list(counted()),
                                         number_formats=data.number_formats)])
-    return path, len(data.rows)
+    return path, count
 
 
 # --- templates ---------------------------------------------------------------------------
