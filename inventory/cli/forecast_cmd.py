@@ -8,7 +8,6 @@ write the workbook and charts.
 
 from __future__ import annotations
 
-import time
 from collections.abc import Iterator
 from contextlib import contextmanager
 from datetime import date
@@ -23,7 +22,6 @@ from rich.table import Table
 from inventory.cli import options
 from inventory.cli.common import console, err_console, print_json, print_table, reading, say
 from inventory.core.choices import DEFAULT_ALLOCATION, Allocation, ForecastBy
-from inventory.core.errors import InventoryError, Problem
 
 if TYPE_CHECKING:  # the forecaster loads scipy: imported when a command runs, not at start-up
     from inventory.forecast.service import By, ForecastReport
@@ -152,23 +150,6 @@ def forecast(
 # -- backtest ------------------------------------------------------------------------------------
 
 
-def _read_csv(path: Path):
-    from inventory.ordering.backtest import DemandFileError, read_demand_csv
-
-    if not path.exists():
-        raise InventoryError(f"no file {path}", kind="unknown",
-                             hint="give a wide CSV (month + one column per part) or a long "
-                                  "one (date, part, qty)")
-    if path.is_dir():
-        raise InventoryError(f"{path} is a folder, not a CSV file")
-    try:
-        return read_demand_csv(path)
-    except DemandFileError as exc:
-        raise InventoryError([Problem(line) for line in str(exc).splitlines()]) from None
-    except UnicodeDecodeError:
-        raise InventoryError(f"{path}: not a UTF-8 text file") from None
-
-
 def backtest(
     ctx: typer.Context,
     file: Path = typer.Argument(..., metavar="FILE.csv",
@@ -190,32 +171,13 @@ def backtest(
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:
     """Backtest forecast + order-up-to policy on a demand history outside the database."""
-    from inventory.ordering import backtest as bt
+    from inventory.ordering import service  # scipy: only when it runs
 
     rate = options.fill_rate(fill_rate, "--fill-rate")
-    if horizon < 1 or lead_time < 0 or review < 1:
-        raise InventoryError("--horizon and --review must be 1 or more, --lead-time 0 or more")
-    table = _read_csv(file)
-    n, t_len = table.values.shape
-    if t_len <= horizon + 2:
-        raise InventoryError(f"{file}: {t_len} periods is too short for --horizon {horizon}: "
-                             f"need more than {horizon + 2}", hint="use a shorter --horizon")
-    kw = dict(horizon=horizon, lead_time=lead_time, fill_rate=rate, review_period=review,
-              season_pos=table.season_pos(), allocation=allocation.value)
-    t0 = time.perf_counter()
-    with _progress(None, f"backtesting {n} series", quiet=as_json):
-        try:
-            if rolling:
-                res = bt.run_rolling_backtest(table.values, table.names, origins=origins, **kw)
-            else:
-                res = bt.run_backtest(table.values, table.names, **kw)
-        except ValueError as exc:
-            raise InventoryError(f"{file}: {exc}", hint="use a shorter --horizon or fewer "
-                                                        "--origins") from None
-    wall = time.perf_counter() - t0
-    data = res.to_dict()
-    data.update(file=str(file), allocation=allocation.value, rolling=rolling,
-                wall_seconds=round(wall, 3))
+    with _progress(None, f"backtesting {file.name}", quiet=as_json):
+        data = service.backtest_file(file, horizon=horizon, lead_time=lead_time, fill_rate=rate,
+                                     review=review, rolling=rolling, origins=origins,
+                                     allocation=allocation.value)
     if as_json:
         print_json(data)
         return

@@ -22,6 +22,7 @@ from collections.abc import Mapping, Sequence
 from dataclasses import replace
 from datetime import UTC, date, datetime, time, timedelta
 from decimal import Decimal
+from pathlib import Path
 from typing import Any, Protocol
 
 import numpy as np
@@ -432,3 +433,56 @@ def list_orders(session: Session, status: str | None = "open") -> list:
     from inventory.ordering.orders import list_orders as rows
 
     return rows(session, status=status)
+
+
+def _read_demand_file(path: Path) -> Any:
+    from inventory.core.errors import Problem
+    from inventory.ordering.backtest import DemandFileError, read_demand_csv
+
+    if not path.exists():
+        raise InventoryError(f"no file {path}", kind="unknown",
+                             hint="give a wide CSV (month + one column per part) or a long "
+                                  "one (date, part, qty)")
+    if path.is_dir():
+        raise InventoryError(f"{path} is a folder, not a CSV file")
+    try:
+        return read_demand_csv(path)
+    except DemandFileError as exc:
+        raise InventoryError([Problem(line) for line in str(exc).splitlines()]) from None
+    except UnicodeDecodeError:
+        raise InventoryError(f"{path}: not a UTF-8 text file") from None
+
+
+def backtest_file(file: Any, *, horizon: int = 6, lead_time: int = 1, fill_rate: float = 0.95,
+                  review: int = 1, rolling: bool = False, origins: int = 3,
+                  allocation: str = "uniform") -> dict[str, Any]:
+    """``inventory backtest``: forecast + order-up-to policy on a demand history outside the
+    database (wide or long CSV), one origin or ``origins`` rolling ones; returns the result
+    as the ``--json`` document (with the file, the allocation and the wall seconds)."""
+    import time as clock
+
+    from inventory.ordering import backtest as bt
+
+    file = Path(file)
+    if horizon < 1 or lead_time < 0 or review < 1:
+        raise InventoryError("--horizon and --review must be 1 or more, --lead-time 0 or more")
+    table = _read_demand_file(file)
+    _, t_len = table.values.shape
+    if t_len <= horizon + 2:
+        raise InventoryError(f"{file}: {t_len} periods is too short for --horizon {horizon}: "
+                             f"need more than {horizon + 2}", hint="use a shorter --horizon")
+    kw = dict(horizon=horizon, lead_time=lead_time, fill_rate=fill_rate, review_period=review,
+              season_pos=table.season_pos(), allocation=allocation)
+    t0 = clock.perf_counter()
+    try:
+        if rolling:
+            res = bt.run_rolling_backtest(table.values, table.names, origins=origins, **kw)
+        else:
+            res = bt.run_backtest(table.values, table.names, **kw)
+    except ValueError as exc:
+        raise InventoryError(f"{file}: {exc}", hint="use a shorter --horizon or fewer "
+                                                    "--origins") from None
+    data = res.to_dict()
+    data.update(file=str(file), allocation=allocation, rolling=rolling,
+                wall_seconds=round(clock.perf_counter() - t0, 3))
+    return data
