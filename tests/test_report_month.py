@@ -384,8 +384,9 @@ def test_abc_xyz_turns_in_the_report(store):
 
 
 @pytest.mark.parametrize(("text", "message"), [
-    ("2026-13", "bad month '2026-13': expected YYYY-MM, like 2026-11"),
-    ("Nov 2026", "bad month 'Nov 2026': expected YYYY-MM, like 2026-11"),
+    ("2026-13", "month: expected a month like 2026-03, 03/2026 or Mar 2026, got '2026-13'"),
+    ("Novem 2026", "month: expected a month like 2026-03, 03/2026 or Mar 2026, got "
+                   "'Novem 2026'"),
     ("2026-12", "month 2026-12 is not over yet (today is 2026-12-02)"),
     ("2027-01", "month 2027-01 is in the future (today is 2026-12-02)"),
 ])
@@ -393,6 +394,12 @@ def test_bad_months(text, message):
     with pytest.raises(InventoryError) as exc:
         parse_month(text, today=TODAY)
     assert str(exc.value) == message
+
+
+def test_months_read_as_everywhere_else():
+    # the one month parser (core/parse.month): ISO 8601 YYYY-MM, MM/YYYY, English names
+    assert parse_month("Nov 2025", today=TODAY) == parse_month("11/2025", today=TODAY) \
+        == parse_month("2025-11", today=TODAY) == Month(2025, 11)
 
 
 def test_month_arithmetic():

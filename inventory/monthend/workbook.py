@@ -2,36 +2,28 @@
 month, stock value over the last twelve months, ABC Pareto), then one styled sheet per table
 (frozen header, filters, number formats, problems highlighted).
 
-Charts are openpyxl's own (drawn by the spreadsheet program from cell ranges on the
-``Monthly`` and ``ABC-XYZ`` sheets), so they stay live if someone edits the numbers.
+Written with XlsxWriter, a writer made for large write-only workbooks with native charts:
+rows go straight to the file (``constant_memory``), one shared format per column and
+highlight, so a chain's ten thousand parts take a second or two. The charts are the
+spreadsheet program's own, drawn from cell ranges on the ``Monthly`` and ``ABC-XYZ`` sheets,
+so they stay live if someone edits the numbers.
 
-The workbook is written in openpyxl's write-only (streaming) mode, row by row, with one
-shared style per column and highlight: a chain's ten thousand parts take a second or two
-instead of ten. Text that looks like a formula is stored as text, never evaluated (the same
-guard as :mod:`inventory.sheets.write`).
+Text is always written as text (``write_string``; formulas, URLs and numbers are never
+guessed from strings): a part described as ``=HYPERLINK(...)`` stays that text, the same
+guard as :mod:`inventory.sheets.write`. XlsxWriter is imported when a workbook is written.
 """
 
 from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from copy import copy
 from datetime import date, datetime
 from decimal import Decimal
 from pathlib import Path
-from xml.sax.saxutils import escape
-
-from openpyxl import Workbook
-from openpyxl.cell import WriteOnlyCell
-from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
-from openpyxl.chart import BarChart, LineChart, Reference
-from openpyxl.styles import Alignment, Font, PatternFill
-from openpyxl.utils import get_column_letter
-from openpyxl.utils.datetime import to_excel
-from openpyxl.xml.functions import fromstring
+from typing import Any
 
 from inventory.monthend.report import MonthReport
-from inventory.sheets.write import HEADER_FILL, SheetSpec, save_workbook
+from inventory.sheets.write import SheetSpec, replacing
 
 MONEY = "#,##0.00"
 QTY = "#,##0"
@@ -39,10 +31,12 @@ PCT = "0.0%"
 RATIO = "0.00"
 DAYS = "#,##0"
 DATE = "yyyy-mm-dd"
-RED = PatternFill("solid", fgColor="F8CBAD")
-AMBER = PatternFill("solid", fgColor="FFE699")
-TITLE = Font(bold=True, size=14)
-BOLD = Font(bold=True)
+DATETIME = "yyyy-mm-dd hh:mm"
+#: Fills (RGB) of problem rows: red for past limits, dead stock and losses; amber for soon.
+RED = "F8CBAD"
+AMBER = "FFE699"
+HEADER_FILL = "DDE4EE"  # as inventory.sheets.write's header
+NEGATIVE_FONT = "C00000"
 PARETO_TOP = 30
 
 SHEETS = ("Summary", "Parts", "Usage by fork", "Count variances", "Slow and dead",
@@ -59,31 +53,36 @@ def _fmt(header: Sequence[str], money=(), qty=(), pct=(), ratio=(), days=(), dat
     return out
 
 
-class _Styles:
-    """Style arrays built once and copied onto each cell (much cheaper than setting the
-    number format, fill and font attribute by attribute on every cell)."""
+class _Formats:
+    """One XlsxWriter format per (number format, fill, font colour, bold, size, align) in
+    use, made on first use and shared by every cell that needs it."""
 
-    def __init__(self, ws):
-        self.ws = ws
-        self.cache: dict[tuple, object] = {}
+    def __init__(self, wb) -> None:
+        self.wb = wb
+        self.cache: dict[tuple, Any] = {}
 
-    def cell(self, value, number_format=None, fill=None, font=None, text=False):
-        c = WriteOnlyCell(self.ws, value)
-        key = (number_format, id(fill), id(font))
-        if key != (None, id(None), id(None)):
-            if key not in self.cache:
-                t = WriteOnlyCell(self.ws)
-                if number_format:
-                    t.number_format = number_format
-                if fill is not None:
-                    t.fill = fill
-                if font is not None:
-                    t.font = font
-                self.cache[key] = t._style
-            c._style = copy(self.cache[key])
-        if text:
-            c.data_type = "s"  # never a formula, whatever it starts with
-        return c
+    def get(self, number_format: str | None = None, fill: str | None = None,
+            color: str | None = None, bold: bool = False, size: int | None = None,
+            align: str | None = None):
+        key = (number_format, fill, color, bold, size, align)
+        if key == (None, None, None, False, None, None):
+            return None
+        if key not in self.cache:
+            props: dict[str, Any] = {}
+            if number_format:
+                props["num_format"] = number_format
+            if fill:
+                props.update(pattern=1, bg_color=f"#{fill}")
+            if color:
+                props["font_color"] = f"#{color}"
+            if bold:
+                props["bold"] = True
+            if size:
+                props["font_size"] = size
+            if align:
+                props["align"] = align
+            self.cache[key] = self.wb.add_format(props)
+        return self.cache[key]
 
 
 def _plain(value):
@@ -92,127 +91,74 @@ def _plain(value):
     return value
 
 
-class _StyleIds:
-    """The workbook's style index for each (number format, fill, font) in use, registered
-    once through an ordinary cell; rows then carry the index, not a styled cell object."""
-
-    def __init__(self, ws):
-        self.ws = ws
-        self.ids: dict[tuple, str | None] = {}
-
-    def get(self, number_format=None, fill=None, font=None) -> str | None:
-        key = (number_format, id(fill), id(font))
-        if key not in self.ids:
-            if number_format is None and fill is None and font is None:
-                self.ids[key] = None
-            else:
-                t = WriteOnlyCell(self.ws)
-                if number_format:
-                    t.number_format = number_format
-                if fill is not None:
-                    t.fill = fill
-                if font is not None:
-                    t.font = font
-                self.ids[key] = str(self.ws.parent._cell_styles.add(t._style))
-        return self.ids[key]
-
-
-_LETTERS = [get_column_letter(i) for i in range(1, 703)]  # A .. ZZ
+def _put(ws, row: int, col: int, value, fmt=None) -> None:
+    """One cell: text always as text, numbers as numbers, dates as dates; NaN and infinity
+    (no value) as an empty cell keeping its format."""
+    if isinstance(value, Decimal):
+        value = float(value)
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        if fmt is not None:
+            ws.write_blank(row, col, None, fmt)
+        return
+    if isinstance(value, str):
+        ws.write_string(row, col, value, fmt)
+    elif isinstance(value, bool):
+        ws.write_boolean(row, col, value, fmt)
+    elif isinstance(value, datetime | date):
+        if isinstance(value, datetime) and value.tzinfo is not None:
+            value = value.replace(tzinfo=None)
+        ws.write_datetime(row, col, value, fmt)
+    elif isinstance(value, int | float):
+        ws.write_number(row, col, value, fmt)
+    elif hasattr(value, "value") and isinstance(value.value, str):  # enums
+        ws.write_string(row, col, value.value, fmt)
+    else:
+        ws.write_string(row, col, str(value), fmt)
 
 
-def _row_element(row: Sequence[tuple], idx: int, epoch):
-    """One ``<row>`` of (value, style index) pairs, written as text and parsed once (much
-    quicker than an element per cell). Text is an inline string, as openpyxl itself writes
-    it, so it is never taken for a formula."""
-    r = str(idx)
-    out = [f'<row r="{r}">']
-    for j, (v, sid) in enumerate(row):
-        s = f' s="{sid}"' if sid is not None else ""
-        if v is None or (isinstance(v, float) and not math.isfinite(v)):
-            if s:
-                out.append(f'<c r="{_LETTERS[j]}{r}"{s}/>')
-            continue
-        if isinstance(v, str):
-            space = ' xml:space="preserve"' if v != v.strip() else ""
-            text = escape(ILLEGAL_CHARACTERS_RE.sub("", v))
-            out.append(f'<c r="{_LETTERS[j]}{r}"{s} t="inlineStr"><is><t{space}>{text}</t></is></c>')
-            continue
-        if isinstance(v, bool):
-            t, text = "b", "1" if v else "0"
-        elif isinstance(v, date):
-            t, text = "n", repr(to_excel(v, epoch))
-        else:
-            t, text = "n", repr(v) if isinstance(v, float) else str(v)
-        out.append(f'<c r="{_LETTERS[j]}{r}"{s} t="{t}"><v>{text}</v></c>')
-    out.append("</row>")
-    return fromstring("".join(out))
+def _col(n: int) -> str:
+    out = ""
+    n += 1
+    while n:
+        n, r = divmod(n - 1, 26)
+        out = chr(65 + r) + out
+    return out
 
 
-def _fast_rows(ws) -> None:
-    """Let ``ws.append`` take rows of (value, style index) pairs and write each as one
-    element into openpyxl's own sheet stream, instead of one cell object per value: the
-    same XML, several times faster for ten thousand parts."""
-    epoch = ws.parent.epoch
-
-    def write_rows():
-        try:
-            xf = ws._writer.xf.send(True)
-        except StopIteration:
-            ws._already_saved()
-        with xf.element("sheetData"):
-            idx = 1
-            try:
-                while True:
-                    row = yield
-                    xf.write(_row_element(row, idx, epoch))
-                    idx += 1
-            except GeneratorExit:
-                pass
-        ws._writer.xf.send(None)
-
-    ws._write_rows = write_rows
-
-
-def _stream_sheet(wb: Workbook, spec: SheetSpec, rule: tuple[str, dict] | None = None,
+def _stream_sheet(wb, fmts: _Formats, spec: SheetSpec, rule: tuple[str, dict] | None = None,
                   negative_red: Sequence[str] = ()) -> None:
     """One table as a styled sheet: bold filled header, frozen, filtered, widths that fit
     (judged on the first 200 rows), the spec's number formats, whole rows filled where
     ``rule`` = (column, {value: fill}) matches, negative numbers in red in the named columns."""
-    ws = wb.create_sheet(spec.name[:31])
-    _fast_rows(ws)
-    ids = _StyleIds(ws)
+    ws = wb.add_worksheet(spec.name[:31])
     header = list(spec.header)
     formats = [spec.number_formats.get(h) for h in header]
     red_cols = {header.index(h) for h in negative_red}
-    red_font = Font(color="C00000")
     key = header.index(rule[0]) if rule else None
     widths = [len(str(h)) + 2 for h in header]
     for row in spec.rows[:200]:
         for j, v in enumerate(row):
             shown = f"{v:,.2f}" if isinstance(v, float | Decimal) else str(v if v is not None else "")
             widths[j] = max(widths[j], min(60, len(shown) + 2))
-    for j, h in enumerate(header, start=1):
-        ws.column_dimensions[get_column_letter(j)].width = spec.widths.get(h, widths[j - 1])
-    ws.freeze_panes = "A2"
-    ws.auto_filter.ref = f"A1:{get_column_letter(len(header))}{max(1, len(spec.rows) + 1)}"
-    head = ids.get(None, HEADER_FILL, Font(bold=True))
-    ws.append([(h, head) for h in header])
-    plain_ids = [ids.get(f) for f in formats]
-    for row in spec.rows:
+    for j, h in enumerate(header):
+        ws.set_column(j, j, spec.widths.get(h, widths[j]))
+    ws.freeze_panes(1, 0)
+    ws.autofilter(0, 0, max(0, len(spec.rows)), max(0, len(header) - 1))
+    head = fmts.get(fill=HEADER_FILL, bold=True)
+    for j, h in enumerate(header):
+        ws.write_string(0, j, str(h), head)
+    plain = [fmts.get(f) for f in formats]
+    for i, row in enumerate(spec.rows, start=1):
         fill = rule[1].get(row[key]) if rule else None
-        out = []
         for j, v in enumerate(row):
-            if isinstance(v, Decimal):
-                v = float(v)
             fmt = formats[j]
             if fmt is None and isinstance(v, date):
-                fmt = "yyyy-mm-dd hh:mm" if isinstance(v, datetime) else "yyyy-mm-dd"
+                fmt = DATETIME if isinstance(v, datetime) else DATE
             elif fill is None and j not in red_cols:
-                out.append((v, plain_ids[j]))
+                _put(ws, i, j, v, plain[j])
                 continue
-            font = red_font if j in red_cols and isinstance(v, int | float) and v < 0 else None
-            out.append((v, ids.get(fmt, fill, font)))
-        ws.append(out)
+            red = j in red_cols and isinstance(v, int | float | Decimal) and v < 0
+            _put(ws, i, j, v, fmts.get(fmt, fill, NEGATIVE_FONT if red else None))
 
 
 def _parts_sheet(r: MonthReport) -> SheetSpec:
@@ -324,97 +270,97 @@ def key_figures(r: MonthReport) -> list[tuple[str, object, str | None]]:
     ]
 
 
-def _summary(ws, r: MonthReport) -> None:
+def _summary(ws, fmts: _Formats, r: MonthReport) -> None:
     """Key figures, problems in red, and the ABC x XYZ matrix (charts go beside them)."""
-    st = _Styles(ws)
-    right = Alignment(horizontal="right")
-    ws.column_dimensions["A"].width = 40
-    for col in "BCD":
-        ws.column_dimensions[col].width = 18
+    ws.set_column(0, 0, 40)
+    ws.set_column(1, 3, 18)
     # print (and PDF) the summary on one landscape page, charts included
-    ws.page_setup.orientation = "landscape"
-    ws.page_setup.fitToWidth = ws.page_setup.fitToHeight = 1
-    ws.sheet_properties.pageSetUpPr.fitToPage = True
-    ws.append([st.cell(f"Stock report {r.month.label}", font=TITLE)])
-    ws.append([f"Valuation: {r.method_label}. Month end {r.month.last_day.isoformat()}; "
-               f"written {r.today.isoformat()}."])
-    ws.append([])
-    ws.append([st.cell("Key figure", font=BOLD), st.cell("Value", font=BOLD)])
+    ws.set_landscape()
+    ws.fit_to_pages(1, 1)
+    bold = fmts.get(bold=True)
+    ws.write_string(0, 0, f"Stock report {r.month.label}", fmts.get(bold=True, size=14))
+    ws.write_string(1, 0, f"Valuation: {r.method_label}. Month end "
+                          f"{r.month.last_day.isoformat()}; written {r.today.isoformat()}.")
+    ws.write_string(3, 0, "Key figure", bold)
+    ws.write_string(3, 1, "Value", bold)
     problems = {"Dead stock value (no issue 12 months)": r.totals.dead_value > 0,
                 "Lots past their storage limit, value": r.totals.expired_value > 0,
                 "Count losses, value": r.totals.count_loss_value < 0}
+    row = 4
     for label, value, fmt in key_figures(r):
-        c = st.cell(_plain(value), fmt, RED if problems.get(label) else None)
-        c.alignment = right
-        ws.append([label, c])
-    ws.append([])
-    ws.append([st.cell("ABC x XYZ (parts / usage value)", font=BOLD)])
-    ws.append([None] + [st.cell(x, font=BOLD) for x in "XYZ"])
+        ws.write_string(row, 0, label)
+        _put(ws, row, 1, _plain(value),
+             fmts.get(fmt, RED if problems.get(label) else None, align="right"))
+        row += 1
+    row += 1
+    ws.write_string(row, 0, "ABC x XYZ (parts / usage value)", bold)
+    row += 1
+    for j, x in enumerate("XYZ", start=1):
+        ws.write_string(row, j, x, bold)
     for a in "ABC":
-        row: list = [st.cell(a, font=BOLD)]
-        for x in "XYZ":
+        row += 1
+        ws.write_string(row, 0, a, bold)
+        for j, x in enumerate("XYZ", start=1):
             cell = [p for p in r.parts if p.abc == a and p.xyz == x]
             value = sum((p.annual_usage_value for p in cell), Decimal(0))
-            row.append(f"{len(cell)} / {value:,.0f}")
-        ws.append(row)
+            ws.write_string(row, j, f"{len(cell)} / {value:,.0f}")
 
 
-def _charts(wb: Workbook, r: MonthReport, ws) -> None:
-    monthly, abc = wb["Monthly"], wb["ABC-XYZ"]
+def _charts(wb, ws, r: MonthReport) -> None:
+    """Usage by month (stacked columns), stock value (line) and the ABC Pareto (columns with
+    the cumulative share as a line on a secondary axis), drawn from the sheets' cells."""
     n = len(r.history)
-    cats = Reference(monthly, min_col=1, min_row=2, max_row=n + 1)
+    cats = ["Monthly", 1, 0, n, 0]
 
-    usage = BarChart()
-    usage.type, usage.grouping, usage.overlap = "col", "stacked", 100
-    usage.title = "Usage by month (issues at cost)"
-    usage.add_data(Reference(monthly, min_col=2, max_col=3, min_row=1, max_row=n + 1),
-                   titles_from_data=True)
-    usage.set_categories(cats)
-    usage.y_axis.title = "value"
-    usage.y_axis.numFmt = "#,##0"
+    usage = wb.add_chart({"type": "column", "subtype": "stacked"})
+    for col in (1, 2):
+        usage.add_series({"name": ["Monthly", 0, col], "categories": cats,
+                          "values": ["Monthly", 1, col, n, col], "gap": 50})
+    usage.set_title({"name": "Usage by month (issues at cost)"})
+    usage.set_y_axis({"name": "value", "num_format": "#,##0"})
 
-    stock = LineChart()
-    stock.title = "Stock value at month end, last 12 months"
-    stock.add_data(Reference(monthly, min_col=4, min_row=1, max_row=n + 1), titles_from_data=True)
-    stock.set_categories(cats)
-    stock.y_axis.numFmt = "#,##0"
-    stock.legend = None
-    for s in stock.series:
-        s.smooth = False
+    stock = wb.add_chart({"type": "line"})
+    stock.add_series({"name": ["Monthly", 0, 3], "categories": cats,
+                      "values": ["Monthly", 1, 3, n, 3], "smooth": False})
+    stock.set_title({"name": "Stock value at month end, last 12 months"})
+    stock.set_y_axis({"num_format": "#,##0"})
+    stock.set_legend({"none": True})
 
     k = max(1, min(PARETO_TOP, sum(1 for p in r.parts if p.annual_usage_value > 0)))
-    bars = BarChart()
-    bars.title = f"ABC Pareto: annual usage value, top {k} parts"
-    bars.add_data(Reference(abc, min_col=3, min_row=1, max_row=k + 1), titles_from_data=True)
-    bars.set_categories(Reference(abc, min_col=2, min_row=2, max_row=k + 1))
-    bars.y_axis.numFmt = "#,##0"
-    cum = LineChart()
-    cum.add_data(Reference(abc, min_col=5, min_row=1, max_row=k + 1), titles_from_data=True)
-    cum.y_axis.axId = 200
-    cum.y_axis.title = "cumulative share"
-    cum.y_axis.numFmt = "0%"
-    cum.y_axis.scaling.min, cum.y_axis.scaling.max = 0, 1
-    cum.y_axis.crosses = "max"
-    for s in cum.series:
-        s.smooth = False
-    bars += cum
+    bars = wb.add_chart({"type": "column"})
+    bars.add_series({"name": ["ABC-XYZ", 0, 2], "categories": ["ABC-XYZ", 1, 1, k, 1],
+                     "values": ["ABC-XYZ", 1, 2, k, 2]})
+    bars.set_title({"name": f"ABC Pareto: annual usage value, top {k} parts"})
+    bars.set_y_axis({"num_format": "#,##0"})
+    cum = wb.add_chart({"type": "line"})
+    cum.add_series({"name": ["ABC-XYZ", 0, 4], "categories": ["ABC-XYZ", 1, 1, k, 1],
+                    "values": ["ABC-XYZ", 1, 4, k, 4], "y2_axis": True, "smooth": False})
+    cum.set_y2_axis({"name": "cumulative share", "num_format": "0%", "min": 0, "max": 1})
+    bars.combine(cum)
 
     for chart, anchor in ((usage, "F2"), (stock, "F20"), (bars, "F38")):
-        chart.width, chart.height = 20, 8.5
-        chart.x_axis.delete = False
-        chart.y_axis.delete = False
-        ws.add_chart(chart, anchor)
-    cum.y_axis.delete = False
+        chart.set_size({"width": 756, "height": 321})  # 20 x 8.5 cm
+        ws.insert_chart(anchor, chart)
 
 
 def write_month_workbook(path: str | Path, r: MonthReport) -> Path:
     """Write the workbook atomically (a reader never sees half a file); returns the path."""
+    import xlsxwriter
+
     path = Path(path)
-    wb = Workbook(write_only=True)
-    summary = wb.create_sheet("Summary")
-    _summary(summary, r)
-    for spec, rule in _sheets(r):
-        _stream_sheet(wb, spec, rule,
-                      negative_red=["count variance value"] if spec.name == "Parts" else ())
-    _charts(wb, r, summary)
-    return save_workbook(wb, path)
+    with replacing(path) as tmp:
+        wb = xlsxwriter.Workbook(str(tmp), {
+            "constant_memory": True, "strings_to_formulas": False,
+            "strings_to_urls": False, "strings_to_numbers": False,
+            "default_date_format": DATE})
+        try:
+            fmts = _Formats(wb)
+            summary = wb.add_worksheet("Summary")
+            _summary(summary, fmts, r)
+            for spec, rule in _sheets(r):
+                _stream_sheet(wb, fmts, spec, rule, negative_red=(
+                    ["count variance value"] if spec.name == "Parts" else ()))
+            _charts(wb, summary, r)
+        finally:
+            wb.close()
+    return path
