@@ -585,7 +585,44 @@ async def jobs_add(request: Request) -> Response:
     return RedirectResponse(f"/jobs/{ref}", 303)
 
 
-async def job_page(request: Request) -> Response:
+async def job_undo(request: Request) -> Response:
+    """Return unused parts from a job, or void the job: new movements, nothing edited."""
+    who = auth.require(request, "jobs")
+    web: Web = request.app.state.web
+    ref, what = request.path_params["ref"], request.path_params["what"]
+    if what not in ("return", "void"):
+        raise HTTPException(404)
+    form = await request.form()
+    auth.check_csrf(request, form)
+
+    def go(s):
+        from inventory.stock import service as stock
+
+        if what == "return":
+            part = _text(form, "part")
+            if not part:
+                raise FormError("return-part", "pick the part that came back")
+            got = stock.return_from_job(s, ref, part, _int(form, "qty", minimum=1))
+            return f"returned {sum(m.qty for m in got.movements)} x {part} to stock"
+        reason = _text(form, "reason")
+        if not reason:
+            raise FormError("void-reason", "voiding a job needs a reason")
+        got = stock.void_job(s, ref, reason=reason)
+        return f"voided: {sum(m.qty for m in got.movements)} unit(s) back in stock"
+    try:
+        done = await web.write(go, who)
+    except FormError as exc:
+        return await job_page(request, {exc.field: exc.message}, 400)
+    except InventoryError as exc:
+        field = "return-qty" if what == "return" else "void-reason"
+        return await job_page(request, {field: message_of(exc)}, 400)
+    from urllib.parse import quote
+
+    return RedirectResponse(f"/jobs/{ref}?done={quote(done)}", 303)
+
+
+async def job_page(request: Request, errors: dict | None = None,
+                   status: int = 200) -> Response:
     who = auth.require(request, "jobs")
     web: Web = request.app.state.web
     ref = request.path_params["ref"]
@@ -601,7 +638,8 @@ async def job_page(request: Request) -> Response:
     if found is None:
         raise HTTPException(404)
     row, moves = found
-    return page(request, "job.html", who, job=row, moves=moves)
+    return page(request, "job.html", who, status=status, job=row, moves=moves,
+                errors=errors or {}, done=request.query_params.get("done"))
 
 
 # -- plan
@@ -1124,6 +1162,7 @@ def create_app(url: str | None = None, *, secret: str | None = None,
         Route("/jobs", jobs_page),
         Route("/jobs", jobs_add, methods=["POST"]),
         Route("/jobs/{ref}", job_page),
+        Route("/jobs/{ref}/{what}", job_undo, methods=["POST"]),
         Route("/plan", plan_page),
         Route("/plan/orders", plan_orders, methods=["POST"]),
         Route("/month-end", month_page),
