@@ -45,6 +45,7 @@ class Closed:
 def close_month(session: Session, month: str, *, today: date, user: str | None = None) -> Closed:
     """Close ``month`` (``YYYY-MM``, over by ``today``) in the caller's transaction."""
     m = parse_month(month, today=today)
+    months.lock_for_close(session)
     if months.is_closed(session, m.label):
         raise InventoryError(f"{m.label} is already closed (the books are closed through "
                              f"{months.closed_through(session)})", kind="conflict")

@@ -96,10 +96,18 @@ def pick(session: Session, part: Part, qty: int, location: Location | None,
                     f"storage limit {st.limit}: used after inspection, extension to "
                     f"{st.extended_limit} recorded")
         return [Pick(b, lot, loc, n) for (b, lot, loc), n in got]
-    raise _shortage(part, qty, location, day, rows, win, expired, dated=bool(later))
+    codes = {lot.id: lot.code for _, lot, _ in rows}
+    missing = [lot_id for _, lot_id in win if lot_id not in codes]
+    if missing:  # lots empty today that held stock on the day
+        from sqlalchemy import select
+
+        codes.update(session.execute(select(Lot.id, Lot.code).where(Lot.id.in_(missing))).all())
+    raise _shortage(part, qty, location, day, rows, win, expired, dated=bool(later),
+                    codes=codes)
 
 
-def _shortage(part, qty, location, day, rows, win, expired, *, dated) -> InventoryError:
+def _shortage(part, qty, location, day, rows, win, expired, *, dated,
+              codes) -> InventoryError:
     where = f" at {location.code}" if location is not None else ""
     if not dated and not expired:  # nothing booked after the day: today's shelf is the answer
         have = sum(b.qty for b, _, _ in rows)
@@ -118,10 +126,11 @@ def _shortage(part, qty, location, day, rows, win, expired, *, dated) -> Invento
             f"storage limit {state.limit}{extra}", kind="shortage",
             hint="inspect the lot and issue with --inspected to record the extension, "
                  "or receive fresh stock" if state.extendable else "scrap it with an adjustment")
-    lots = [(lot.code, win[(loc.id, lot.id)]) for _, lot, loc in rows]
+    lots = sorted(((codes.get(lot_id, str(lot_id)), s) for (_, lot_id), s in win.items()),
+                  key=lambda cs: cs[0])
     if at_day >= qty:
         code, s = min(((c, s) for c, s in lots if s.low_day is not None),
-                      key=lambda cs: cs[1].free, default=lots[0])
+                      key=lambda cs: cs[1].free, default=lots[0] if lots else ("?", None))
         return InventoryError(
             f"{head}, on hand then {at_day}, free {usable}: later bookings take the rest "
             f"(lot {code} held {s.at_day} then and falls to {s.free} on {s.low_day})",

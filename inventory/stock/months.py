@@ -13,7 +13,8 @@ import json
 import re
 from datetime import UTC, date, datetime
 
-from sqlalchemy import select
+from sqlalchemy import event, select, text
+from sqlalchemy.orm import Session as OrmSession
 from sqlmodel import Session
 
 from inventory.core.errors import InventoryError
@@ -22,6 +23,26 @@ from inventory.stock.timeline import day_of
 
 _LABEL = re.compile(r"^(\d{4})-(\d{2})$")
 _CACHE = "closed_months"
+#: PostgreSQL advisory lock key: bookings hold it shared for their transaction, a close
+#: exclusively, so a close waits for bookings in flight and bookings wait for the close.
+CLOSE_LOCK = (72_012, 0)
+
+
+@event.listens_for(OrmSession, "after_transaction_end")
+def _forget(session, transaction) -> None:
+    if transaction.parent is None:  # the closed months are read again in the next one
+        session.info.pop(_CACHE, None)
+
+
+def _pg(session: Session) -> bool:
+    return session.get_bind().dialect.name == "postgresql"
+
+
+def lock_for_close(session: Session) -> None:
+    """Wait for bookings in flight and hold new ones until this transaction ends."""
+    if _pg(session):
+        session.execute(text("SELECT pg_advisory_xact_lock(:a, :b)"),
+                        {"a": CLOSE_LOCK[0], "b": CLOSE_LOCK[1]})
 
 
 def parse_month(text: str) -> str:
@@ -57,6 +78,9 @@ def closed_months(session: Session) -> frozenset[str]:
     """The closed months, read once per session (a close or reopen here refreshes it)."""
     cached = session.info.get(_CACHE)
     if cached is None:
+        if _pg(session):  # SQLite: the write transaction already holds the whole database
+            session.execute(text("SELECT pg_advisory_xact_lock_shared(:a, :b)"),
+                            {"a": CLOSE_LOCK[0], "b": CLOSE_LOCK[1]})
         cached = frozenset(m for m, act in latest_acts(session).items() if act.action == "close")
         session.info[_CACHE] = cached
     return cached
