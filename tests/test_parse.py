@@ -280,6 +280,9 @@ BAD_COMMANDS = [
     (["stock", "receive", "OR-214", "1", "--cost", "0.25", "--lot", "L" * 100_000],
      "error: --lot: expected a lot of at most 48 characters (100,000 given), got "
      "'LLLLLLLLLLLLLLLLLLLLLLLLLLLLLLLLLLLLL...'"),
+    (["stock", "receive", "OR-214", "1", "--order", "PO-1", "--tolerance", "nan"],
+     "error: --tolerance: expected a fraction of 0 to 1 (or 0% to 100%), got nan"),
+    (["forecast", "--lead-time", "inf"], "error: --lead-time: expected a finite number, got inf"),
     (["plan", "--fill-rate", "1"],
      "error: --fill-rate: expected a fill rate of 0.5 to 0.999, or 50 to 99.9 (%), got '1'"),
 ]

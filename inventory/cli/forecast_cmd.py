@@ -131,6 +131,8 @@ def forecast(
     from inventory.forecast import service  # scipy, openpyxl, matplotlib: only when it runs
 
     day = _day(today)
+    lead_time = options.number(lead_time, "--lead-time", low=0.0, high=36.0)
+    review = options.number(review, "--review", low=0.01, high=36.0)
     by_: By = by.value  # type: ignore[assignment]
     with _progress(FORECAST_STEPS + 2, "forecast", quiet=as_json) as step, reading(ctx) as s:
         report, _, written = service.forecast_command(

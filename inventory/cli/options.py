@@ -87,6 +87,12 @@ def code(text: str | None, option: str, what: str) -> str | None:
     return read(option, parse.code, text, what=what)
 
 
+def number(value: float | str, option: str, *, low: float | None = None,
+           high: float | None = None) -> float:
+    """A finite number within ``[low, high]`` (``nan`` and ``inf`` refused)."""
+    return read(option, parse.number, value, low=low, high=high)
+
+
 def quantity(value: int | str, option: str, *, signed: bool = False,
              zero: bool = False) -> int:
     return read(option, parse.quantity, value, signed=signed, zero=zero)
