@@ -482,3 +482,23 @@ def test_bulk_job_writer_skips_expired_lots_like_the_ledger(store):
     assert str(info.value.problems[0]) == (
         "job B-2: not enough stock of OR-214 on 2025-01-11: asked 1, usable 0; the rest is "
         "past its ISO 2230 storage limit")
+
+
+def test_reverse_refusals_are_one_line(shop):
+    ok("--db", shop, "stock", "receive", "OR-214", "4", "--cost", "0.25", "--lot", "A",
+       "--date", "2026-11-01")
+    ok("--db", shop, "stock", "move", "OR-214", "1", "--from", "MAIN", "--to", "BENCH",
+       "--date", "2026-11-02")
+    ok("--db", shop, "stock", "issue", "OR-214", "1", "--job", "J-5", "--date", "2026-11-03")
+    ok("--db", shop, "stock", "return", "OR-214", "1", "--job", "J-5", "--date", "2026-11-04")
+    # movements: 1 receipt, 2 and 3 the move's two legs, 4 the issue, 5 the return
+    assert refused("--db", shop, "stock", "reverse", "99", "--reason", "x") == (
+        "error: unknown movement 99 (`inventory export movements` lists their ids)")
+    assert refused("--db", shop, "stock", "reverse", "2", "--reason", "x") == (
+        "error: movement 2 is half of a move between locations: move the stock back with "
+        "`inventory stock move`")
+    assert refused("--db", shop, "stock", "reverse", "5", "--reason", "x") == (
+        "error: movement 5 is itself a correction of movement 4: book the movement again "
+        "instead")
+    assert refused("--db", shop, "stock", "reverse", "4", "--reason", "x") == (
+        "error: movement 4 is already reversed")
