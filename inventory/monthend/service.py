@@ -1,6 +1,7 @@
 """Write the month-end report: the workbook, the HTML page, or both, from one database.
 
-The CLI (``inventory report month``) and the demo tour call :func:`write_month_end`;
+The CLI (``inventory report month``) calls :func:`month_end`, the demo tour
+:func:`write_month_end`;
 :func:`latest_complete_month` picks the last complete month (the demo tour uses it).
 """
 
@@ -9,15 +10,17 @@ from __future__ import annotations
 from dataclasses import dataclass
 from datetime import date
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from sqlalchemy import func, select
 from sqlmodel import Session
 
 from inventory.core.tables import Movement
 from inventory.monthend.aggregates import Month, last_complete
-from inventory.monthend.html import write_month_html
-from inventory.monthend.report import MonthReport, ReorderSource, month_report
-from inventory.monthend.workbook import write_month_workbook
+
+if TYPE_CHECKING:  # the report, its writers and the planner load numpy, scipy, openpyxl,
+    # matplotlib: imported by the calls that use them, so a face can import this module
+    from inventory.monthend.report import MonthReport, ReorderSource
 
 
 @dataclass(frozen=True, slots=True)
@@ -37,6 +40,10 @@ def write_month_end(session: Session, month: str | Month, *, today: date,
                     **options) -> MonthEndFiles:
     """Build the report (refusing if the ledger does not reconcile) and write the files
     asked for; nothing is written when the report cannot be built."""
+    from inventory.monthend.html import write_month_html
+    from inventory.monthend.report import month_report
+    from inventory.monthend.workbook import write_month_workbook
+
     report = month_report(session, month, today=today, method=method, reorder=reorder,
                           **options)
     if method == "fifo":  # a closed month's ledger totals are those stored at its close
