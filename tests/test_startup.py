@@ -75,3 +75,18 @@ def test_the_wrapper_does_see_a_heavy_import(shop, tmp_path):
                                   tmp_path / "modules.json")
     assert code == 0, err
     assert "openpyxl" in loaded
+
+
+@pytest.mark.parametrize("module", [
+    "inventory.bench.service", "inventory.catalog.service", "inventory.stock.service",
+    "inventory.history.service", "inventory.monthend.service", "inventory.people.service",
+])
+def test_services_a_face_imports_at_start_load_no_heavy_library(module):
+    # the web face imports these at start-up; the planner and forecaster services
+    # (ordering, forecast) load scipy by nature and are imported when a page needs them
+    code = (f"import sys, json; import {module}; "
+            f"print(json.dumps(sorted({{m.split('.')[0] for m in sys.modules}} & set({HEAVY!r}))))")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    assert json.loads(proc.stdout.strip().splitlines()[-1]) == []
