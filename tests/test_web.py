@@ -315,3 +315,12 @@ def test_job_return_and_void_book_new_movements(web):
     # 3 received, 2 issued, 1 returned, 1 voided back: 3 on hand, the ledger grew by two
     assert sam.get("/api/stock?part=OR-214").json()[0]["on_hand"] == 3
     assert movements(web.store) == n + 2
+
+
+def test_forecast_charts_are_guarded(web):
+    assert web().get("/plan/charts").status_code == 303
+    assert web("sam").get("/plan/charts").status_code == 403
+    ana = web("ana")
+    assert ana.get("/plan/charts/../../etc/passwd").status_code == 404
+    assert ana.get("/plan/charts/0123456789ab/..%2Fsecret.png").status_code == 404
+    assert ana.get("/plan/charts/0123456789ab/missing.png").status_code == 404

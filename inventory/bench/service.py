@@ -11,6 +11,7 @@ Standard sizes are "orderable, not stocked".
 from __future__ import annotations
 
 import dataclasses
+import weakref
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from datetime import date
@@ -332,13 +333,28 @@ def _row(spec: PartSpec, source: str, shop: Shop, req: MatchRequest, *,
     return out
 
 
+_STOCKED_AS: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
 def _stocked_as(shop: Shop) -> dict[str, list[str]]:
+    """Standard designation -> the shop's parts stocked as it (kept per parts table, so a
+    catalog held in memory between searches is not walked again for every search)."""
+    try:
+        hit = _STOCKED_AS.get(shop.parts)
+    except TypeError:  # a plain tuple of parts cannot be weakly referenced
+        hit = None
+    if hit is not None:
+        return hit
     out: dict[str, list[str]] = {}
     standards = getattr(shop.parts, "standards", None)
     pairs = standards() if standards else ((p.code, p.standard) for p in shop.parts)
     for code, standard in pairs:
         if standard:
             out.setdefault(normalise_designation(standard), []).append(code)
+    try:
+        _STOCKED_AS[shop.parts] = out
+    except TypeError:
+        pass
     return out
 
 
@@ -456,12 +472,54 @@ class _StockOnDemand(dict):
         super().__init__()
         self._session, self._specs, self._on = session, specs, on
 
+    probing = False  # True: record the codes asked for, answer "none" (see ShopCache.match)
+
     def get(self, code, default=None):  # noqa: D401 - dict API
+        if self.probing:
+            self.asked.append(code)
+            return StockInfo()
         if code not in self:
             spec = self._specs.get(code)
             self[code] = (stock_by_part(self._session, {code: spec}, on=self._on, part=code)
                           .get(code, StockInfo()) if spec else StockInfo())
         return dict.get(self, code, default)
+
+    def fill(self, codes: Sequence[str]) -> None:
+        """Stock of ``codes`` in one query (the ledger summed per part, location and lot),
+        as :func:`stock_by_part` gives it."""
+        from sqlalchemy import func
+
+        from inventory.core.tables import Location, Movement
+
+        codes = [c for c in dict.fromkeys(codes) if c not in self and c in self._specs]
+        if not codes:
+            return
+        qty = func.sum(Movement.qty)
+        q = (select(Part.code, Location.code, Lot.code, Lot.cured, Lot.extended_until, qty)
+             .join(Part, Part.id == Movement.part_id)
+             .join(Location, Location.id == Movement.location_id)
+             .join(Lot, Lot.id == Movement.lot_id)
+             .where(Part.code.in_(codes))
+             .group_by(Part.code, Location.code, Lot.code, Lot.cured, Lot.extended_until)
+             .having(qty != 0)
+             .order_by(Part.code, Location.code, Lot.code, Lot.cured))
+        acc: dict[str, dict] = {}
+        for part, loc, lot, cured, until, n in self._session.exec(q):
+            n = int(n)
+            if n <= 0:
+                continue
+            a = acc.setdefault(part, {"n": 0, "loc": {}, "past": 0, "lots": []})
+            a["n"] += n
+            a["loc"][loc] = a["loc"].get(loc, 0) + n
+            if lot_past_storage(cured, self._specs[part].material, self._on,
+                                extended_until=until):
+                a["past"] += n
+                a["lots"].append(lot)
+        for code in codes:
+            a = acc.get(code)
+            self[code] = StockInfo() if a is None else StockInfo(
+                a["n"], tuple(sorted(a["loc"].items(), key=lambda kv: (-kv[1], kv[0]))),
+                a["past"], tuple(dict.fromkeys(a["lots"])))
 
 
 class ShopCache:
@@ -511,6 +569,22 @@ class ShopCache:
                 self.loads += 1
             parts, arrays, by_code = self._parts, self._arrays, self._by_code
         return Shop(parts, arrays, _StockOnDemand(session, by_code, on), on)
+
+    def match(self, session: Session, req: MatchRequest, *, on: date | None = None
+              ) -> MatchResult:
+        """:func:`run_match` on the cached arrays, with the stock of every candidate read in
+        one query: a first pass finds the candidates, the second gives them their stock
+        (ranking does not depend on stock)."""
+        shop = self.shop(session, on=on)
+        stock = shop.stock
+        assert isinstance(stock, _StockOnDemand)
+        stock.asked, stock.probing = [], True
+        try:
+            run_match(shop, req)
+        finally:
+            stock.probing = False
+        stock.fill(stock.asked)
+        return run_match(shop, req)
 
 
 def fork_code(session: Session, text: str) -> str:

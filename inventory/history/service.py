@@ -72,6 +72,7 @@ def resolve_fork(session: Session, text: str) -> str:
                          hint=f"closest: {best}" if best else "list them with "
                          "`inventory catalog export`")
 
+
 # -- service jobs ------------------------------------------------------------------------------
 
 
@@ -102,7 +103,6 @@ def job_detail(session: Session, ref: str) -> tuple[Any, list[Any]]:
     from inventory.history.jobs import job_detail as detail
 
     return detail(session, ref)
-
 
 
 # -- imports decided in a page ------------------------------------------------------------------
@@ -141,3 +141,16 @@ def fork_codes(session: Session) -> list[str]:
     from inventory.core.tables import ForkFamily
 
     return list(session.exec(select(ForkFamily.code).order_by(ForkFamily.code)))
+
+
+def new_job_ref(session: Session, day: date) -> str:
+    """A fresh job reference for ``day`` that no other writer can take at the same time:
+    on PostgreSQL a transaction-scoped advisory lock serialises the numbering until the
+    caller commits (SQLite transactions are already serial: BEGIN IMMEDIATE)."""
+    from sqlalchemy import text
+
+    from inventory.history.jobs import next_ref
+
+    if session.get_bind().dialect.name == "postgresql":
+        session.execute(text("SELECT pg_advisory_xact_lock(hashtext('inventory.job_ref'))"))
+    return next_ref(session, day)
