@@ -41,6 +41,10 @@ def run_script(*args: str, cwd: Path) -> subprocess.CompletedProcess[str]:
         (["stock", "on-hand", "--bogus"], "Usage: inventory stock on-hand", "No such option: --bogus"),
         (["stock", "receive", "OR-214"], "Usage: inventory stock receive", "Missing argument"),
         (["job", "list", "--limit", "many"], "Usage: inventory job list", "Invalid value for '--limit'"),
+        # a bad choice (choices are Enums): typer lists the allowed values
+        (["forecast", "--by", "nothing"], "Usage: inventory forecast", "'nothing' is not one of"),
+        (["report", "month", "2026-11", "--method", "lifo"], "Usage: inventory report month",
+         "'lifo' is not one of 'fifo', 'average'"),
     ],
 )
 def test_usage_error_prints_usage_and_exits_2(tmp_path, args, usage, message):
