@@ -206,20 +206,33 @@ def run_transaction(engine: Engine, work: Callable[[Session], T], *,
     raise AssertionError("unreachable")  # pragma: no cover
 
 
+_RETRIED_IN = "inventory.retry_deadlocks"
+
+
 def retry_deadlocks(fn: Callable[..., T]) -> Callable[..., T]:
     """Decorate a ledger operation ``fn(session, ...)``: on PostgreSQL it runs inside a
     savepoint, and when the database picks it as a deadlock victim (or reports a
     serialisation failure) the savepoint is rolled back, releasing the locks the operation
     took, and the operation runs again, at most :data:`DEFAULT_ATTEMPTS` times in all. The
     caller's transaction and everything it did before stay as they were. On SQLite (writers
-    serialised by ``BEGIN IMMEDIATE``) the operation runs as it is."""
+    serialised by ``BEGIN IMMEDIATE``) the operation runs as it is.
+
+    Only the first such operation of a transaction gets the savepoint: a bulk writer that
+    books thousands of movements in one transaction would otherwise open thousands of
+    subtransactions, which slows every other session's snapshots on PostgreSQL (past 64
+    per transaction a backend's subtransaction cache overflows). A deadlock later in a
+    bulk transaction ends it with the one-line "another booking is in progress"."""
 
     @functools.wraps(fn)
     def wrapper(session: Session, *args, **kwargs):
         if session.get_bind().dialect.name != "postgresql" or session.in_nested_transaction():
             return fn(session, *args, **kwargs)
+        root = session.get_transaction()
+        if root is not None and session.info.get(_RETRIED_IN) is root:
+            return fn(session, *args, **kwargs)
         for attempt in range(1, DEFAULT_ATTEMPTS + 1):
             savepoint = session.begin_nested()
+            session.info[_RETRIED_IN] = session.get_transaction()
             try:
                 out = fn(session, *args, **kwargs)
             except sa_exc.DBAPIError as exc:
