@@ -524,7 +524,7 @@ class _StockOnDemand(dict):
 
 class ShopCache:
     """The shop's matchable parts as arrays, kept in memory between requests and read again
-    when the catalog changes (its part count, highest id or last import differ) or after
+    when the catalog changes (its highest part id or last import differ) or after
     ``max_age`` seconds; stock is read per request for the candidates shown."""
 
     def __init__(self, max_age: float = 300.0) -> None:
@@ -545,9 +545,10 @@ class ShopCache:
 
         from inventory.core.tables import ImportBatch
 
-        n, top = session.exec(select(func.count(Part.id), func.max(Part.id))).one()
+        # two index-only lookups (a count over 100,000 parts would cost more than the search)
+        top = session.exec(select(func.max(Part.id))).one()
         batch = session.exec(select(func.max(ImportBatch.id))).one()
-        return (n, top, batch)
+        return (top, batch)
 
     def invalidate(self) -> None:
         with self._lock:

@@ -294,7 +294,7 @@ def _match(web: Web, s, q) -> dict:
         seat=_blank(q.get("seat")), limit=limit_n,
         standard=str(q.get("no_standard", "")).lower() not in ("1", "true", "on", "yes"),
         unit=unit)
-    return bench.run_match(web.shop_cache.shop(s), req).to_dict()
+    return web.shop_cache.match(s, req).to_dict()
 
 
 def _blank(v):
@@ -328,8 +328,12 @@ async def bench_page(request: Request) -> Response:
 
 async def part_page(request: Request) -> Response:
     who = auth.require(request, "bench")
+    return await _part_view(request, who, request.path_params["code"])
+
+
+async def _part_view(request: Request, who: dict, code: str, errors: dict | None = None,
+                     values: dict | None = None, status: int = 200) -> Response:
     web: Web = request.app.state.web
-    code = request.path_params["code"]
 
     def go(s):
         from inventory.bench import service as bench
@@ -349,8 +353,9 @@ async def part_page(request: Request) -> Response:
         return page(request, "bench.html", who, status=404, values={"code": code},
                     errors={"code": error}, result=None, caution=CAUTION,
                     levels=SERVICE_LEVELS, **choices)
-    return page(request, "part.html", who, spec=spec, fits=fits, stock=stock, caution=CAUTION,
-                levels=SERVICE_LEVELS, **choices)
+    return page(request, "part.html", who, status=status, spec=spec, fits=fits, stock=stock,
+                caution=CAUTION, levels=SERVICE_LEVELS, errors=errors or {},
+                values=values or {}, **choices)
 
 
 async def bench_use(request: Request) -> Response:
@@ -365,7 +370,8 @@ async def bench_use(request: Request) -> Response:
         back = "/bench"
 
     def go(s):
-        from inventory.history.jobs import JobItem, next_ref, record_job
+        from inventory.history.jobs import JobItem, record_job
+        from inventory.history.service import new_job_ref
 
         qty = _int(form, "qty", minimum=1)
         fork = _text(form, "fork")
@@ -375,7 +381,7 @@ async def bench_use(request: Request) -> Response:
         if level not in SERVICE_LEVELS:
             raise FormError("service", f"pick a service level ({', '.join(SERVICE_LEVELS)})")
         today = date.today()
-        ref = _text(form, "job") or next_ref(s, today)
+        ref = _text(form, "job") or new_job_ref(s, today)
         record_job(s, ref=ref, day=today, fork=fork, service=level,
                    items=[JobItem(part, qty)])
         return ref
@@ -395,6 +401,11 @@ async def _bench_again(request: Request, who: dict, form, errors: dict) -> Respo
     """The bench (or part) page again with a booking error beside the field, status 400."""
     web: Web = request.app.state.web
     back = str(form.get("back") or "/bench")
+    if back.startswith("/bench/part/"):  # booked from the part's page: back there
+        return await _part_view(request, who, back[len("/bench/part/"):].split("?")[0],
+                                errors, {"use-fork": form.get("fork"),
+                                         "use-service": form.get("service"),
+                                         "use-qty": form.get("qty")}, 400)
     from urllib.parse import parse_qsl, urlsplit
 
     parts = urlsplit(back)
@@ -557,7 +568,8 @@ async def jobs_add(request: Request) -> Response:
     auth.check_csrf(request, form)
 
     def go(s):
-        from inventory.history.jobs import next_ref, record_job
+        from inventory.history.jobs import record_job
+        from inventory.history.service import new_job_ref
 
         fork = _text(form, "fork")
         if not fork:
@@ -570,7 +582,7 @@ async def jobs_add(request: Request) -> Response:
             raise FormError("date", f"{day.isoformat()} is in the future")
         items = _job_items(form)
         hours = _int(form, "hours", minimum=0) if _text(form, "hours") else None
-        ref = next_ref(s, day)
+        ref = new_job_ref(s, day)
         record_job(s, ref=ref, day=day, fork=fork, service=level, items=items, hours=hours)
         return ref
     values = {k: v for k, v in form.items() if k != "csrf"}
@@ -675,6 +687,73 @@ async def plan_page(request: Request, errors: dict | None = None, status: int = 
     errs = (errors or {}) | errs
     return page(request, "plan.html", who, status=400 if errs else status, plan=plan,
                 orders=orders, values=q, errors=errs, done=request.query_params.get("done"))
+
+
+def _chart_dir() -> Path:
+    import tempfile
+
+    d = Path(tempfile.gettempdir()) / "inventory-charts"
+    d.mkdir(mode=0o700, exist_ok=True)
+    return d
+
+
+async def plan_charts(request: Request) -> Response:
+    """Forecast charts (history, forecast, 10-90 % range) of the parts in the plan, drawn
+    in one forecast run and kept in a temporary folder for the images to be fetched."""
+    import re
+    import secrets
+
+    who = auth.require(request, "plan")
+    web: Web = request.app.state.web
+    q = dict(request.query_params)
+    by = "family" if q.get("by") == "family" else "part"
+
+    def go(s):
+        from inventory.forecast.charts import chart_name
+        from inventory.forecast.service import forecast_command
+
+        as_of = _day(q.get("date"), "date") or date.today()
+        codes = []
+        if by == "part":
+            plan = _plan(s, q)
+            codes = sorted({ln["part"] for o in plan["orders"] for ln in o["lines"]})
+        token = secrets.token_hex(6)
+        folder = _chart_dir() / token
+        try:
+            report, chosen, _ = forecast_command(s, today=as_of, top=0 if codes else 12,
+                                                 parts=(), charts=None, defaults=False,
+                                                 by=by)
+        except InventoryError as exc:
+            return token, [], message_of(exc)
+        known = {x.code: x for x in report.series}
+        chosen = [known[c] for c in codes if c in known] or chosen
+        from inventory.forecast.service import write_outputs
+
+        write_outputs(report, chosen, charts=folder, defaults=False)
+        return token, [(x.code, chart_name(report, x)) for x in chosen], None
+    try:
+        token, charts, err = await web.read(go, who)
+    except FormError as exc:
+        return await plan_page(request, {exc.field: exc.message}, 400)
+    names = [(c, n) for c, n in charts if re.fullmatch(r"[A-Za-z0-9._-]+", n)]
+    return page(request, "plan_charts.html", who, token=token, charts=names, error=err,
+                values=q, by=by)
+
+
+async def plan_chart_png(request: Request) -> Response:
+    import re
+
+    from starlette.responses import FileResponse
+
+    auth.require(request, "plan")
+    token, name = request.path_params["token"], request.path_params["name"]
+    if not re.fullmatch(r"[0-9a-f]{12}", token) or not re.fullmatch(r"[A-Za-z0-9._-]+\.png",
+                                                                     name):
+        raise HTTPException(404)
+    path = _chart_dir() / token / name
+    if not path.exists():
+        raise HTTPException(404)
+    return FileResponse(path, media_type="image/png")
 
 
 async def plan_orders(request: Request) -> Response:
@@ -1165,6 +1244,8 @@ def create_app(url: str | None = None, *, secret: str | None = None,
         Route("/jobs/{ref}/{what}", job_undo, methods=["POST"]),
         Route("/plan", plan_page),
         Route("/plan/orders", plan_orders, methods=["POST"]),
+        Route("/plan/charts", plan_charts),
+        Route("/plan/charts/{token}/{name}", plan_chart_png),
         Route("/month-end", month_page),
         Route("/month-end/{month}/report", month_report),
         Route("/month-end/{month}.xlsx", month_xlsx),
