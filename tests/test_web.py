@@ -324,3 +324,11 @@ def test_forecast_charts_are_guarded(web):
     assert ana.get("/plan/charts/../../etc/passwd").status_code == 404
     assert ana.get("/plan/charts/0123456789ab/..%2Fsecret.png").status_code == 404
     assert ana.get("/plan/charts/0123456789ab/missing.png").status_code == 404
+
+
+def test_stock_forms_default_to_the_main_location(web):
+    # the tiny catalog has BENCH and MAIN: BENCH sorts first, MAIN is the ledger's default
+    html = web("ana").get("/stock").text
+    for form in ("count", "receive", "adjust"):
+        sel = re.search(rf'<select id="{form}-location".*?</select>', html, re.S).group(0)
+        assert re.search(r'<option value="MAIN" selected>', sel), form

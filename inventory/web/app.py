@@ -431,6 +431,14 @@ async def _bench_again(request: Request, who: dict, form, errors: dict) -> Respo
 # -- stock
 
 STOCK_PAGE_LINES = 400
+
+
+def stock_default_location(locations: list[str]) -> str:
+    """The ledger's default location (MAIN) when the shop has it, so a count or receipt is
+    not booked to whichever location sorts first."""
+    from inventory.stock.service import DEFAULT_LOCATION
+
+    return DEFAULT_LOCATION if DEFAULT_LOCATION in locations else (locations or [""])[0]
 STOCK_ACTIONS = {"issue": "issue", "count": "count", "receive": "receive", "adjust": "adjust",
                  "move": "move"}
 
@@ -459,7 +467,9 @@ async def stock_page(request: Request, errors: dict | None = None, values: dict 
         errs["filter"] = err
     return page(request, "stock.html", who, status=status if not err else 404, lines=lines,
                 total_lines=total_lines,
-                locations=locations, errors=errs, values=values or {}, part=part,
+                locations=locations, errors=errs, part=part,
+                values={f"{a}-location": stock_default_location(locations)
+                        for a in ("count", "receive", "adjust")} | (values or {}),
                 done=done or request.query_params.get("done"),
                 count_mode=request.query_params.get("mode") == "count", caution=CAUTION,
                 may=lambda r: auth.may(request, r))
