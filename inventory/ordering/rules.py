@@ -216,6 +216,9 @@ def _gain(ln: NDArray[np.int64], g: NDArray[np.float64], taken: NDArray[np.int64
     return float(g[seq < taken[ln]].sum())
 
 
+MAX_DP_CELLS = 4_000_000  # (lines x budget steps) of the knapsack check: 16 MB of choices
+
+
 def _prefix_knapsack(ln: NDArray[np.int64], cost: list[int], g: NDArray[np.float64],
                      budget: int, *, closed_from: ArrayLike | None, cells: int = 20_000
                      ) -> NDArray[np.int64] | None:
@@ -223,10 +226,18 @@ def _prefix_knapsack(ln: NDArray[np.int64], cost: list[int], g: NDArray[np.float
     the budget, by dynamic programming over the budget (multiple-choice knapsack, e.g.
     Kellerer, Pferschy and Pisinger 2004, ch. 11). Costs are counted in ``budget / cells``
     steps rounded UP when the budget is larger than ``cells`` units, so the answer never
-    exceeds the budget (and may leave a little unspent). Lines must be sorted."""
+    exceeds the budget (and may leave a little unspent). Lines must be sorted. None when
+    the grid would be too coarse (over ``MAX_DP_CELLS / 200`` lines): the greedy stands.
+    Recalled from memory: the greedy by ratio is near-optimal when every increment is small
+    against the budget (many lines), and can be far off when few lines share it."""
     if ln.size == 0 or budget <= 0 or np.any(np.diff(ln) < 0):
         return None
     n_lines = int(ln.max()) + 1
+    # memory and time stay bounded: at most MAX_DP_CELLS (line, budget step) cells; with
+    # thousands of lines the grid gets too coarse to help and the check is skipped
+    cells = min(cells, MAX_DP_CELLS // n_lines)
+    if cells < 200:
+        return None
     step = max(1, -(-budget // cells))
     cap = budget // step
     blocked = set() if closed_from is None else {int(x) for x in np.asarray(closed_from)}
