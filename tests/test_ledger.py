@@ -25,7 +25,7 @@ from inventory.stock import ledger
 def test_receive_issue_fifo_by_cure_quarter(store):
     with transaction(store) as s:
         ledger.receive(s, "OR-214", 5, "0.30", lot="NEW", cured="2026Q2")
-        ledger.receive(s, "OR-214", 5, "0.20", lot="OLD", cured="3/24")  # ISO 2230 label form
+        ledger.receive(s, "OR-214", 5, "0.20", lot="OLD", cured="3/24")  # month/year: 2024Q1
         ledger.receive(s, "OR-214", 5, "0.25", lot="MID", cured="2025Q1")
     with transaction(store) as s:
         moves = ledger.issue(s, "OR-214", 7, reference="J-1")

