@@ -332,3 +332,11 @@ def test_stock_forms_default_to_the_main_location(web):
     for form in ("count", "receive", "adjust"):
         sel = re.search(rf'<select id="{form}-location".*?</select>', html, re.S).group(0)
         assert re.search(r'<option value="MAIN" selected>', sel), form
+
+
+def test_stock_page_shows_the_iso_2230_limit(web):
+    # OR-214 is NBR cured 2026Q1: NBR is ISO 2230 group B, 7 years initial storage period
+    # (ISO 2230:2002 clause 4, as tabulated in ../shared/REFERENCE.md section 5), counted
+    # from the end of the cure quarter as the trade does (common practice) -> 2033-03-31
+    html = web("sam").get("/stock?part=OR-214").text
+    assert "2033-03-31" in html and "past 2033" not in html

@@ -115,3 +115,32 @@ def void_job(session: Session, job: str, **kwargs: Any) -> Any:
     from inventory.stock import returns
 
     return returns.void_job(session, job, **kwargs)
+
+
+def storage_limits(session: Session, lines: list[StockLine], *,
+                   on: Any = None) -> list[tuple[Any, bool]]:
+    """For each by-lot line: the last day its lot may be fitted under ISO 2230 (the lot's
+    inspected extension when it has one; None for plastics, metals and lots without a cure
+    quarter) and whether that day is past on ``on`` (default today)."""
+    from datetime import date
+
+    from inventory.bench.seals import storage_limit
+    from inventory.core.tables import Lot, Part
+
+    on = on or date.today()
+    codes = sorted({ln.part for ln in lines})
+    material = {c: m for c, m in session.exec(
+        select(Part.code, Part.material).where(Part.code.in_(codes)))}
+    extended = {(p, lot): until for p, lot, until in session.exec(
+        select(Part.code, Lot.code, Lot.extended_until).join(Part, Part.id == Lot.part_id)
+        .where(Part.code.in_(codes), Lot.extended_until.is_not(None)))}
+    out: list[tuple[Any, bool]] = []
+    for ln in lines:
+        limit = extended.get((ln.part, ln.lot))
+        if limit is None and ln.cured and material.get(ln.part):
+            try:
+                limit = storage_limit(ln.cured, material[ln.part])
+            except ValueError:
+                limit = None
+        out.append((limit, limit is not None and on > limit))
+    return out
