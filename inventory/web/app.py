@@ -460,19 +460,13 @@ async def stock_page(request: Request, errors: dict | None = None, values: dict 
     lines, locations, err = await web.read(go, who)
     total_lines = len(lines)
     lines = lines[:STOCK_PAGE_LINES]  # a page stays small on a tablet; filter by part for more
-
-    def limits(s):
-        from inventory.stock import service as stock
-
-        return stock.storage_limits(s, lines)
-    limits_ = await web.read(limits, who) if lines else []
     from inventory.bench.fit import CAUTION
 
     errs = dict(errors or {})
     if err:
         errs["filter"] = err
     return page(request, "stock.html", who, status=status if not err else 404, lines=lines,
-                total_lines=total_lines, limits=limits_,
+                total_lines=total_lines,
                 locations=locations, errors=errs, part=part,
                 values={f"{a}-location": stock_default_location(locations)
                         for a in ("count", "receive", "adjust")} | (values or {}),
