@@ -28,6 +28,8 @@ from decimal import Decimal
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from sqlalchemy import text
+from sqlmodel import Session
 
 from inventory.cli import options
 from inventory.core import choices, parse, tables
@@ -158,9 +160,9 @@ def test_parsed_values_are_what_they_say():
 def test_booking_dates_are_bounded():
     today = date(2026, 12, 4)
     assert parse.booking_day("2026-12-05", today=today) == date(2026, 12, 5)  # one day margin
-    for text in ("0001-01-01", "1999-12-31", "2026-12-06", "9999-12-31"):
+    for typed in ("0001-01-01", "1999-12-31", "2026-12-06", "9999-12-31"):
         with pytest.raises(ValueError, match="expected a date from 2000-01-01"):
-            parse.booking_day(text, today=today)
+            parse.booking_day(typed, today=today)
     # a ledger's opening is the lower bound when the caller knows it
     with pytest.raises(ValueError, match="the ledger's opening"):
         parse.booking_day("2024-12-31", today=today, opening=date(2025, 1, 1))
@@ -310,3 +312,44 @@ def test_a_high_cost_is_booked_when_confirmed(shop, monkeypatch, capsys):
     code, out, _ = inv(monkeypatch, capsys, "--db", shop, "stock", "on-hand", "--part",
                        "WP-32", "--json")
     assert json.loads(out)[0]["value"] == "40000.50"
+
+
+IMPORT_CASES = [
+    # (column, bad cell text, kind of value): every bad value of a receipts file is reported
+    # at its cell with the parser's own message, and nothing is written
+    ("Qty", "9223372036854775807", "quantity"),
+    ("Qty", "\u0661\u0662", "quantity"),
+    ("Unit price", "1e30", "money"),
+    ("Unit price", "5,000", "money"),
+    ("Cure date", "2099Q1", "cure"),
+    ("Cure date", "13/25", "cure"),
+    ("Batch", "L\u202e9", "code"),
+]
+
+
+def test_an_import_reports_the_parsers_message_at_each_cell(store, tmp_path):
+    from dataclasses import replace
+
+    from inventory.history.imports import ImportSettings, run_import
+
+    header = ["Delivery date", "Supplier", "Part", "Qty", "Unit price", "Batch", "Cure date"]
+    good = ["2026-04-01", "SUP-A", "OR-214", "100", "0.27", "L-9", "2026Q1"]
+    lines = [",".join(header)]
+    for column, bad, _ in IMPORT_CASES:
+        row = list(good)
+        row[header.index(column)] = bad
+        lines.append(",".join(f'"{v}"' for v in row))
+    path = tmp_path / "receipts.csv"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    settings = replace(ImportSettings(kind="receipts", user="test"), today=date(2026, 6, 30))
+    with Session(store) as s:
+        report = run_import(s, path, settings)
+    problems = [str(p) for p in report.problems]
+    for row, (column, bad, kind) in enumerate(IMPORT_CASES, start=2):
+        col = "ABCDEFG"[header.index(column)]
+        expected = _outcome(ENTRY[kind][3] or ENTRY[kind][0], bad)
+        assert expected[0] == "error"
+        assert any(p.startswith(f"receipts.csv:{col}{row} ") and expected[1] in p
+                   for p in problems), (column, bad, problems)
+    with Session(store) as s:
+        assert s.execute(text("SELECT count(*) FROM movement")).scalar() == 0
