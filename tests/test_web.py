@@ -340,3 +340,29 @@ def test_stock_page_shows_the_iso_2230_limit(web):
     # from the end of the cure quarter as the trade does (common practice) -> 2033-03-31
     html = web("sam").get("/stock?part=OR-214").text
     assert "2033-03-31" in html and "past 2033" not in html
+
+
+def test_count_mode_books_every_variance_at_the_end(web):
+    sam = web("sam")
+    tok = csrf(sam.get("/stock?mode=count"))
+    n = movements(web.store)
+    r = sam.post("/stock/count-sheet", data={"csrf": tok, "n": "0", "action": "add",
+                                             "new-part": "OR-214", "new-location": "MAIN",
+                                             "new-qty": "2"})
+    assert r.status_code == 200 and "Book 1 count(s)" in r.text
+    hidden = dict(re.findall(r'name="(c\d+-\w+)" value="([^"]*)"', r.text))
+    r = sam.post("/stock/count-sheet", data={"csrf": tok, "n": "1", **hidden, "action": "add",
+                                             "new-part": "WP-32", "new-location": "MAIN",
+                                             "new-qty": "x"})
+    assert r.status_code == 400 and "whole number" in error_at(r.text, "new-qty")
+    r = sam.post("/stock/count-sheet", data={"csrf": tok, "n": "1", **hidden, "action": "add",
+                                             "new-part": "WP-32", "new-location": "MAIN",
+                                             "new-qty": "0"})
+    hidden = dict(re.findall(r'name="(c\d+-\w+)" value="([^"]*)"', r.text))
+    assert len(hidden) == 6 and movements(web.store) == n  # adding writes nothing
+    r = sam.post("/stock/count-sheet", data={"csrf": tok, "n": "2", **hidden,
+                                             "action": "book"})
+    assert r.status_code == 303 and "2%20count" in r.headers["location"]
+    # OR-214: ledger 3, counted 2 -> one variance movement of -1; WP-32: 0 and 0 -> none
+    assert movements(web.store) == n + 1
+    assert sam.get("/api/stock?part=OR-214").json()[0]["on_hand"] == 2
