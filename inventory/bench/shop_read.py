@@ -18,6 +18,7 @@ from typing import Any
 import numpy as np
 from sqlalchemy import select
 from sqlalchemy.orm import Session
+from sqlmodel import col
 
 from inventory.bench.fit_rules import (
     KIND_CODE,
@@ -41,6 +42,11 @@ _FLOATS = ("id_mm", "od_mm", "height_mm", "cs_mm", "hardness", "volume_cm3")
 CHUNK = 10_000
 
 
+def _given(values: np.ndarray) -> np.ndarray:
+    """True where an object column holds a value (not NULL)."""
+    return np.fromiter((v is not None for v in values), dtype=bool, count=len(values))
+
+
 class PartRows(Sequence[PartSpec]):
     """The parts as columns; ``rows[i]`` makes the :class:`PartSpec` of one part on demand
     (a lookup shows a handful; iterating makes them all, as ``parts find`` needs)."""
@@ -54,7 +60,7 @@ class PartRows(Sequence[PartSpec]):
     def __len__(self) -> int:
         return len(self.codes)
 
-    def __getitem__(self, i):  # type: ignore[override]
+    def __getitem__(self, i):
         if isinstance(i, slice):
             return [self[j] for j in range(*i.indices(len(self)))]
         d = self.data
@@ -87,7 +93,7 @@ class PartRows(Sequence[PartSpec]):
     def standards(self) -> Iterator[tuple[str, str]]:
         """(code, standard designation) of the parts that name a standard size."""
         std = self.data["standard"]
-        for i in np.flatnonzero(np.not_equal(std, None)):
+        for i in np.flatnonzero(_given(std)):
             yield str(self.codes[i]), str(std[i])
 
     def by_code(self) -> Mapping[str, PartSpec]:
@@ -118,7 +124,7 @@ def read_rows(session: Session, *, exclude: Collection[PartKind] = ()) -> PartRo
     SELECT of the columns, no ORM objects)."""
     q = select(*[getattr(Part, c) for c in COLUMNS]).order_by(Part.code)
     if exclude:
-        q = q.where(Part.kind.not_in([str(k) for k in exclude]))
+        q = q.where(col(Part.kind).not_in([str(k) for k in exclude]))
     conn = session.connection()
     # the driver's own cursor: plain tuples, no result-row objects for 100,000 parts (the
     # kinds bound as literals are the tool's own enum values)
@@ -171,7 +177,7 @@ def columns_from_rows(rows: PartRows) -> PartColumns:
         id_tol[ring_at], cs_tol[ring_at] = a_id, a_cs
         table = _standard_tolerances()
         std = d["standard"]
-        for i in ring_at[np.not_equal(std[ring_at], None)]:
+        for i in ring_at[_given(std[ring_at])]:
             if not std[i]:
                 continue
             hit = table.get(normalise_designation(std[i]))
@@ -181,7 +187,7 @@ def columns_from_rows(rows: PartRows) -> PartColumns:
     mats = d["material"]
     mat = np.fromiter((codes[m] if m in codes else codes.setdefault(m, material_code(m))
                        for m in mats), dtype=np.int16, count=n)
-    any_mat = np.equal(mats, None) & np.not_equal(d["standard"], None)
+    any_mat = ~_given(mats) & _given(d["standard"])
     return PartColumns(kind=kind, id_mm=idm, od_mm=od, height_mm=h, cs_mm=cs,
                        volume_cm3=d["volume_cm3"].copy(), hardness=d["hardness"].copy(),
                        material=mat, any_material=np.asarray(any_mat, dtype=bool),
