@@ -152,6 +152,8 @@ def _accept_global_options(typer_app: typer.Typer) -> None:
             _accept_global_options(group.typer_instance)
 
 
+# after every registration above: commands registered later would not take --db after
+# their name
 _accept_global_options(app)
 
 
