@@ -46,3 +46,19 @@ def test_declared_dependencies_match_what_the_package_imports():
     assert "pandas" not in runtime and "xlsxwriter" in runtime
     openpyxl = next(d for d in project["dependencies"] if d.lower().startswith("openpyxl"))
     assert "<3.2" not in openpyxl  # the pin the old patch needed is gone
+
+
+def test_no_spreadsheet_writer_reaches_into_a_library():
+    # every module that uses openpyxl or XlsxWriter sticks to their public API: no attribute
+    # starting with an underscore on anything but its own objects
+    found = {}
+    for path in PACKAGE.rglob("*.py"):
+        if not {"openpyxl", "xlsxwriter"} & _imports(path):
+            continue
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        hits = [n.attr for n in ast.walk(tree) if isinstance(n, ast.Attribute)
+                and n.attr.startswith("_") and not n.attr.startswith("__")
+                and not (isinstance(n.value, ast.Name) and n.value.id in ("self", "cls"))]
+        if hits:
+            found[str(path.relative_to(PACKAGE))] = hits
+    assert found == {}
