@@ -88,3 +88,24 @@ def test_db_after_the_sub_command_wins_over_the_environment(tmp_path):
     proc = subprocess.run([console_script(), "stock", "on-hand", "--db", str(db)], cwd=tmp_path,
                           env=env, capture_output=True, text=True, timeout=120)
     assert proc.returncode == 0, proc.stderr
+
+
+def test_every_command_takes_db_after_its_name():
+    # walks the built command tree (typer.main.get_command is typer's public API)
+    import typer.main
+
+    from inventory.cli.main import app
+
+    missing = []
+
+    def walk(cmd, path):
+        subs = getattr(cmd, "commands", None)
+        if subs:
+            for name, sub in subs.items():
+                walk(sub, [*path, name])
+            return
+        if not any("--db" in getattr(p, "opts", ()) for p in cmd.params):
+            missing.append(" ".join(path))
+
+    walk(typer.main.get_command(app), [])
+    assert missing == []
