@@ -75,7 +75,7 @@ def test_kit_on_hand_is_issued_whole_then_built_from_its_parts(shop):
      "error: bad --service: expected a service level (lower_leg, air_spring, damper), got "
      "'paint'"),
     (["--service", "damper", "--part", "OR-214=0"],
-     "error: bad --part 'OR-214=0': quantity must be more than 0, got 0"),
+     "error: --part OR-214: expected a whole number above 0, got 0"),
     (["--service", "damper", "--part", "OR-215=1"],
      "error: unknown part 'OR-215' (did you mean OR-214?)"),
     (["--service", "damper"],

@@ -39,13 +39,8 @@ def parse_part(spec: str) -> tuple[str, int]:
     code = code.strip()
     if not code:
         raise InventoryError(f"bad --part {spec!r}: expected PART=QTY, e.g. OR-214=2")
-    try:
-        n = int(qty.strip())
-    except ValueError:
-        raise InventoryError(f"bad --part {spec!r}: quantity must be a whole number") from None
-    if n <= 0:
-        raise InventoryError(f"bad --part {spec!r}: quantity must be more than 0, got {n}")
-    return code, n
+    code = options.code(code, "--part", "part") or code
+    return code, options.quantity(qty.strip(), f"--part {code}")
 
 
 @app.command()
