@@ -20,7 +20,7 @@ from inventory.bench.fit_geometry import (
     spacer_end_pressure,
     stretched_cross_section,
 )
-from inventory.bench.fit_rules import Limit
+from inventory.bench.fit_limits import Limit
 from inventory.bench.tolerances import limits
 from inventory.core.model import Gland, Medium, Motion, PartKind, PartSpec, SeatSpec
 

@@ -23,8 +23,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from inventory.bench.fit import Verdict, fit
+from inventory.bench.fit_checks import range_status
 from inventory.bench.fit_geometry import cross_section_bounds, handbook_cs_reduction_pct
-from inventory.bench.fit_rules import FitRules, Limit, range_status
+from inventory.bench.fit_limits import FitRules, Limit
 from inventory.bench.matching import PartArrays, fit_matrix
 from inventory.core.model import Gland, Medium, Motion, PartKind, PartSpec, SeatSpec
 

@@ -13,7 +13,7 @@ from sqlalchemy import event, text
 from sqlmodel import Session, select
 
 from inventory.bench import service as svc
-from inventory.bench.fit_rules import _COLUMN_NAMES, columns_from_specs
+from inventory.bench.fit_columns import _COLUMN_NAMES, columns_from_specs
 from inventory.bench.matching import MatchQuery, PartArrays
 from inventory.bench.shop_read import read_part_arrays
 from inventory.core.convert import part_spec

@@ -22,7 +22,7 @@ from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
 
 from inventory.bench.fit import CAUTION, FitRules
-from inventory.bench.fit_rules import NOT_APPLICABLE, STATUS_NAMES
+from inventory.bench.fit_limits import NOT_APPLICABLE, STATUS_NAMES
 from inventory.bench.matching import PartArrays, fit_matrix
 from inventory.bench.seals import kind_label
 from inventory.core.model import PartKind, PartSpec, SeatSpec

@@ -22,22 +22,17 @@ import math
 from dataclasses import dataclass
 from enum import StrEnum
 
-from inventory.bench.fit_rules import (
-    DRIVER_TEXT,
+from inventory.bench.fit_checks import DRIVER_TEXT, RawCheck, kind_status_table
+from inventory.bench.fit_columns import TOL_BASIS_TEXT, PartColumns, columns_from_specs
+from inventory.bench.fit_limits import (
     FAIL,
     KIND_CODE,
     NOT_APPLICABLE,
     STATUS_NAMES,
-    TOL_BASIS_TEXT,
     FitRules,
     Limit,
-    PartColumns,
-    RawCheck,
-    columns_from_specs,
-    evaluate,
-    kind_status_table,
-    worst,
 )
+from inventory.bench.fit_rules import evaluate, worst
 from inventory.bench.seals import medium_status
 from inventory.core.model import PartKind, PartSpec, SeatSpec
 

@@ -26,7 +26,9 @@ from functools import lru_cache
 
 import numpy as np
 
-from inventory.bench.fit_rules import (
+from inventory.bench.fit_checks import kind_status_table
+from inventory.bench.fit_columns import PartColumns, columns_from_specs, material_code
+from inventory.bench.fit_limits import (
     KIND_CODE,
     KINDS,
     MATERIAL_CODES,
@@ -35,13 +37,8 @@ from inventory.bench.fit_rules import (
     STATUS_NAMES,
     UNKNOWN_MATERIAL,
     FitRules,
-    PartColumns,
-    columns_from_specs,
-    evaluate,
-    kind_status_table,
-    material_code,
-    worst,
 )
+from inventory.bench.fit_rules import evaluate, worst
 from inventory.bench.seals import MATERIALS, ROUND_SECTION
 from inventory.bench.sizes import StandardRings, standard_orings
 from inventory.core.model import PartKind, PartSpec, SeatSpec
@@ -355,7 +352,7 @@ def fit_matrix(seats: Sequence[SeatSpec], parts: PartArrays, *, rules: FitRules 
                reference_shore_a: float | None = None) -> np.ndarray:
     """Verdict codes of every part in every seat, shape ``(len(seats), len(parts))``.
 
-    0 pass, 1 marginal, 2 fail (as :data:`~inventory.bench.fit_rules.STATUS_NAMES`), and
+    0 pass, 1 marginal, 2 fail (as :data:`~inventory.bench.fit_limits.STATUS_NAMES`), and
     -1 where the part's kind does not go in the seat. Each cell equals the verdict of
     :func:`inventory.bench.fit.fit` for that pair. Only parts of an applicable kind are
     evaluated, each seat over all of them at once.

@@ -3,7 +3,7 @@
 ``match`` and ``fit`` compare a measurement with every part, so they need every part's
 kind, dimensions, material, hardness and standard size as columns (numpy arrays), not as
 ORM objects: one plain SELECT of those columns, then the columns built with array
-operations (:func:`columns_from_rows`, the same values :func:`inventory.bench.fit_rules.
+operations (:func:`columns_from_rows`, the same values :func:`inventory.bench.fit_columns.
 columns_from_specs` gives from records). A :class:`PartSpec` is made only for the parts a
 lookup shows (:class:`PartRows`). Stock is summed in SQL per candidate shown
 (:mod:`inventory.bench.service`), and so are the shelf-life checks.
@@ -20,8 +20,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 from sqlmodel import col
 
-from inventory.bench.fit_rules import (
-    KIND_CODE,
+from inventory.bench.fit_columns import (
     TOL_ASSUMED,
     TOL_TABLE,
     PartColumns,
@@ -29,6 +28,7 @@ from inventory.bench.fit_rules import (
     assumed_ring_tolerances,
     material_code,
 )
+from inventory.bench.fit_limits import KIND_CODE
 from inventory.bench.matching import PartArrays
 from inventory.bench.seals import ROUND_SECTION
 from inventory.bench.sizes import normalise_designation
@@ -154,7 +154,7 @@ def read_rows(session: Session, *, exclude: Collection[PartKind] = ()) -> PartRo
 
 def columns_from_rows(rows: PartRows) -> PartColumns:
     """The match/fit columns of ``rows``, built with array operations: the same values as
-    :func:`inventory.bench.fit_rules.columns_from_specs` (round-section rings missing an
+    :func:`inventory.bench.fit_columns.columns_from_specs` (round-section rings missing an
     outside diameter or height get ``id + 2 cs`` and ``cs``; ring tolerances from the
     standard size's table row when the part names one, else assumed)."""
     d = rows.data
