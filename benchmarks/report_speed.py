@@ -244,8 +244,9 @@ def child(url: str, outdir: str, method: str) -> None:
     from sqlmodel import Session
 
     from inventory.core.db import make_engine
-    from inventory.monthend.aggregates import load_month, parse_month
+    from inventory.monthend.aggregates import load_month
     from inventory.monthend.html import write_month_html
+    from inventory.monthend.records import parse_month
     from inventory.monthend.report import assemble, report_dict
     from inventory.monthend.workbook import write_month_workbook
 

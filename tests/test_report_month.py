@@ -18,7 +18,8 @@ from inventory.core.db import transaction
 from inventory.core.errors import InventoryError
 from inventory.core.tables import JobLine, Lot, Movement, ServiceJob, StockBalance
 from inventory.history.jobs import JobItem, record_job
-from inventory.monthend.aggregates import Month, load_month, parse_month
+from inventory.monthend.aggregates import load_month
+from inventory.monthend.records import Month, parse_month
 from inventory.monthend.report import ReorderAdvice, assemble, month_report, report_dict
 from inventory.stock import ledger
 from inventory.stock import valuation as val

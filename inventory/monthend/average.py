@@ -4,7 +4,7 @@ The default valuation (lot cost, FIFO by cure date) is read straight from the da
 sums; the moving average cannot be, since every outflow leaves at the average of the moment.
 So :func:`revalue_average` streams the movements ordered by part and time (``yield_per``),
 holding one running :class:`inventory.stock.valuation.AverageState` per part, and replaces
-the values of a :class:`~inventory.monthend.aggregates.MonthData`. Quantities, and so the
+the values of a :class:`~inventory.monthend.records.MonthData`. Quantities, and so the
 quantity checks of the reconciliation, are unchanged.
 """
 
@@ -20,15 +20,8 @@ from sqlalchemy.types import NullType
 from sqlmodel import Session
 
 from inventory.core.tables import ForkFamily, Movement, ServiceJob
-from inventory.monthend.aggregates import (
-    HISTORY_MONTHS,
-    KNOWN_KINDS,
-    ZERO,
-    MonthData,
-    PartMonth,
-    cost4,
-    money4,
-)
+from inventory.monthend.aggregates import cost4, money4
+from inventory.monthend.records import HISTORY_MONTHS, KNOWN_KINDS, ZERO, MonthData, PartMonth
 from inventory.stock import valuation as val
 
 

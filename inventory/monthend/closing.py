@@ -18,7 +18,7 @@ from decimal import Decimal
 from sqlmodel import Session
 
 from inventory.core.errors import InventoryError
-from inventory.monthend.aggregates import parse_month
+from inventory.monthend.records import parse_month
 from inventory.monthend.report import MonthReport, month_report
 from inventory.stock import months
 from inventory.stock.ledger import current_user

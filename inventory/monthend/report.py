@@ -1,6 +1,6 @@
 """The month-end report: the reconciliation check, the derived figures and the JSON.
 
-:func:`assemble` (pure) takes a :class:`~inventory.monthend.aggregates.MonthData`, refuses when
+:func:`assemble` (pure) takes a :class:`~inventory.monthend.records.MonthData`, refuses when
 the ledger does not reconcile (naming the parts), then derives turns, days of supply,
 ABC/XYZ classes, slow and dead stock, expiring lots and the reorder list with the functions
 of :mod:`inventory.stock.valuation`. :func:`month_report` loads and assembles;
@@ -24,7 +24,8 @@ from sqlmodel import Session
 
 from inventory.bench.seals import storage_limit
 from inventory.core.errors import InventoryError, Problem
-from inventory.monthend.aggregates import (
+from inventory.monthend.aggregates import load_month
+from inventory.monthend.records import (
     METHODS,
     ZERO,
     ForkUsage,
@@ -32,7 +33,6 @@ from inventory.monthend.aggregates import (
     Month,
     MonthData,
     PartMonth,
-    load_month,
     parse_month,
 )
 from inventory.ordering.model import ReorderAdvice  # defined below the report (ordering < monthend)

@@ -16,7 +16,7 @@ from sqlalchemy import func, select
 from sqlmodel import Session
 
 from inventory.core.tables import Movement
-from inventory.monthend.aggregates import Month, last_complete
+from inventory.monthend.records import Month, last_complete
 
 if TYPE_CHECKING:  # the report, its writers and the planner load numpy, scipy, openpyxl,
     # matplotlib: imported by the calls that use them, so a face can import this module
@@ -72,7 +72,7 @@ def month_end(session: Session, month: str, *, today: date, xlsx: str | Path | N
     take the reorder list from the order planner when ``plan`` (else the usage rule), and
     write the workbook (``reports/stock-YYYY-MM.xlsx`` unless given, when
     ``default_workbook``) and the HTML page if asked."""
-    from inventory.monthend.aggregates import parse_month
+    from inventory.monthend.records import parse_month
     from inventory.ordering.service import reorder_source
 
     m = parse_month(month, today=today)
