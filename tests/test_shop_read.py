@@ -97,7 +97,7 @@ def test_lookup_makes_no_orm_objects_and_ranks_the_same(catalog):
             # the reference: the same lookup over the catalog read as records
             specs, _ = _reference(s)
             before = svc.Shop(tuple(specs), PartArrays.from_specs(specs),
-                              svc._StockOnDemand(s, {p.code: p for p in specs}, shop.on),
+                              svc.StockOnDemand(s, {p.code: p for p in specs}, shop.on),
                               shop.on)
             expected = svc.run_match(before, svc.MatchRequest(q, standard=False))
     finally:
@@ -123,3 +123,27 @@ def test_stock_is_read_for_the_candidates_shown_only(catalog):
     shown = {r["part"] for r in result.rows}
     # one stock read per candidate shown at most, never one per part in the catalog
     assert 0 < len(statements) <= 3 * len(shown) < N
+
+
+def test_bench_stock_read_equals_the_ledgers_sums(catalog):
+    """The bench sums stock with its own SQL (it sits below the stock package); the oracle
+    is the stock package's reader, :func:`inventory.stock.ledger.on_hand`, and the count
+    booked here by hand (7 + 5 received, 9 issued oldest cure first)."""
+    from inventory.bench.stock_read import stock_infos
+
+    with transaction(catalog) as s:
+        ledger.receive(s, "OR-214", 5, "0.30", lot="B", cured="2024Q3",
+                       received=date(2025, 6, 1))
+        ledger.issue(s, "OR-214", 9)  # lot B (older cure) first, then 4 of lot A
+    with read_transaction(catalog) as s:
+        specs = {p.code: p for p in _reference(s)[0]}
+        ours = stock_infos(s, specs, on=date(2026, 1, 1))
+        lines = [line for line in ledger.on_hand(s, by_lot=True) if line.on_hand > 0]
+        one = stock_infos(s, specs, on=date(2026, 1, 1), codes=["OR-214"])
+    theirs: dict[str, int] = {}
+    for line in lines:
+        theirs[line.part] = theirs.get(line.part, 0) + line.on_hand
+    assert {code: info.on_hand for code, info in ours.items()} == theirs
+    assert ours["OR-214"].on_hand == 7 + 5 - 9
+    assert ours["OR-214"].locations == (("MAIN", 3),)
+    assert one == {"OR-214": ours["OR-214"]}

@@ -2,7 +2,8 @@
 printing: the shop's parts and stock read once from the store, then handed to the pure core
 (:mod:`inventory.bench.matching`, :mod:`inventory.bench.fit`).
 
-Stock candidates carry their on-hand quantity and locations (summed from the ledger) and
+Stock candidates carry their on-hand quantity and locations (summed from the movements by
+:mod:`inventory.bench.stock_read`, without the stock package, which sits above the bench) and
 the units in lots past their ISO 2230 storage period (REFERENCE.md 5: counted from the end
 of the cure quarter; a lot inspected and extended is good until its ``extended_until``).
 Standard sizes are "orderable, not stocked".
@@ -32,19 +33,21 @@ from inventory.bench.matching import (
 from inventory.bench.seals import (
     MATERIALS,
     PLAUSIBLE_MM,
-    is_past_storage_limit,
     normalise_material,
     parse_dimension,
     usual_medium_status,
 )
 from inventory.bench.sizes import normalise_designation
+from inventory.bench.stock_read import (
+    StockInfo,
+    StockOnDemand,
+)
 from inventory.core import lookup
 from inventory.core.convert import all_seats, part_spec, seat_spec
 from inventory.core.errors import InventoryError
 from inventory.core.model import PartKind, PartSpec, SeatSpec
-from inventory.core.tables import Lot, Part
+from inventory.core.tables import Part
 from inventory.core.units import check_range, read_length
-from inventory.stock import ledger
 
 #: Kinds that have no dimensions to match or fit (consumables and kits).
 NOT_BENCH_KINDS = frozenset({PartKind.OIL, PartKind.GREASE, PartKind.KIT})
@@ -142,63 +145,6 @@ def check_hardness(value: float | None) -> float | None:
 
 # ------------------------------------------------------------------------- the shop
 
-@dataclass(frozen=True, slots=True)
-class StockInfo:
-    """Stock of one part: on hand, by location (largest first), units past storage."""
-
-    on_hand: int = 0
-    locations: tuple[tuple[str, int], ...] = ()
-    past_storage: int = 0
-    lots_past: tuple[str, ...] = ()
-
-    @property
-    def location(self) -> str | None:
-        return ", ".join(loc for loc, _ in self.locations) or None
-
-
-def lot_past_storage(cured: str | None, material: str | None, on: date, *,
-                     extended_until: date | None = None) -> bool:
-    """True when a lot is past its ISO 2230 storage period on ``on``. A lot inspected and
-    extended is good until ``extended_until``; lots without a cure quarter, plastics,
-    metals and unknown materials are never flagged."""
-    if not cured or not material:
-        return False
-    if extended_until is not None:
-        return on > extended_until
-    try:
-        return is_past_storage_limit(cured, material, on)
-    except ValueError:
-        return False
-
-
-def stock_by_part(session: Session, specs: dict[str, PartSpec], *,
-                  on: date, part: str | None = None) -> dict[str, StockInfo]:
-    """On hand (from the ledger), locations and units past storage for every part (or for
-    the one ``part``)."""
-    ext_q = (select(Part.code, Lot.code, Lot.extended_until).join(Part, Part.id == Lot.part_id)
-             .where(Lot.extended_until.is_not(None)))
-    if part is not None:
-        ext_q = ext_q.where(Part.code == part)
-    extended = {(p, lot): until for p, lot, until in session.exec(ext_q)}
-    acc: dict[str, dict] = {}
-    for line in ledger.on_hand(session, by_lot=True, part=part):
-        if line.on_hand <= 0:
-            continue
-        a = acc.setdefault(line.part, {"n": 0, "loc": {}, "past": 0, "lots": []})
-        a["n"] += line.on_hand
-        a["loc"][line.location] = a["loc"].get(line.location, 0) + line.on_hand
-        spec = specs.get(line.part)
-        if spec and lot_past_storage(line.cured, spec.material, on,
-                                     extended_until=extended.get((line.part, line.lot))):
-            a["past"] += line.on_hand
-            a["lots"].append(line.lot)
-    return {
-        code: StockInfo(a["n"], tuple(sorted(a["loc"].items(), key=lambda kv: (-kv[1], kv[0]))),
-                        a["past"], tuple(dict.fromkeys(a["lots"])))
-        for code, a in acc.items()
-    }
-
-
 @dataclass(frozen=True, eq=False)
 class Shop:
     """The shop's matchable parts as arrays, their stock, and the day it was read."""
@@ -219,7 +165,7 @@ def load_shop(session: Session, *, on: date | None = None) -> Shop:
 
     on = on or date.today()
     rows, arrays = read_part_arrays(session, exclude=NOT_BENCH_KINDS)
-    return Shop(rows, arrays, _StockOnDemand(session, rows.by_code(), on), on)
+    return Shop(rows, arrays, StockOnDemand(session, rows.by_code(), on), on)
 
 
 def find_seat(session: Session, fork: str | None, seat: str | None) -> SeatSpec | None:
@@ -464,64 +410,6 @@ def match_request(session: Session, *, kind: str | None = None, id_: str | None 
                         check_hardness(hardness), rules, standard=standard)
 
 
-class _StockOnDemand(dict):
-    """Stock per part code, read from the ledger the first time a code is asked for (a
-    search shows a handful of candidates; summing the whole ledger per search is waste)."""
-
-    def __init__(self, session: Session, specs: Mapping[str, PartSpec], on: date) -> None:
-        super().__init__()
-        self._session, self._specs, self._on = session, specs, on
-
-    probing = False  # True: record the codes asked for, answer "none" (see ShopCache.match)
-
-    def get(self, code, default=None):  # noqa: D401 - dict API
-        if self.probing:
-            self.asked.append(code)
-            return StockInfo()
-        if code not in self:
-            spec = self._specs.get(code)
-            self[code] = (stock_by_part(self._session, {code: spec}, on=self._on, part=code)
-                          .get(code, StockInfo()) if spec else StockInfo())
-        return dict.get(self, code, default)
-
-    def fill(self, codes: Sequence[str]) -> None:
-        """Stock of ``codes`` in one query (the ledger summed per part, location and lot),
-        as :func:`stock_by_part` gives it."""
-        from sqlalchemy import func
-
-        from inventory.core.tables import Location, Movement
-
-        codes = [c for c in dict.fromkeys(codes) if c not in self and c in self._specs]
-        if not codes:
-            return
-        qty = func.sum(Movement.qty)
-        q = (select(Part.code, Location.code, Lot.code, Lot.cured, Lot.extended_until, qty)
-             .join(Part, Part.id == Movement.part_id)
-             .join(Location, Location.id == Movement.location_id)
-             .join(Lot, Lot.id == Movement.lot_id)
-             .where(Part.code.in_(codes))
-             .group_by(Part.code, Location.code, Lot.code, Lot.cured, Lot.extended_until)
-             .having(qty != 0)
-             .order_by(Part.code, Location.code, Lot.code, Lot.cured))
-        acc: dict[str, dict] = {}
-        for part, loc, lot, cured, until, n in self._session.exec(q):
-            n = int(n)
-            if n <= 0:
-                continue
-            a = acc.setdefault(part, {"n": 0, "loc": {}, "past": 0, "lots": []})
-            a["n"] += n
-            a["loc"][loc] = a["loc"].get(loc, 0) + n
-            if lot_past_storage(cured, self._specs[part].material, self._on,
-                                extended_until=until):
-                a["past"] += n
-                a["lots"].append(lot)
-        for code in codes:
-            a = acc.get(code)
-            self[code] = StockInfo() if a is None else StockInfo(
-                a["n"], tuple(sorted(a["loc"].items(), key=lambda kv: (-kv[1], kv[0]))),
-                a["past"], tuple(dict.fromkeys(a["lots"])))
-
-
 class ShopCache:
     """The shop's matchable parts as arrays, kept in memory between requests and read again
     when the catalog changes (its highest part id or last import differ) or after
@@ -569,7 +457,7 @@ class ShopCache:
                 self._key, self._when = key, time.monotonic()
                 self.loads += 1
             parts, arrays, by_code = self._parts, self._arrays, self._by_code
-        return Shop(parts, arrays, _StockOnDemand(session, by_code, on), on)
+        return Shop(parts, arrays, StockOnDemand(session, by_code, on), on)
 
     def match(self, session: Session, req: MatchRequest, *, on: date | None = None
               ) -> MatchResult:
@@ -578,7 +466,7 @@ class ShopCache:
         (ranking does not depend on stock)."""
         shop = self.shop(session, on=on)
         stock = shop.stock
-        assert isinstance(stock, _StockOnDemand)
+        assert isinstance(stock, StockOnDemand)
         stock.asked, stock.probing = [], True
         try:
             run_match(shop, req)
