@@ -16,6 +16,8 @@ import weakref
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from datetime import date
+from pathlib import Path
+from typing import TYPE_CHECKING
 
 from rapidfuzz import fuzz, process
 from sqlmodel import Session, select
@@ -48,6 +50,9 @@ from inventory.core.errors import InventoryError
 from inventory.core.model import PartKind, PartSpec, SeatSpec
 from inventory.core.tables import Part
 from inventory.core.units import check_range, read_length
+
+if TYPE_CHECKING:  # the workbook writer imports openpyxl: loaded by compat_matrix only
+    from inventory.bench.compat import CompatReport
 
 #: Kinds that have no dimensions to match or fit (consumables and kits).
 NOT_BENCH_KINDS = frozenset({PartKind.OIL, PartKind.GREASE, PartKind.KIT})
@@ -480,3 +485,75 @@ def fork_code(session: Session, text: str) -> str:
     """The fork family code for ``text`` (its code, any case); unknown -> one line with the
     closest codes."""
     return lookup.fork(session, text).code
+
+
+# ------------------------------------------------------- fit, compat, parts find (faces)
+
+@dataclass(frozen=True, slots=True)
+class FitEverywhere:
+    """``fit PART`` without a seat: the seats of its kind (in the fork family asked for)
+    it fits, and how many seats were checked."""
+
+    part: str
+    results: list[FitResult]
+    seats_checked: int
+
+
+def fit_part(session: Session, part: str, *, fork: str | None = None, seat: str | None = None,
+             rules: FitRules = FitRules(), reference_shore_a: float | None = None,
+             include_fail: bool = False) -> FitResult | FitEverywhere:
+    """Will ``part`` work? With ``seat`` (and ``fork``): every check in that seat. Without:
+    every seat of its kind where it fits (in ``fork`` only, when given)."""
+    spec = resolve_part(session, part)
+    if seat is not None:
+        target = find_seat(session, fork, seat)
+        assert target is not None
+        return fit(spec, target, rules=rules, reference_shore_a=reference_shore_a)
+    seats = all_seats(session)
+    if fork is not None:
+        code = fork_code(session, fork)
+        seats = [x for x in seats if x.fork == code]
+    applicable = [x for x in seats if kind_applies(spec.kind, x.part_kind, rules=rules)]
+    results = fit_everywhere(spec, applicable, rules=rules, reference_shore_a=reference_shore_a,
+                             include_fail=include_fail)
+    return FitEverywhere(spec.code, results, len(applicable))
+
+
+def compat_matrix(session: Session, *, kind: str | None = None, standard: bool = False,
+                  xlsx: str | Path | None = None) -> tuple[CompatReport, Path | None]:
+    """Every seat against every part of a kind that goes there (``kind``: one seal kind
+    only; ``standard``: the standard O-ring series as more columns), and the workbook
+    written to ``xlsx`` when given (its path, else None)."""
+    from inventory.bench.compat import build_compat, write_compat
+
+    wanted = parse_kind(kind)
+    shop = load_shop(session)
+    seats = all_seats(session)
+    sources: list[PartArrays] = [shop.arrays]
+    if standard:
+        sources.append(standard_part_arrays())
+    report = build_compat(seats, sources, kinds=None if wanted is None else [wanted])
+    if wanted is not None and not report.blocks:
+        raise InventoryError(f"no {wanted} seats on file")
+    return report, None if xlsx is None else write_compat(report, xlsx)
+
+
+def find_parts(session: Session, query: str, *, limit: int = 10,
+               unit: str = "mm") -> list[dict]:
+    """Fuzzy search over part codes, descriptions and dimensions, best first: each hit with
+    its kind, dimensions (mm) and stock (read for the hits only)."""
+    from inventory.bench.part_search import find_parts as search
+
+    shop = load_shop(session)
+    try:
+        hits = search(query, shop.parts, limit=limit, default_unit=unit)
+    except ValueError as exc:
+        raise InventoryError(str(exc)) from None
+    out = []
+    for h in hits:
+        p = shop.parts[h.index]
+        info = shop.stock_of(p.code)
+        out.append({**h.to_dict(), "kind": str(p.kind), "description": p.description,
+                    "id_mm": p.id_mm, "od_mm": p.od_mm, "height_mm": p.height_mm,
+                    "cs_mm": p.cs_mm, "on_hand": info.on_hand, "location": info.location})
+    return out

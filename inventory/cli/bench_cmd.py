@@ -15,11 +15,9 @@ import typer
 from rich.table import Table
 
 from inventory.bench import service as svc
-from inventory.bench.fit import CAUTION, FitResult, FitRules, fit, kind_applies
-from inventory.bench.matching import MatchQuery, PartArrays, standard_part_arrays
-from inventory.bench.part_search import find_parts
+from inventory.bench.fit import CAUTION, FitResult, FitRules
+from inventory.bench.matching import MatchQuery
 from inventory.cli.common import console, print_json, print_table, reading, say
-from inventory.core.convert import all_seats
 from inventory.core.errors import InventoryError
 from inventory.core.model import PartKind
 from inventory.core.units import format_length
@@ -298,28 +296,19 @@ def fit_command(ctx: typer.Context,
     rules = svc.hardness_rules(FitRules(), hardness_tol)
     ref = svc.check_hardness(hardness)
     with reading(ctx) as s:
-        spec = svc.resolve_part(s, part)
-        if seat is not None:
-            target = svc.find_seat(s, fork, seat)
-            assert target is not None
-            result = fit(spec, target, rules=rules, reference_shore_a=ref)
-            if as_json:
-                print_json(result.to_dict())
-                return
-            render_fit(result)
+        result = svc.fit_part(s, part, fork=fork, seat=seat, rules=rules,
+                              reference_shore_a=ref, include_fail=show_all)
+    if isinstance(result, FitResult):
+        if as_json:
+            print_json(result.to_dict())
             return
-        seats = all_seats(s)
-        if fork is not None:
-            code = svc.fork_code(s, fork)
-            seats = [x for x in seats if x.fork == code]
-    applicable = [x for x in seats if kind_applies(spec.kind, x.part_kind, rules=rules)]
-    results = svc.fit_everywhere(spec, applicable, rules=rules, reference_shore_a=ref,
-                                 include_fail=show_all)
+        render_fit(result)
+        return
     if as_json:
-        print_json({"part": spec.code, "seats": [_without_caution(r) for r in results],
+        print_json({"part": result.part, "seats": [_without_caution(r) for r in result.results],
                     "caution": CAUTION})
         return
-    render_fit_everywhere(spec.code, results, len(applicable))
+    render_fit_everywhere(result.part, result.results, result.seats_checked)
 
 
 def _without_caution(r: FitResult) -> dict:
@@ -338,20 +327,11 @@ def compat(ctx: typer.Context,
            as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
     """Every seat of every fork family against every part of a kind that goes there,
     computed by the fit rules: a table, --json, or a workbook (--xlsx)."""
-    from inventory.bench.compat import build_compat, sheet_title, write_compat
+    from inventory.bench.compat import sheet_title
 
-    wanted = svc.parse_kind(kind)
     with reading(ctx) as s:
-        shop = svc.load_shop(s)
-        seats = all_seats(s)
-    sources: list[PartArrays] = [shop.arrays]
-    if standard:
-        sources.append(standard_part_arrays())
-    report = build_compat(seats, sources, kinds=None if wanted is None else [wanted])
-    if wanted is not None and not report.blocks:
-        raise InventoryError(f"no {wanted} seats on file")
-    if xlsx is not None:
-        path = write_compat(report, xlsx)
+        report, path = svc.compat_matrix(s, kind=kind, standard=standard, xlsx=xlsx)
+    if path is not None:
         if not as_json:
             say(f"wrote {path}: " + ", ".join(f"{sheet_title(b.kind)} {len(b.seats)} x "
                                               f"{len(b.parts)}" for b in report.blocks))
@@ -382,19 +362,8 @@ def parts_find(ctx: typer.Context,
     """Fuzzy search over part codes, descriptions and dimensions."""
     unit = _unit(unit)
     query = " ".join(text)
-    out = []
     with reading(ctx) as s:  # stock is read per hit shown, inside the read
-        shop = svc.load_shop(s)
-        try:
-            hits = find_parts(query, shop.parts, limit=limit, default_unit=unit)
-        except ValueError as exc:
-            raise InventoryError(str(exc)) from None
-        for h in hits:
-            p = shop.parts[h.index]
-            info = shop.stock_of(p.code)
-            out.append({**h.to_dict(), "kind": str(p.kind), "description": p.description,
-                        "id_mm": p.id_mm, "od_mm": p.od_mm, "height_mm": p.height_mm,
-                        "cs_mm": p.cs_mm, "on_hand": info.on_hand, "location": info.location})
+        out = svc.find_parts(s, query, limit=limit, unit=unit)
     if as_json:
         print_json({"query": query, "hits": out})
         return
