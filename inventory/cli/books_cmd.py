@@ -14,11 +14,10 @@ def check(ctx: typer.Context) -> None:
     """Check the books: cached balances equal the ledger's sums, no lot below zero on any day,
     foreign keys, SQLite integrity, closed months equal their snapshots. One line per
     problem; exit 1 when there is any."""
-    from inventory.monthend.closing import verify_closed
-    from inventory.stock.check import run
+    from inventory.monthend import service
 
     with reading(ctx) as s:
-        problems = run(s) + verify_closed(s, today=date.today())
+        problems = service.check_books(s, today=date.today())
     for line in problems:
         err_console.print(f"problem: {line}", markup=False, highlight=False, soft_wrap=True)
     if problems:

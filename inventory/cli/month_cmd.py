@@ -6,8 +6,8 @@ from datetime import date
 
 import typer
 
+from inventory.cli import options
 from inventory.cli.common import print_json, print_table, reading, say, unit_of_work
-from inventory.core.errors import InventoryError
 
 app = typer.Typer(help="Close a month's books (no movement may be dated in it afterwards), "
                        "reopen the latest closed month with a reason, list the acts.",
@@ -15,12 +15,7 @@ app = typer.Typer(help="Close a month's books (no movement may be dated in it af
 
 
 def _today(text: str | None) -> date:
-    if not text:
-        return date.today()
-    try:
-        return date.fromisoformat(text)
-    except ValueError:
-        raise InventoryError(f"bad date {text!r}: expected a date like 2026-12-02") from None
+    return options.day(text, "--today") or date.today()
 
 
 @app.command("close")
@@ -31,10 +26,10 @@ def close(ctx: typer.Context,
           ) -> None:
     """Close a month: its report totals are stored, and nothing dated up to its last day may
     be booked afterwards (corrections go in the first open month)."""
-    from inventory.monthend.closing import close_month
+    from inventory.monthend import service
 
     with unit_of_work(ctx) as s:
-        done = close_month(s, month, today=_today(today))
+        done = service.close_month(s, month, today=_today(today))
     t = done.totals
     say(f"closed {done.month}: closing value {t['closing_value']}, receipts "
         f"{t['receipts_value']}, issues {t['job_issues_value']} to jobs and "
@@ -47,10 +42,10 @@ def reopen(ctx: typer.Context,
            reason: str = typer.Option(..., "--reason", help="Why it is reopened (recorded)."),
            ) -> None:
     """Reopen the latest closed month; the act, who did it and why stay on record."""
-    from inventory.monthend.closing import reopen_month
+    from inventory.monthend import service
 
     with unit_of_work(ctx) as s:
-        label = reopen_month(s, month, reason=reason)
+        label = service.reopen_month(s, month, reason=reason)
     say(f"reopened {label} (recorded with its reason)")
 
 
@@ -59,10 +54,10 @@ def list_acts(ctx: typer.Context,
               as_json: bool = typer.Option(False, "--json", help="Print JSON."),
               ) -> None:
     """Every close and reopen, oldest first."""
-    from inventory.monthend.closing import acts
+    from inventory.monthend import service
 
     with reading(ctx) as s:
-        rows = acts(s)
+        rows = service.month_acts(s)
     if as_json:
         print_json(rows)
         return

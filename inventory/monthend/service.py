@@ -100,3 +100,28 @@ def is_closed(session: Session, month: str) -> bool:
     from inventory.stock.months import is_closed as closed
 
     return closed(session, month)
+
+
+def reopen_month(session: Session, month: str, *, reason: str, user: str | None = None) -> str:
+    """Reopen the latest closed month with a reason (see :mod:`inventory.monthend.closing`);
+    returns the month reopened."""
+    from inventory.monthend.closing import reopen_month as reopen
+
+    return reopen(session, month, reason=reason, user=user)
+
+
+def month_acts(session: Session) -> list[dict]:
+    """Every close and reopen, oldest first: month, action, ts, user, reason."""
+    from inventory.monthend.closing import acts
+
+    return acts(session)
+
+
+def check_books(session: Session, *, today: date) -> list[str]:
+    """``inventory check``: one line per problem (empty when the books are sound): cached
+    balances against the ledger's sums, no lot below zero on any day, foreign keys, SQLite
+    integrity (:mod:`inventory.stock.check`), and closed months against their snapshots."""
+    from inventory.monthend.closing import verify_closed
+    from inventory.stock.check import run
+
+    return run(session) + verify_closed(session, today=today)
