@@ -463,7 +463,8 @@ def test_init_creates_a_missing_postgresql_database(pg_server):
 def test_bulk_job_writer_skips_expired_lots_like_the_ledger(store):
     # ISO 2230 group B (NBR): 7 years from the end of the cure quarter (REFERENCE.md 5):
     # cured 2015Q1 -> limit 2022-03-31, so a 2025 job may not take it; 2024Q2 is fresh.
-    from inventory.history.jobs import JobSpec, record_jobs
+    from inventory.history.bulk_jobs import record_jobs
+    from inventory.history.jobs import JobSpec
 
     with transaction(store) as s:
         ledger.receive(s, "OR-214", 2, "0.25", lot="OLD", cured="2015Q1",

@@ -23,7 +23,8 @@ from sqlmodel import Session
 from inventory.core.db import transaction
 from inventory.forecast import service as F
 from inventory.forecast.data import load_history
-from inventory.history.jobs import JobItem, JobSpec, record_jobs
+from inventory.history.bulk_jobs import record_jobs
+from inventory.history.jobs import JobItem, JobSpec
 from inventory.stock import ledger
 
 # jobs per calendar month (Jan..Dec): a spring peak and a winter trough

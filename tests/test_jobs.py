@@ -14,12 +14,12 @@ from sqlmodel import Session, select
 
 from inventory.core.errors import InventoryError
 from inventory.core.tables import Lot, Movement
+from inventory.history.bulk_jobs import record_jobs
 from inventory.history.jobs import (
     JobItem,
     JobSpec,
     noon,
     record_job,
-    record_jobs,
     service_level,
 )
 from inventory.stock import ledger

@@ -1,7 +1,7 @@
 """The one stock allocation path: which lots a booking dated D takes from, oldest cure first.
 
 Both the counter (:func:`inventory.stock.ledger.issue` and friends) and the bulk job writer
-(:class:`inventory.history.jobs.StockBook`) hand their candidate lots, already in FIFO order,
+(:class:`inventory.history.bulk_jobs.StockBook`) hand their candidate lots, already in FIFO order,
 to :func:`fifo_take`; the ledger first narrows each lot to what may be taken on day D
 (:mod:`inventory.stock.timeline`) and, for issues, sets aside lots past their ISO 2230
 storage limit (:mod:`inventory.stock.shelf_life`).

@@ -17,13 +17,13 @@ from sqlmodel import Session, select
 
 from inventory.core.errors import InventoryError, Problem, Source
 from inventory.core.tables import ImportBatch
+from inventory.history.bulk_jobs import CatalogIndex
 from inventory.history.imports import catalog, counts, history, receipts
 from inventory.history.imports.headers import absorb, read_and_map
 from inventory.history.imports.keys import mark_applied, record_keys
 from inventory.history.imports.recorded import mark_recorded
 from inventory.history.imports.report import Event, ImportReport, ImportSettings, Unit
 from inventory.history.imports.steps import Context
-from inventory.history.jobs import CatalogIndex
 from inventory.sheets.kinds import DATE, KINDS, SCHEMAS
 from inventory.sheets.rows import TypedRows, type_rows
 

@@ -11,17 +11,12 @@ from typing import Any
 
 from inventory.core.errors import InventoryError, Problem, Source
 from inventory.core.model import PartKind
+from inventory.history.bulk_jobs import JobWriter, StockBook
 from inventory.history.imports.forks import remember_aliases, resolve_forks
 from inventory.history.imports.keys import occurrence_keys
 from inventory.history.imports.report import Event, Unit
 from inventory.history.imports.steps import Context, suggest_hint
-from inventory.history.jobs import (
-    JobItem,
-    JobSpec,
-    JobWriter,
-    StockBook,
-    fork_key,
-)
+from inventory.history.jobs import JobItem, JobSpec, fork_key
 from inventory.sheets.kinds import CODE_HINT
 from inventory.sheets.rows import TypedRow, TypedRows
 from inventory.stock.timeline import ledger_start

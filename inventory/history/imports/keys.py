@@ -11,8 +11,8 @@ from typing import Any
 from sqlmodel import Session
 
 from inventory.core.tables import ImportedRow
+from inventory.history.bulk_jobs import analyze, bulk_insert, present
 from inventory.history.imports.report import Unit
-from inventory.history.jobs import analyze, bulk_insert, present
 
 
 def key(kind: str, *parts: Any) -> str:

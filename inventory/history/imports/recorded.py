@@ -16,9 +16,9 @@ from sqlmodel import select
 
 from inventory.core.model import PartKind
 from inventory.core.tables import ForkFamily, JobLine, Part, ServiceJob
+from inventory.history.bulk_jobs import existing_refs
 from inventory.history.imports.report import Unit
 from inventory.history.imports.steps import Context
-from inventory.history.jobs import existing_refs
 
 HINT = ("a job is imported once: give a corrected job a new reference, or correct stock "
         "with a stock adjustment")

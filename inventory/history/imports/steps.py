@@ -14,9 +14,9 @@ from sqlmodel import Session, select
 
 from inventory.core import lookup
 from inventory.core.errors import InventoryError, Problem, Source
+from inventory.history.bulk_jobs import CatalogIndex
 from inventory.history.imports.keys import occurrence_keys
 from inventory.history.imports.report import Event, ImportReport, ImportSettings, Unit
-from inventory.history.jobs import CatalogIndex
 from inventory.sheets.fuzzy import HeaderMap
 from inventory.sheets.rows import TypedRows
 from inventory.sheets.source import SourceSheet
