@@ -444,7 +444,8 @@ STOCK_ACTIONS = {"issue": "issue", "count": "count", "receive": "receive", "adju
 
 
 async def stock_page(request: Request, errors: dict | None = None, values: dict | None = None,
-                     status: int = 200, done: str | None = None) -> Response:
+                     status: int = 200, done: str | None = None,
+                     sheet: list | None = None) -> Response:
     who = auth.require(request, "stock_view")
     web: Web = request.app.state.web
     part = request.query_params.get("part") or None
@@ -460,19 +461,92 @@ async def stock_page(request: Request, errors: dict | None = None, values: dict 
     lines, locations, err = await web.read(go, who)
     total_lines = len(lines)
     lines = lines[:STOCK_PAGE_LINES]  # a page stays small on a tablet; filter by part for more
+
+    def limits(s):
+        from inventory.stock import service as stock
+
+        return stock.storage_limits(s, lines)
+    limits_ = await web.read(limits, who) if lines else []
     from inventory.bench.fit import CAUTION
 
     errs = dict(errors or {})
     if err:
         errs["filter"] = err
     return page(request, "stock.html", who, status=status if not err else 404, lines=lines,
-                total_lines=total_lines,
+                total_lines=total_lines, limits=limits_,
                 locations=locations, errors=errs, part=part,
                 values={f"{a}-location": stock_default_location(locations)
-                        for a in ("count", "receive", "adjust")} | (values or {}),
+                        for a in ("count", "receive", "adjust", "new")} | (values or {}),
                 done=done or request.query_params.get("done"),
-                count_mode=request.query_params.get("mode") == "count", caution=CAUTION,
+                count_mode=sheet is not None or request.query_params.get("mode") == "count",
+                sheet=sheet or [], caution=CAUTION,
                 may=lambda r: auth.may(request, r))
+
+
+async def count_sheet(request: Request) -> Response:
+    """Count mode: walk the shelves adding counts to a sheet kept in the page itself (hidden
+    fields, nothing written), then book every variance at the end in one transaction."""
+    who = auth.require(request, "count")
+    web: Web = request.app.state.web
+    form = await request.form()
+    auth.check_csrf(request, form)
+    rows = []
+    for i in range(int(form.get("n") or 0)):
+        part, loc, qty = (_text(form, f"c{i}-part"), _text(form, f"c{i}-location"),
+                          _text(form, f"c{i}-qty"))
+        if part and loc and qty is not None and qty.isdigit():
+            rows.append({"part": part, "location": loc, "qty": int(qty)})
+    errors: dict[str, str] = {}
+    values = {k: v for k, v in form.items() if k.startswith("new-")}
+    if form.get("action") == "add":
+        part = _text(form, "new-part")
+        loc = _text(form, "new-location") or "MAIN"
+        try:
+            if not part:
+                raise FormError("new-part", "give a part code")
+            qty = _int(form, "new-qty", minimum=0)
+
+            def check(s):
+                from inventory.stock import service as stock
+
+                return sum(ln.on_hand for ln in stock.on_hand(s, part=part, location=loc))
+            ledger_qty = await web.read(check, who)
+        except FormError as exc:
+            errors[exc.field if exc.field.startswith("new-") else f"new-{exc.field}"] = \
+                exc.message
+        except InventoryError as exc:
+            errors["new-part"] = message_of(exc)
+        else:
+            rows = [r for r in rows if (r["part"], r["location"]) != (part, loc)]
+            rows.append({"part": part, "location": loc, "qty": qty, "ledger": ledger_qty})
+            values = {"new-location": loc}
+    elif form.get("action") == "book":
+        def book(s):
+            from inventory.stock import service as stock
+
+            return [(r["part"], r["location"], stock.count(s, r["part"], r["qty"],
+                                                           location=r["location"]))
+                    for r in rows]
+        try:
+            booked = await web.write(book, who)
+        except InventoryError as exc:
+            errors["sheet"] = f"nothing booked: {message_of(exc)}"
+        else:
+            from urllib.parse import quote
+
+            moved = sum(1 for _, _, v in booked if v)
+            return RedirectResponse("/stock?mode=count&done=" + quote(
+                f"{len(booked)} count(s) booked, {moved} with a variance"), 303)
+
+    def ledger_of(s):
+        from inventory.stock import service as stock
+
+        return [sum(ln.on_hand for ln in stock.on_hand(s, part=r["part"],
+                                                       location=r["location"]))
+                for r in rows]
+    for r, n in zip(rows, await web.read(ledger_of, who), strict=True):
+        r["ledger"] = n
+    return await stock_page(request, errors, values, 400 if errors else 200, sheet=rows)
 
 
 async def stock_action(request: Request) -> Response:
@@ -1247,6 +1321,7 @@ def create_app(url: str | None = None, *, secret: str | None = None,
         Route("/bench/part/{code:path}", part_page),
         Route("/bench/use", bench_use, methods=["POST"]),
         Route("/stock", stock_page),
+        Route("/stock/count-sheet", count_sheet, methods=["POST"]),
         Route("/stock/{action}", stock_action, methods=["POST"]),
         Route("/jobs", jobs_page),
         Route("/jobs", jobs_add, methods=["POST"]),
