@@ -25,6 +25,7 @@ from dataclasses import dataclass
 from datetime import UTC, date, datetime, time
 
 from sqlalchemy import func
+from sqlalchemy import text as sql_text
 from sqlmodel import Session, select
 
 from inventory.core import lookup
@@ -121,7 +122,13 @@ def record_job(session: Session, *, ref: str, day: date, fork: str, service: str
 
 
 def next_ref(session: Session, day: date) -> str:
-    """A fresh job reference for ``day``: ``J20260315-3`` for the third that day."""
+    """A fresh job reference for ``day``: ``J20260315-3`` for the third that day.
+
+    No other writer can take the same number: on PostgreSQL a transaction-scoped advisory
+    lock serialises the numbering until the caller commits (SQLite write transactions are
+    already serial: BEGIN IMMEDIATE)."""
+    if session.get_bind().dialect.name == "postgresql":
+        session.execute(sql_text("SELECT pg_advisory_xact_lock(hashtext('inventory.job_ref'))"))
     stem = f"J{day:%Y%m%d}-"
     n = session.exec(select(func.count()).select_from(ServiceJob)
                      .where(ServiceJob.ref.like(f"{stem}%"))).one()

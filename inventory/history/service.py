@@ -144,13 +144,7 @@ def fork_codes(session: Session) -> list[str]:
 
 
 def new_job_ref(session: Session, day: date) -> str:
-    """A fresh job reference for ``day`` that no other writer can take at the same time:
-    on PostgreSQL a transaction-scoped advisory lock serialises the numbering until the
-    caller commits (SQLite transactions are already serial: BEGIN IMMEDIATE)."""
-    from sqlalchemy import text
-
+    """A fresh job reference for ``day`` that no other writer can take at the same time."""
     from inventory.history.jobs import next_ref
 
-    if session.get_bind().dialect.name == "postgresql":
-        session.execute(text("SELECT pg_advisory_xact_lock(hashtext('inventory.job_ref'))"))
     return next_ref(session, day)
