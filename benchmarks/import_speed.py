@@ -1,7 +1,8 @@
 """Benchmark: a 100,000-row service-history workbook, previewed and applied.
 
-Targets (issue 4): preview plus apply in 15 s or less end to end, and the read step at least
-3 times faster than ``pandas.read_excel`` with openpyxl, measured in the same run on the same
+Targets (issue 4): preview plus apply in 15 s or less end to end, and the read step no slower
+than ``pandas.read_excel(engine="calamine")`` (the baseline a user would pick, pandas >= 2.2;
+issue 14), with ``engine="openpyxl"`` beside it, all measured in the same run on the same
 file. Prints the figures; ``--strict`` makes a missed target exit non-zero.
 
     python benchmarks/import_speed.py [--rows 100000] [--db URL] [--keep DIR] [--strict]
@@ -120,18 +121,22 @@ def main(argv: list[str] | None = None) -> int:
     def calamine_read():
         return CalamineWorkbook.from_path(str(book)).get_sheet_by_name("history").to_python()
 
-    def pandas_read():
+    def pandas_read(engine: str):
         import pandas as pd
 
-        return pd.read_excel(book, sheet_name="history", engine="openpyxl")
+        return pd.read_excel(book, sheet_name="history", engine=engine)
 
     grid, t_cal = time_it(calamine_read, "calamine")
-    frame, t_pd = time_it(pandas_read, "pandas")
-    assert len(grid) - 1 == len(frame) == args.rows, (len(grid), len(frame))
-    speedup = t_pd / t_cal
-    print(f"read: calamine {t_cal:.2f} s, pandas.read_excel(openpyxl) {t_pd:.2f} s "
-          f"-> {speedup:.1f}x faster (target >= 3x); CPU {CPU['calamine']:.2f} s vs "
-          f"{CPU['pandas']:.2f} s")
+    # the baseline a user would pick: pandas (>= 2.2) with its calamine engine; openpyxl,
+    # pandas' long-time default for xlsx, beside it
+    frame_c, t_pdc = time_it(lambda: pandas_read("calamine"), "pandas-calamine")
+    frame, t_pd = time_it(lambda: pandas_read("openpyxl"), "pandas")
+    assert len(grid) - 1 == len(frame) == len(frame_c) == args.rows, (len(grid), len(frame))
+    speedup = t_pdc / t_cal
+    print(f"read: tool (calamine) {t_cal:.2f} s; pandas.read_excel(engine='calamine') "
+          f"{t_pdc:.2f} s -> {t_pdc / t_cal:.2f}x; pandas.read_excel(engine='openpyxl') "
+          f"{t_pd:.2f} s -> {t_pd / t_cal:.1f}x (ratio = pandas time / tool time); CPU "
+          f"{CPU['calamine']:.2f} s vs {CPU['pandas-calamine']:.2f} s vs {CPU['pandas']:.2f} s")
 
     engine = make_engine(url)
     settings = ImportSettings(kind="history", today=date(2030, 1, 1), user="bench")
@@ -158,7 +163,7 @@ def main(argv: list[str] | None = None) -> int:
     load = os.getloadavg()[0] if hasattr(os, "getloadavg") else float("nan")
     print(f"machine: {os.cpu_count()} CPU(s), load average {load:.2f} (other work slows the "
           "wall-clock figures; the CPU figures are this process's own)")
-    ok = total <= 15.0 and speedup >= 3.0
+    ok = total <= 15.0 and speedup >= 1.0  # not slower than the baseline a user would pick
     print("targets met" if ok else "TARGET MISSED")
     return 0 if ok or not args.strict else 1
 

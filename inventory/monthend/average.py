@@ -10,17 +10,19 @@ quantity checks of the reconciliation, are unchanged.
 
 from __future__ import annotations
 
+from bisect import bisect_left, bisect_right
 from collections import defaultdict
-from collections.abc import Mapping
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import replace
-from decimal import Decimal
+from itertools import accumulate, groupby
+from operator import itemgetter
 
 from sqlalchemy import case, literal_column, select, type_coerce
 from sqlalchemy.types import NullType
 from sqlmodel import Session
 
 from inventory.core.tables import ForkFamily, Movement, ServiceJob
-from inventory.monthend.aggregates import cost4, money4
+from inventory.monthend.aggregates import _no_index, cost4, money4
 from inventory.monthend.records import HISTORY_MONTHS, KNOWN_KINDS, ZERO, MonthData, PartMonth
 from inventory.stock import valuation as val
 
@@ -46,95 +48,101 @@ def revalue_average(session: Session, data: MonthData, codes: Mapping[int, tuple
                   else_=literal_column(str(last)))
     q = (select(m.c.part_id, type_coerce(m.c.ts, NullType()), period, m.c.qty, m.c.kind,
                 m.c.reference, cost4(m.c.unit_cost))
-         .where(m.c.ts < month.end, m.c.kind != "move")
-         .order_by(m.c.part_id, m.c.ts, m.c.id).execution_options(yield_per=20_000))
+         .where(_no_index(m.c.ts) < month.end, _no_index(m.c.kind) != "move")
+         .order_by(_no_index(m.c.part_id), _no_index(m.c.ts), _no_index(m.c.id))
+         .execution_options(yield_per=20_000))
+    # (on SQLite a table scan and one sort beat walking the (part, ts) index: 1.9 s vs 3.2 s
+    # for the 1M-movement benchmark ledger)
     by_code = {p.part: p for p in data.parts}
     out: dict[str, PartMonth] = {}
-    job_v, other_v = [ZERO] * HISTORY_MONTHS, [ZERO] * HISTORY_MONTHS
-    fork_v: dict[tuple[str, str], Decimal] = defaultdict(lambda: ZERO)
+    job_v, other_v = [0] * HISTORY_MONTHS, [0] * HISTORY_MONTHS  # ten-thousandths
+    fork_v: dict[tuple[str, str], int] = defaultdict(int)
     broken: dict[str, str] = {}
 
-    class Run:
-        __slots__ = ("pid", "state", "ci", "ends", "flows", "uv", "broken")
-
-        def __init__(self, pid):
-            self.pid, self.state, self.ci = pid, val.AverageState(), 0
-            self.ends: list[Decimal] = []
-            self.flows: dict[str, Decimal] = defaultdict(lambda: ZERO)
-            self.uv = [ZERO] * HISTORY_MONTHS
-            self.broken = False
-
-    def finish(run: Run) -> None:
-        while run.ci < len(cuts):
-            run.ends.append(run.state.value)
-            run.ci += 1
-        code = codes[run.pid][0]
-        pm = by_code.get(code)
-        if pm is None or run.broken:
-            return
-        f = run.flows
-        out[code] = replace(
-            pm, opening_value=run.ends[-2], closing_value=run.ends[-1],
-            opening_lot_value=run.ends[-2], closing_lot_value=run.ends[-1],
-            receipts_value=f["receipt"], job_issues_value=-f["job"], other_issues_value=-f["other"],
-            adjust_value=f["adjust"], count_value=f["count"], move_value=ZERO,
-            unknown_value=f["unknown"], usage_value=tuple(run.uv),
-            month_end_values=tuple(run.ends))
-
-    def step(run: Run, ts, p: int, qty: int, kind: str, ref, cost) -> None:
-        if run.broken:
-            return
-        while run.ci < p:  # month ends passed since the last movement
-            run.ends.append(run.state.value)
-            run.ci += 1
-        try:
-            run.state, v = val.average_step(run.state, qty, cost)
-        except ValueError as exc:
-            run.broken = True
-            when = str(ts)[:16]
-            broken[codes[run.pid][0]] = f"stock goes below zero at {when} ({exc})"
-            return
-        if kind == "issue" and p > 0:
-            run.uv[p - 1] -= v
-            (job_v if ref is not None else other_v)[p - 1] -= v
-        if p == last:
-            if kind == "issue":
-                run.flows["job" if ref is not None else "other"] += v
-                if ref in jobs:
-                    fork_v[jobs[ref]] -= v
+    def part(pid: int, rows: list) -> None:
+        # One issue taken from several lots is several rows with the same time, kind and
+        # reference: it leaves at the average as one transaction (one rounding, as a book
+        # would). Rows become [ts, period, qty, kind, ref, cost4].
+        events: list[list] = []
+        add = events.append
+        e: list = [None, 0, 0, None, None, 0]
+        for _, ts, p, qty, kind, ref, cost in rows:
+            if qty >= 0:
+                e = [ts, p, qty, kind, ref, int(cost) if cost else 0]
+            elif e[2] < 0 and ts == e[0] and kind == e[3] and ref == e[4]:
+                e[2] += qty  # (e[2] < 0: only outflows merge)
+                continue
             else:
-                run.flows[kind if kind in KNOWN_KINDS else "unknown"] += v
+                e = [ts, p, qty, kind, ref, 0]
+            add(e)
+        qtys = [e[2] for e in events]
+        values, bad = val.average_replay4(qtys, [e[5] for e in events])
+        code = codes[pid][0]
+        if bad is not None:
+            e = events[bad]
+            broken[code] = (f"stock goes below zero at {str(e[0])[:16]} (cannot take "
+                            f"{-e[2]}: on hand {sum(qtys[:bad])})")
+        # periods never decrease along a part's movements (they follow the time), so the
+        # value at each month end is the running value after the last movement up to it,
+        # and only movements of the twelve months (period >= 1) add to the usage figures
+        n = len(values)
+        ps = [e[1] for e in events[:n]]
+        cum = list(accumulate(values))
+        ends = [cum[k - 1] if k else 0 for k in (bisect_right(ps, c) for c in range(len(cuts)))]
+        flows: dict[str, int] = defaultdict(int)
+        uv = [0] * HISTORY_MONTHS
+        for i in range(bisect_left(ps, 1), n):
+            e, v = events[i], values[i]
+            p, kind = e[1], e[3]
+            if kind == "issue":
+                ref = e[4]
+                uv[p - 1] -= v
+                (job_v if ref is not None else other_v)[p - 1] -= v
+                if p == last:
+                    flows["job" if ref is not None else "other"] += v
+                    if ref in jobs:
+                        fork_v[jobs[ref]] -= v
+            elif p == last:
+                flows[kind if kind in KNOWN_KINDS else "unknown"] += v
+        pm = by_code.get(code)
+        if pm is None or bad is not None:
+            return
+        d = [money4(x) for x in ends]
+        out[code] = replace(
+            pm, opening_value=d[-2], closing_value=d[-1],
+            opening_lot_value=d[-2], closing_lot_value=d[-1],
+            receipts_value=money4(flows["receipt"]), job_issues_value=-money4(flows["job"]),
+            other_issues_value=-money4(flows["other"]), adjust_value=money4(flows["adjust"]),
+            count_value=money4(flows["count"]), move_value=ZERO,
+            unknown_value=money4(flows["unknown"]), usage_value=tuple(money4(x) for x in uv),
+            month_end_values=tuple(d))
 
-    # One issue taken from several lots is several rows with the same time, kind and
-    # reference: it leaves at the average as one transaction (one rounding, as a book would).
-    run: Run | None = None
-    pending: list = []
-    for pid, ts, p, qty, kind, ref, cost in session.execute(q):
-        p = int(p)
-        if run is None or pid != run.pid:
-            if run is not None:
-                if pending:
-                    step(run, *pending)
-                    pending = []
-                finish(run)
-            run = Run(pid)
-        if pending and qty < 0 and (ts, kind, ref) == (pending[0], pending[3], pending[4]):
-            pending[2] += qty
-            continue
-        if pending:
-            step(run, *pending)
-            pending = []
-        if qty < 0:
-            pending = [ts, p, qty, kind, ref, None]
-        else:
-            step(run, ts, p, qty, kind, ref, money4(cost))
-    if run is not None:
-        if pending:
-            step(run, *pending)
-        finish(run)
+    for pid, group in groupby(_rows(session, q), key=itemgetter(0)):
+        part(pid, list(group))
     parts = tuple(out.get(p.part, p) for p in data.parts)
-    fork = tuple(sorted((replace(u, value=fork_v.get((u.fork_family, u.service_level), ZERO))
+    fork = tuple(sorted((replace(u, value=money4(fork_v.get((u.fork_family, u.service_level), 0)))
                          for u in data.fork_usage),
                         key=lambda r: (-r.value, r.fork_family, r.service_level)))
-    return replace(data, parts=parts, job_usage_value=tuple(job_v),
-                   other_usage_value=tuple(other_v), fork_usage=fork, broken=broken)
+    return replace(data, parts=parts, job_usage_value=tuple(money4(x) for x in job_v),
+                   other_usage_value=tuple(money4(x) for x in other_v), fork_usage=fork,
+                   broken=broken)
+
+
+def _rows(session: Session, q) -> Iterator[Sequence]:
+    """The rows of ``q`` in chunks. On SQLite straight from the driver's cursor (the
+    statement rendered with its few literal values): a million rows are then read in 1.3 s
+    rather than 2.3 s through SQLAlchemy's row objects. Elsewhere SQLAlchemy's streamed
+    result (``yield_per``: a server-side cursor on PostgreSQL, so memory stays bounded)."""
+    conn = session.connection()
+    if conn.dialect.name != "sqlite":
+        for chunk in conn.execute(q).partitions():
+            yield from chunk
+        return
+    sql = str(q.compile(dialect=conn.dialect, compile_kwargs={"literal_binds": True}))
+    cur = conn.connection.dbapi_connection.cursor()
+    try:
+        cur.execute(sql)
+        while chunk := cur.fetchmany(20_000):
+            yield from chunk
+    finally:
+        cur.close()

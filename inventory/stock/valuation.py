@@ -137,6 +137,41 @@ def moving_average(events: Iterable[tuple[int, Decimal | None]], *,
     return state, values
 
 
+def average_replay4(qtys: Sequence[int], costs4: Sequence[int]) -> tuple[list[int], int | None]:
+    """:func:`moving_average` in whole ten-thousandths of money, for speed over long ledgers.
+
+    ``qtys`` are the signed quantities of one part in time order and ``costs4`` the unit costs
+    of the inflows in ten-thousandths (ignored for outflows). Returns the signed value of each
+    movement in ten-thousandths and the index of the first outflow larger than the stock
+    (``None`` when there is none; the values stop before it). Exactly :func:`average_step`
+    with four places: an inflow adds ``qty * cost``; an outflow takes ``value * taken /
+    on_hand`` rounded half away from zero (``ROUND_HALF_UP``), or the whole value when it
+    empties the stock. Integer arithmetic is exact, so the results equal the Decimal ones.
+    """
+    on_hand = value = 0
+    out: list[int] = []
+    append = out.append
+    for i, q in enumerate(qtys):
+        if q > 0:
+            v = q * costs4[i]
+            on_hand += q
+        elif q == 0:
+            v = 0
+        else:
+            take = -q
+            if take > on_hand:
+                return out, i
+            if take == on_hand:
+                v = -value
+            else:
+                n, d = value * take, 2 * on_hand
+                v = -((2 * n + on_hand) // d) if n >= 0 else (-2 * n + on_hand) // d
+            on_hand -= take
+        value += v
+        append(v)
+    return out, None
+
+
 # ---------------------------------------------------------------------------- ratios
 
 
