@@ -62,40 +62,32 @@ def revalue_average(session: Session, data: MonthData, codes: Mapping[int, tuple
     def part(pid: int, rows: list) -> None:
         # One issue taken from several lots is several rows with the same time, kind and
         # reference: it leaves at the average as one transaction (one rounding, as a book
-        # would). Rows become [ts, period, qty, kind, ref, cost4].
-        events: list[list] = []
-        add = events.append
-        e: list = [None, 0, 0, None, None, 0]
-        for _, ts, p, qty, kind, ref, cost in rows:
-            if qty >= 0:
-                e = [ts, p, qty, kind, ref, int(cost) if cost else 0]
-            elif e[2] < 0 and ts == e[0] and kind == e[3] and ref == e[4]:
-                e[2] += qty  # (e[2] < 0: only outflows merge)
-                continue
-            else:
-                e = [ts, p, qty, kind, ref, 0]
-            add(e)
-        qtys = [e[2] for e in events]
-        values, bad = val.average_replay4(qtys, [e[5] for e in events])
+        # would). Columns as lists; merged from the end so a run of rows folds into its first.
+        _, ts, ps, qtys, kinds, refs, costs = (list(c) for c in zip(*rows, strict=True))
+        for i in [i for i in range(len(ts) - 1, 0, -1) if ts[i] == ts[i - 1]]:
+            if (qtys[i] < 0 and qtys[i - 1] < 0 and kinds[i] == kinds[i - 1]
+                    and refs[i] == refs[i - 1]):
+                qtys[i - 1] += qtys[i]
+                for col in (ts, ps, qtys, kinds, refs, costs):
+                    del col[i]
+        values, bad = val.average_replay4(qtys, [c or 0 for c in costs])
         code = codes[pid][0]
         if bad is not None:
-            e = events[bad]
-            broken[code] = (f"stock goes below zero at {str(e[0])[:16]} (cannot take "
-                            f"{-e[2]}: on hand {sum(qtys[:bad])})")
+            broken[code] = (f"stock goes below zero at {str(ts[bad])[:16]} (cannot take "
+                            f"{-qtys[bad]}: on hand {sum(qtys[:bad])})")
         # periods never decrease along a part's movements (they follow the time), so the
         # value at each month end is the running value after the last movement up to it,
         # and only movements of the twelve months (period >= 1) add to the usage figures
         n = len(values)
-        ps = [e[1] for e in events[:n]]
+        ps = ps[:n]
         cum = list(accumulate(values))
         ends = [cum[k - 1] if k else 0 for k in (bisect_right(ps, c) for c in range(len(cuts)))]
         flows: dict[str, int] = defaultdict(int)
         uv = [0] * HISTORY_MONTHS
         for i in range(bisect_left(ps, 1), n):
-            e, v = events[i], values[i]
-            p, kind = e[1], e[3]
+            v, p, kind = values[i], ps[i], kinds[i]
             if kind == "issue":
-                ref = e[4]
+                ref = refs[i]
                 uv[p - 1] -= v
                 (job_v if ref is not None else other_v)[p - 1] -= v
                 if p == last:
