@@ -7,7 +7,7 @@ from datetime import datetime
 from decimal import Decimal
 from typing import Any
 
-from sqlmodel import Session, select
+from sqlmodel import Session, col, select
 
 from inventory.core.tables import Location, Movement
 from inventory.stock import ledger
@@ -130,10 +130,10 @@ def storage_limits(session: Session, lines: list[StockLine], *,
     on = on or date.today()
     codes = sorted({ln.part for ln in lines})
     material = {c: m for c, m in session.exec(
-        select(Part.code, Part.material).where(Part.code.in_(codes)))}
+        select(Part.code, Part.material).where(col(Part.code).in_(codes)))}
     extended = {(p, lot): until for p, lot, until in session.exec(
         select(Part.code, Lot.code, Lot.extended_until).join(Part, Part.id == Lot.part_id)
-        .where(Part.code.in_(codes), Lot.extended_until.is_not(None)))}
+        .where(col(Part.code).in_(codes), col(Lot.extended_until).is_not(None)))}
     out: list[tuple[Any, bool]] = []
     for ln in lines:
         limit = extended.get((ln.part, ln.lot))
