@@ -16,6 +16,7 @@ from sqlalchemy import inspect, select
 from sqlalchemy.engine import Engine
 from sqlmodel import Session
 
+from inventory.core.db import READ_ONLY
 from inventory.core.errors import InventoryError
 from inventory.core.tables import ImportBatch
 
@@ -43,7 +44,8 @@ def marks(engine: Engine, *, schema_known: bool = False) -> dict[str, str]:
     """What was built in this database: ``{what: "started" | "finished"}`` (empty for a
     database no build made, or one without the tables; ``schema_known`` skips that check
     when the caller has verified the schema already)."""
-    with engine.connect() as conn:
+    # a plain read: it must not wait for the write lock a running build holds
+    with engine.execution_options(**{READ_ONLY: True}).connect() as conn:
         if not schema_known and not inspect(conn).has_table(ImportBatch.__tablename__):
             return {}
         kinds = conn.execute(select(ImportBatch.kind).where(
