@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import importlib.util
 import math
-import sqlite3
 from datetime import date
 from decimal import Decimal
 from fractions import Fraction
@@ -21,6 +20,7 @@ from pathlib import Path
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from sqlalchemy import inspect, text
 from sqlmodel import Session
 
 from inventory.core import migrate
@@ -98,21 +98,21 @@ def _generator():
 
 
 @pytest.mark.parametrize("seed", [3, 11])
-def test_month_end_average_equals_decimal_replay(tmp_path, monkeypatch, seed):
+def test_month_end_average_equals_decimal_replay(db_url, monkeypatch, seed):
     bench = _generator()
-    url = f"sqlite:///{tmp_path / 'ledger.db'}"
-    eng = make_engine(url, fresh=True)
+    eng = make_engine(db_url, fresh=True)
     migrate.upgrade(eng)
     eng.dispose()
-    bench.generate(url, parts=40, movements=6_000, seed=seed)
-    with sqlite3.connect(tmp_path / "ledger.db") as con:  # one part overdrawn mid-year
-        cols = [r[1] for r in con.execute("PRAGMA table_info(movement)") if r[1] != "id"]
+    bench.generate(db_url, parts=40, movements=6_000, seed=seed)
+    engine = make_engine(db_url)
+    with engine.begin() as con:  # one part overdrawn mid-year
+        cols = [c["name"] for c in inspect(con).get_columns("movement") if c["name"] != "id"]
         picked = ", ".join("-1000000" if c == "qty" else
-                           "'2026-06-15 10:00:00.000000'" if c == "ts" else c for c in cols)
-        con.execute(f"INSERT INTO movement ({', '.join(cols)}) SELECT {picked} FROM movement "
-                    "WHERE kind = 'issue' ORDER BY id LIMIT 1")
+                           "'2026-06-15 10:00:00.000000'" if c == "ts" else f'"{c}"' for c in cols)
+        names = ", ".join(f'"{c}"' for c in cols)
+        con.execute(text(f"INSERT INTO movement ({names}) SELECT {picked} FROM movement "
+                         "WHERE kind = 'issue' ORDER BY id LIMIT 1"))
     month = parse_month(bench.MONTH, today=date.fromisoformat(bench.TODAY))
-    engine = make_engine(url)
     with Session(engine) as s:
         new = aggregates.load_month(s, month, method="average")
     monkeypatch.setattr(average, "revalue_average", average_decimal.revalue_average)
