@@ -366,3 +366,68 @@ def test_count_mode_books_every_variance_at_the_end(web):
     # OR-214: ledger 3, counted 2 -> one variance movement of -1; WP-32: 0 and 0 -> none
     assert movements(web.store) == n + 1
     assert sam.get("/api/stock?part=OR-214").json()[0]["on_hand"] == 2
+
+
+def test_purchase_order_downloads_as_a_workbook(web):
+    """The order workbook read back with openpyxl (the reader outside our writer) holds the
+    same lines as the service returns and as the purchase_order_line rows in the database."""
+    import io
+    from datetime import date
+    from decimal import Decimal
+
+    from openpyxl import load_workbook
+
+    from inventory.core.tables import Part, PurchaseOrder, PurchaseOrderLine
+    from inventory.ordering.model import DraftLine, DraftOrder
+    from inventory.ordering.orders import create_orders
+    from inventory.ordering.service import order_detail, receive_order
+
+    with transaction(web.store) as s:
+        (po,) = create_orders(s, [DraftOrder(
+            "SUP-A", date(2026, 12, 1), date(2026, 12, 8),
+            (DraftLine("OR-214", 20, Decimal("0.25")), DraftLine("WP-32", 4, Decimal("6.50"))))],
+            created=date(2026, 11, 30))
+        receive_order(s, po.ref, "OR-214", 7, cured="2026Q3")
+    ref = po.ref
+    with Session(web.store) as s:
+        detail = order_detail(s, ref)
+        db_lines = sorted(
+            (code, qty, Decimal(str(cost)), got) for code, qty, cost, got in s.exec(
+                select(Part.code, PurchaseOrderLine.qty, PurchaseOrderLine.unit_cost,
+                       PurchaseOrderLine.received_qty)
+                .join(Part, Part.id == PurchaseOrderLine.part_id)
+                .join(PurchaseOrder, PurchaseOrder.id == PurchaseOrderLine.order_id)
+                .where(PurchaseOrder.ref == ref)))
+    assert db_lines == [("OR-214", 20, Decimal("0.25"), 7), ("WP-32", 4, Decimal("6.50"), 0)]
+
+    # the plan page links the open order to its download
+    page_html = web("ana").get("/plan").text
+    assert f'href="/plan/orders/{ref}.xlsx"' in page_html
+    r = web("ana").get(f"/plan/orders/{ref}.xlsx")
+    assert r.status_code == 200, r.text
+    assert r.headers["content-type"].startswith("application/vnd.openxmlformats")
+    wb = load_workbook(io.BytesIO(r.content))
+    header = {row[0]: row[1] for row in wb["order"].iter_rows(min_row=2, values_only=True)}
+    assert header["reference"] == ref and header["supplier"] == "SUP-A"
+    assert header["status"] == "open"
+    assert header["order by"].date() == date(2026, 12, 1)
+    # total = 20 x 0.25 + 4 x 6.50 = 31.00 (hand arithmetic)
+    assert Decimal(str(header["total"])) == detail["total"] == Decimal("31.00")
+    rows = [r for r in wb["lines"].iter_rows(min_row=2, values_only=True)]
+    from_book = [(p, q, Decimal(str(c)), got) for p, q, c, _, got in rows]
+    from_service = [(ln["part"], ln["qty"], ln["unit_cost"], ln["received"])
+                    for ln in detail["lines"]]
+    assert from_book == from_service == db_lines
+    for (_, q, c, total, _), ln in zip(rows, detail["lines"], strict=True):
+        assert Decimal(str(total)) == ln["line_total"] == Decimal(q) * Decimal(str(c))
+
+    assert web("sam").get(f"/plan/orders/{ref}.xlsx").status_code == 403
+    out = web().get(f"/plan/orders/{ref}.xlsx")
+    assert out.status_code == 303 and out.headers["location"].startswith("/login")
+    assert web("ana").get("/plan/orders/PO-NOPE.xlsx").status_code == 404
+
+
+def test_plan_page_has_the_kit_charts_section(web):
+    html = web("ana").get("/plan").text
+    assert 'id="kit-charts"' in html and 'href="/plan/charts?by=kit' in html
+    assert web("sam").get("/plan/charts?by=kit").status_code == 403

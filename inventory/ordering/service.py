@@ -378,6 +378,41 @@ def open_orders(session: Session) -> list:
     return list_orders(session, status="open")
 
 
+def order_detail(session: Session, ref: str) -> dict[str, Any]:
+    """One purchase order as plain data: its header (reference, supplier, status, created,
+    order-by and expected dates, total) and its lines (part, qty, unit cost, line total,
+    received so far), in part-code order. Unknown ``ref``: :class:`InventoryError`."""
+    from inventory.ordering.orders import find_order
+
+    po = find_order(session, ref)
+    supplier = session.get(Supplier, po.supplier_id)
+    rows = session.exec(
+        select(Part.code, PurchaseOrderLine.qty, PurchaseOrderLine.unit_cost,
+               PurchaseOrderLine.received_qty)
+        .join(Part, Part.id == PurchaseOrderLine.part_id)
+        .where(PurchaseOrderLine.order_id == po.id)
+        .order_by(Part.code)).all()
+    cent = Decimal("0.01")
+    lines = [{"part": code, "qty": int(qty), "unit_cost": Decimal(str(cost)),
+              "line_total": (int(qty) * Decimal(str(cost))).quantize(cent),
+              "received": int(received)} for code, qty, cost, received in rows]
+    return {"ref": po.ref, "supplier": supplier.code if supplier else "",
+            "supplier_name": supplier.name if supplier else "", "status": po.status,
+            "created": po.created, "order_by": po.order_by, "expected": po.expected,
+            "total": sum((ln["line_total"] for ln in lines), Decimal("0")).quantize(cent),
+            "lines": lines}
+
+
+def write_order_file(session: Session, ref: str, path: Any) -> dict[str, Any]:
+    """Write purchase order ``ref`` as a workbook at ``path`` (an "order" sheet with the
+    header, a "lines" sheet with the lines); returns the :func:`order_detail` written."""
+    from inventory.ordering.workbook import write_order_workbook
+
+    detail = order_detail(session, ref)
+    write_order_workbook(detail, path)
+    return detail
+
+
 def record_orders(session: Session, lines: Sequence[tuple[str, str, int, Decimal | None, str]],
                   *, created: date, dates: Mapping[str, tuple[date | None, date | None]]
                   | None = None) -> list:

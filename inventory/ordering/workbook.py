@@ -380,3 +380,25 @@ def read_plan_file(path: str | Path) -> list[DraftOrder]:
                              hint="give the plan workbook (.xlsx) or `plan --json` output") \
             from None
     return read_plan_json(data, p.name)
+
+
+ORDER_LINE_HEADER = ["part", "qty", "unit cost", "line total", "received"]
+
+
+def write_order_workbook(order: dict[str, Any], path: str | Path) -> Path:
+    """One purchase order (the plain data of ``ordering.service.order_detail``) as a
+    workbook: sheet "order" holds the header as field/value rows, sheet "lines" its lines.
+    Every cell goes through the sheets writer's formula guard; no formulas."""
+    from inventory.sheets.write import write_workbook
+
+    header = [("reference", order["ref"]), ("supplier", order["supplier"]),
+              ("supplier name", order.get("supplier_name", "")), ("status", order["status"]),
+              ("created", order.get("created")), ("order by", order.get("order_by")),
+              ("expected", order.get("expected")), ("total", order["total"])]
+    lines = [[ln["part"], ln["qty"], ln["unit_cost"], ln["line_total"], ln["received"]]
+             for ln in order["lines"]]
+    return write_workbook(path, [
+        SheetSpec("order", ["field", "value"], header),
+        SheetSpec("lines", ORDER_LINE_HEADER, lines,
+                  number_formats={"unit cost": "#,##0.00##", "line total": "#,##0.00"}),
+    ])
