@@ -431,3 +431,7 @@ def test_plan_page_has_the_kit_charts_section(web):
     html = web("ana").get("/plan").text
     assert 'id="kit-charts"' in html and 'href="/plan/charts?by=kit' in html
     assert web("sam").get("/plan/charts?by=kit").status_code == 403
+    r = web("ana").get("/plan/charts?by=kit&page=x")  # a bad page number is page 1
+    assert r.status_code == 200 and "issues per kit" in r.text
+    # the issue's page budget is 200 KB; this html carries no inline images
+    assert len(r.content) < 200_000
