@@ -435,3 +435,30 @@ def test_plan_page_has_the_kit_charts_section(web):
     assert r.status_code == 200 and "issues per kit" in r.text
     # the issue's page budget is 200 KB; this html carries no inline images
     assert len(r.content) < 200_000
+
+
+@pytest.mark.parametrize("field,value", [
+    ("qty", "1e30"), ("qty", "９"), ("qty", "9223372036854775807"),
+    ("cost", "1e400"), ("cost", "nan"), ("cost", "4006381333931"),
+    ("part", "OR-214\u202e"), ("order", "x" * 100_000),
+])
+def test_web_forms_refuse_what_the_command_line_refuses(web, monkeypatch, capsys, field, value):
+    """The receive form reads its values through the one parser per value kind, so the web
+    refuses a value with the same message as `inventory stock receive` (issue 12: the same
+    limits on the CLI, in imports and in web forms), and writes nothing."""
+    from inventory.core import parse
+
+    ana = web("ana")
+    tok = csrf(ana.get("/stock"))
+    n = movements(web.store)
+    data = {"csrf": tok, "part": "OR-214", "qty": "2", "cost": "0.25", field: value}
+    r = ana.post("/stock/receive", data=data)
+    assert r.status_code == 400, r.text[:200]
+    assert movements(web.store) == n
+    # the same message as the parser itself gives
+    reader = {"qty": lambda v: parse.quantity(v), "cost": lambda v: parse.unit_cost(v),
+              "part": lambda v: parse.code(v, what="part"),
+              "order": lambda v: parse.code(v, what="order")}[field]
+    with pytest.raises(ValueError) as exc:
+        reader(value)
+    assert str(exc.value).split(" (")[0][:60] in r.text.replace("&#39;", "'").replace("&#34;", '"')

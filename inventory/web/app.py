@@ -12,7 +12,7 @@ import json
 import os
 from collections.abc import Callable
 from datetime import date, datetime
-from decimal import Decimal, InvalidOperation
+from decimal import Decimal
 from pathlib import Path
 from typing import Any
 
@@ -28,6 +28,7 @@ from starlette.routing import Mount, Route
 from starlette.staticfiles import StaticFiles
 from starlette.templating import Jinja2Templates
 
+from inventory.core import parse
 from inventory.core.actor import acting_as
 from inventory.core.db import make_engine, resolve_url, transaction
 from inventory.core.errors import InventoryError
@@ -119,44 +120,52 @@ def message_of(exc: InventoryError) -> str:
 
 
 def _int(form, name: str, *, minimum: int | None = None, signed: bool = False) -> int:
+    """A whole number from a form, read by the one quantity parser (the CLI's and the
+    imports' bounds: ASCII digits, at most a million in one booking)."""
     raw = str(form.get(name, "")).strip()
+    if not raw:
+        raise FormError(name, "a whole number is needed here")
     try:
-        value = int(raw)
-    except ValueError:
-        raise FormError(name, f"expected a whole number, got {raw!r}" if raw
-                        else "a whole number is needed here") from None
-    if minimum is not None and value < minimum:
-        raise FormError(name, f"must be {minimum} or more, got {value}")
-    if signed and value == 0:
-        raise FormError(name, "must not be 0")
-    return value
+        return parse.quantity(raw, signed=signed, zero=minimum == 0 and not signed)
+    except ValueError as exc:
+        raise FormError(name, str(exc)) from None
 
 
 def _money(form, name: str) -> Decimal | None:
+    """A unit cost from a form, read by the one money parser (finite, four places, the
+    column's limit and the unit-cost ceiling)."""
     raw = str(form.get(name, "")).strip()
     if not raw:
         return None
     try:
-        value = Decimal(raw.replace(",", "."))
-    except InvalidOperation:
-        raise FormError(name, f"expected an amount like 0.35, got {raw!r}") from None
-    if not value.is_finite() or value < 0:
-        raise FormError(name, f"expected an amount of 0 or more, got {raw!r}")
-    return value
+        return parse.unit_cost(raw, confirm_hint="a manager books it from the command line "
+                                                 "with --cost-ok")
+    except ValueError as exc:
+        raise FormError(name, str(exc)) from None
 
 
 def _text(form, name: str) -> str | None:
+    """A code or short text from a form: no control or bidirectional characters, capped at
+    its column's length (the one code parser, as on the command line)."""
     raw = str(form.get(name, "") or "").strip()
-    return raw or None
+    if not raw:
+        return None
+    base = name.split("-")[-1].rstrip("0123456789") if "-" in name else name.rstrip("0123456789")
+    try:
+        return parse.code(raw, what=base if base in parse.MAX_LEN else "code")
+    except ValueError as exc:
+        raise FormError(name, str(exc)) from None
 
 
-def _day(raw: str | None, name: str) -> date | None:
+def _day(raw: str | None, name: str, *, booking: bool = False) -> date | None:
+    """A date from a form through the one date parser; a booking date also within the
+    ledger's bounds (not before 2000, not past tomorrow)."""
     if not raw:
         return None
     try:
-        return date.fromisoformat(raw.strip())
-    except ValueError:
-        raise FormError(name, f"expected a date like 2026-03-14, got {raw!r}") from None
+        return parse.booking_day(raw, what=name) if booking else parse.day(raw, what=name)
+    except ValueError as exc:
+        raise FormError(name, str(exc)) from None
 
 
 class Web:
@@ -661,7 +670,7 @@ async def jobs_add(request: Request) -> Response:
         level = _text(form, "service") or ""
         if level not in SERVICE_LEVELS:
             raise FormError("service", f"pick a service level ({', '.join(SERVICE_LEVELS)})")
-        day = _day(_text(form, "date"), "date") or date.today()
+        day = _day(_text(form, "date"), "date", booking=True) or date.today()
         if day > date.today():
             raise FormError("date", f"{day.isoformat()} is in the future")
         items = _job_items(form)
