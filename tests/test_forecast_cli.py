@@ -217,3 +217,31 @@ def test_backtest_bad_input_one_line(tmp_path, monkeypatch, capsys, content, arg
     code, out, err = inv(monkeypatch, capsys, "backtest", str(f), *args)
     assert code == 1
     assert err.strip().splitlines() == [line.format(f=f)]
+
+
+@pytest.mark.parametrize("width", [80, 100, 160])
+def test_forecast_table_never_cuts_codes_on_a_narrow_terminal(shop, monkeypatch, capsys,
+                                                              width):
+    """In a terminal of 80 columns (the bench and office default) every part code and the
+    totals stay whole and no line runs past the edge; the later months and the method
+    phrase give way first and the caption says so."""
+    import io
+
+    from rich.console import Console
+
+    from inventory.cli import forecast_cmd
+
+    buf = io.StringIO()
+    monkeypatch.setattr(forecast_cmd, "console",
+                        Console(file=buf, width=width, force_terminal=True, color_system=None))
+    code, _, err = inv(monkeypatch, capsys, "--db", shop, "forecast", "--by", "part", *TODAY,
+                       "--horizon", "6", "--charts", str(shop) + "-png")
+    assert code == 0, err
+    lines = buf.getvalue().splitlines()
+    assert lines and max(len(ln) for ln in lines) <= width
+    table = "\n".join(lines)
+    for part in ("OR-214", "WP-32", "OIL-5"):  # the tiny catalog's codes, never cut
+        assert f" {part} " in table, (width, table)
+    assert "…" not in table
+    narrow = "narrow terminal" in table
+    assert narrow == (width < 120), table

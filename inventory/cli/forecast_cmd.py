@@ -73,21 +73,46 @@ def render_table(report: ForecastReport, rows: int, codes: tuple[str, ...] = ())
     periods = [_label(report, d) for d in report.forecast_periods]
     q_lo, q_hi = (round(100 * q) for q in report.quantiles)
     cover = f"{report.cover_periods:.3g} {unit}s"
-    header = ["code", "unit", "how it is forecast", *periods,
+    # a pipe or file gets the whole table; a terminal gets its own width, and on a narrow
+    # one the codes and totals stay whole: the later months and then the method phrase go
+    # first (they are in the workbook and --json)
+    out = console if console.is_terminal else Console(width=200, highlight=False)
+    code_w = max([len("code"), *(len(s.code) for s in shown)])
+    cost = 3  # a column's borders and padding
+    fixed = (code_w + cost) + (4 + cost) + (8 + cost) + (9 + cost) + 1
+    room = out.width - fixed
+    phrase_w = max([len("how it is forecast"), *(len(s.phrase) for s in shown)])
+    n_periods = len(periods)
+    show_phrase = True
+    while n_periods and room < n_periods * (6 + cost) + (phrase_w + cost) * show_phrase:
+        if n_periods > 3 or not show_phrase:
+            n_periods -= 1
+        else:
+            show_phrase = False
+    if room < (phrase_w + cost) * show_phrase:
+        show_phrase = False
+    header = ["code", "unit", *(["how it is forecast"] if show_phrase else []),
+              *periods[:n_periods],
               f"total over {cover} (lead time + review)", f"{q_lo}-{q_hi} % range of that total"]
-    body = [[s.code, s.unit, s.phrase, *[_fmt(x) for x in s.forecast], _fmt(s.cover_mean),
+    body = [[s.code, s.unit, *([s.phrase] if show_phrase else []),
+             *[_fmt(x) for x in s.forecast[:n_periods]], _fmt(s.cover_mean),
              f"{s.cover_low}-{s.cover_high}"] for s in shown]
     left = len(report.series) - len(shown)
     caption = (f"{len(shown)} of {len(report.series)} series by usage value"
                + (f"; {left} more in the workbook or --json" if left > 0 else ""))
+    if n_periods < len(periods) or not show_phrase:
+        caption += ("; narrow terminal: " + ", ".join(
+            ([f"{len(periods) - n_periods} later {unit}s"] if n_periods < len(periods) else [])
+            + ([] if show_phrase else ["the method"])) + " left out (in --json and the workbook)")
     table = Table(title=f"Forecast by {report.by}, per {unit} in each part's unit, from "
                         f"{report.today.isoformat()}", caption=caption, header_style="bold")
+    texts = 3 if show_phrase else 2
     for i, h in enumerate(header):
-        table.add_column(h, justify="left" if i < 3 else "right", no_wrap=i in (0, 2))
+        table.add_column(h, justify="left" if i < texts else "right",
+                         no_wrap=i < texts or i < len(header) - 2,
+                         min_width=code_w if i == 0 else None)
     for row in body:
         table.add_row(*[str(v) for v in row])
-    # a pipe or file gets the whole table; a terminal gets its own width
-    out = console if console.is_terminal else Console(width=200, highlight=False)
     out.print(table)
     say(f"Season: {report.season.reason}")
     ibi = report.installed_base
