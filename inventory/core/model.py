@@ -1,7 +1,8 @@
 """Plain, immutable records the pure core works on.
 
-The database (``inventory.store``) and the spreadsheet edges (``inventory.sheets``) convert
-to and from these; nothing in ``inventory.domain`` touches a database or a file.
+The database edge (``inventory.core.tables`` and each feature's queries) and the spreadsheet
+edge (``inventory.sheets``) convert to and from these; this module and the other pure modules
+(listed in the import contracts) touch no database or file.
 Lengths are millimetres (floats), money is ``Decimal``, quantities are ``int``.
 """
 

@@ -207,7 +207,7 @@ def assemble(data: MonthData, *, today: date, reorder: Mapping[str, ReorderAdvic
     annualised by 365 / days in the month; ``turns_12m`` over the twelve months, against the
     mean of the thirteen month-end values. Days of supply: closing quantity over the average
     daily usage of the last twelve months (value for the total). ABC by the twelve months'
-    usage value, XYZ by the CV of the twelve monthly quantities (:mod:`inventory.domain.
+    usage value, XYZ by the CV of the twelve monthly quantities (:mod:`inventory.stock.
     valuation` for cut-offs and sources). Slow/dead: no issue for ``slow_months`` /
     ``dead_months``. Expiring: ISO 2230 storage limit (or the inspected extension) past, or
     within ``expiry_warn_months`` of the month's last day. Below reorder: inventory position
