@@ -119,6 +119,14 @@ def message_of(exc: InventoryError) -> str:
     return text
 
 
+def workbook_download(data: bytes, filename: str) -> Response:
+    """A workbook sent as a download, its file name reduced to safe characters."""
+    safe = "".join(ch if ch.isalnum() or ch in "-_." else "_" for ch in filename)
+    return Response(data, media_type="application/vnd.openxmlformats-officedocument."
+                    "spreadsheetml.sheet",
+                    headers={"content-disposition": f'attachment; filename="{safe}"'})
+
+
 def _int(form, name: str, *, minimum: int | None = None, signed: bool = False) -> int:
     """A whole number from a form, read by the one quantity parser (the CLI's and the
     imports' bounds: ASCII digits, at most a million in one booking)."""
@@ -880,10 +888,7 @@ async def plan_order_xlsx(request: Request) -> Response:
         name, data = await web.read(go, who)
     except InventoryError as exc:
         raise HTTPException(404, message_of(exc)) from None
-    safe = "".join(ch if ch.isalnum() or ch in "-_." else "_" for ch in name)
-    return Response(data, media_type="application/vnd.openxmlformats-officedocument."
-                    "spreadsheetml.sheet",
-                    headers={"content-disposition": f'attachment; filename="order-{safe}.xlsx"'})
+    return workbook_download(data, f"order-{name}.xlsx")
 
 
 async def plan_orders(request: Request) -> Response:
@@ -998,9 +1003,7 @@ async def month_xlsx(request: Request) -> Response:
         name, data = await web.read(go, who)
     except FormError as exc:
         raise HTTPException(404, exc.message) from None
-    return Response(data, media_type="application/vnd.openxmlformats-officedocument."
-                    "spreadsheetml.sheet",
-                    headers={"content-disposition": f'attachment; filename="stock-{name}.xlsx"'})
+    return workbook_download(data, f"stock-{name}.xlsx")
 
 
 async def month_close(request: Request) -> Response:
