@@ -48,9 +48,7 @@ re-exported here (:func:`ses`, :func:`croston`, :func:`sba`, :func:`tsb`, :func:
 
 from __future__ import annotations
 
-from collections.abc import Sequence
-from dataclasses import dataclass, field, replace
-from typing import Literal
+from dataclasses import replace
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -58,6 +56,18 @@ from numpy.typing import ArrayLike, NDArray
 from inventory.forecast import demand as dm
 from inventory.forecast import smoothing as sm
 from inventory.forecast.accuracy import mase, rmsse, scaled_bias, scaled_total_error
+from inventory.forecast.candidates import OriginData, candidates, origin_scales
+from inventory.forecast.fit_records import METHODS, FitOptions, ForecastResult
+from inventory.forecast.passes import FloatArray
+from inventory.forecast.seasonal import deseason, seasonal_indices
+from inventory.forecast.selection import (
+    class_choice,
+    final_params,
+    member_forecasts,
+    nanmean,
+    rmsse_at_origins,
+    season_screen,
+)
 from inventory.forecast.smoothing import (
     adida,
     aggregation_level,
@@ -91,480 +101,6 @@ __all__ = [
     "scaled_total_error",
 ]
 
-FloatArray = NDArray[np.float64]
-BoolArray = NDArray[np.bool_]
-
-METHODS = ("ses", "croston", "sba", "tsb", "adida", "imapa")
-_FAMILY = {"ses": "ses", "croston": "croston", "sba": "croston", "tsb": "tsb",
-           "adida": "aggregation", "imapa": "aggregation"}
-
-
-# -- seasonality from pooled demand ---------------------------------------------------------
-
-
-def seasonal_indices(
-    y: ArrayLike,
-    season_pos: ArrayLike,
-    *,
-    period: int = 12,
-    groups: ArrayLike | None = None,
-    min_cycles: int = 1,
-) -> FloatArray:
-    """Multiplicative seasonal indices per group from the POOLED demand of its series.
-
-    Classical ratio to moving average on each group's total per period: a centred
-    2 x ``period`` moving average, each period's total divided by it, the mean ratio per
-    season position, normalised to mean 1. ``season_pos[t]`` is the position
-    (0..period-1, e.g. calendar month - 1) of column t. Returns ``(n_groups, period)`` in
-    the order of ``np.unique(groups)``; a group with fewer than ``min_cycles`` ratios for
-    some position gets all ones (too little data to say).
-    """
-    v, _ = sm.prepare(y)
-    pos = np.asarray(season_pos, dtype=np.int64)
-    g = np.zeros(v.shape[0], dtype=np.int64) if groups is None else np.asarray(groups)
-    labels, gi = np.unique(g, return_inverse=True)
-    totals = np.zeros((labels.size, v.shape[1]))
-    np.add.at(totals, gi, v)
-    out = np.ones((labels.size, period))
-    half = period // 2
-    if period % 2 == 0:
-        w = np.r_[0.5, np.ones(period - 1), 0.5] / period
-    else:
-        w = np.ones(period) / period
-    if v.shape[1] < w.size:
-        return out
-    for r in range(labels.size):
-        ma = np.convolve(totals[r], w, mode="valid")
-        idx = np.arange(half, half + ma.size)
-        ok = ma > 0
-        ratio = totals[r, idx[ok]] / ma[ok]
-        ppos = pos[idx[ok]]
-        cnt = np.bincount(ppos, minlength=period)
-        if cnt.min() < min_cycles:
-            continue
-        s = np.bincount(ppos, weights=ratio, minlength=period) / np.maximum(cnt, 1)
-        if s.mean() > 0:
-            out[r] = s / s.mean()
-    return out
-
-
-# -- options and result ------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class FitOptions:
-    """Knobs of :func:`fit_forecast`, with their defaults.
-
-    - ``methods``: candidates, any of :data:`METHODS`.
-    - ``param_modes``: "series" (constants per series) and/or "class" (per SBC class).
-    - ``ses_alphas``: SES grid; ``alphas`` / ``betas``: Croston, SBA and TSB grids for the
-      size and the interval/probability constants; ``agg_alphas``: ADIDA and IMAPA grid
-      (0.1..0.3, the range statsforecast searches).
-    - ``origins``: rolling origins in the selection backtest, one period apart, the last
-      one ``horizon`` periods before the end of the data; ``horizon``: periods scored.
-    - ``combine``: the largest number of candidates whose mean may be chosen (1 = pure
-      selection); a combination takes the best candidate of each method family in rank
-      order. ``single_margin``: a single candidate is kept over a combination only if it
-      scores better by this fraction (0.5 %: combinations are the more robust choice when
-      the backtest cannot tell them apart; 0 = plain comparison).
-    - ``select``: "class" (per SBC class, robust) or "series" (per series, noisy).
-    - ``seasonal``: "auto" (on only if the backtest RMSSE improves by ``seasonal_gain``, a
-      fraction), "on" or "off"; ``period``: season length in periods.
-    - ``max_level``: largest ADIDA / IMAPA bucket.
-    - ``chunk_series``: above this many series the fit runs on interleaved chunks of at
-      most this many (series i goes to chunk i mod k), each chunk choosing its own class
-      constants, methods and season, so memory stays bounded (the candidate passes hold
-      about 14 KB per series); every chunk still has thousands of series per fit.
-    """
-
-    methods: tuple[str, ...] = METHODS
-    param_modes: tuple[str, ...] = ("series", "class")
-    ses_alphas: tuple[float, ...] = tuple(np.round(np.arange(0.02, 1.0, 0.04), 2))
-    alphas: tuple[float, ...] = (0.05, 0.1, 0.2, 0.3, 0.5)
-    betas: tuple[float, ...] = (0.05, 0.1, 0.2, 0.3, 0.5)
-    agg_alphas: tuple[float, ...] = (0.1, 0.15, 0.2, 0.25, 0.3)
-    origins: int = 6
-    horizon: int = 6
-    combine: int = 3
-    single_margin: float = 0.005
-    select: Literal["class", "series"] = "class"
-    seasonal: Literal["auto", "on", "off"] = "auto"
-    seasonal_gain: float = 0.01
-    period: int = 12
-    max_level: int = 12
-    chunk_series: int = 4000
-
-
-@dataclass(frozen=True)
-class ForecastResult:
-    """A fitted forecast for ``n`` series.
-
-    - ``level``: per-period level after the data (deseasonalised when ``seasonal``).
-    - ``method``: the chosen candidate, or "a+b+c" for a combination, per series.
-    - ``indices``: ``(n, period)`` seasonal index per series (all ones when off);
-      ``next_pos``: season position of the first period after the data.
-    - ``origins``: the rolling origins of the selection backtest and ``origin_paths``
-      ``(O, n, h)``: the chosen model's forecast made at each of them for the ``h``
-      periods that followed (the distribution is calibrated on these).
-    - ``scores``: backtest RMSSE per candidate and series; ``class_choice``: choice per
-      class; ``seasonal_scores``: mean backtest RMSSE of the chosen methods without / with
-      the season (NaN when the screen stopped it); ``season_screen``: the same for the
-      screening method (SES, one constant per class).
-    - ``params``: smoothing constants of each series' first chosen candidate (display).
-    """
-
-    level: FloatArray
-    method: NDArray[np.str_]
-    classification: dm.Classification
-    seasonal: bool
-    indices: FloatArray
-    next_pos: int
-    origins: NDArray[np.int64]
-    origin_paths: FloatArray
-    scores: dict[str, FloatArray] = field(default_factory=dict)
-    class_choice: dict[str, str] = field(default_factory=dict)
-    seasonal_scores: tuple[float, float] = (np.nan, np.nan)
-    params: dict[str, FloatArray] = field(default_factory=dict)
-    season_screen: tuple[float, float] = (np.nan, np.nan)
-
-    def mean(self, horizon: int) -> FloatArray:
-        """Forecast mean per series and period for the next ``horizon`` periods, ``(n, h)``."""
-        period = self.indices.shape[1]
-        pos = (self.next_pos + np.arange(horizon)) % period
-        return self.level[:, None] * self.indices[:, pos]
-
-
-# -- candidates --------------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class _Candidate:
-    """Per-period forecasts of one candidate at the snapshot origins (S, n) and its final
-    smoothing constants (for display)."""
-
-    forecasts: FloatArray
-    method: str
-    final: dict[str, FloatArray]
-
-
-def _class_matrix(codes: NDArray[np.int64]) -> FloatArray:
-    """One-hot (n, n_classes) matrix of the class codes."""
-    m = np.zeros((codes.size, int(codes.max(initial=0)) + 1))
-    m[np.arange(codes.size), codes] = 1.0
-    return m
-
-
-def _choose_params(
-    ps: sm.Pass,
-    grid: dict[str, FloatArray],
-    default: dict[str, float],
-    mode: str,
-    scales: FloatArray,
-    onehot: FloatArray,
-    codes: NDArray[np.int64],
-) -> tuple[FloatArray, dict[str, FloatArray]]:
-    """Per snapshot, the grid point with the least in-sample one-step error, chosen per series
-    ("series": its SSE) or per class ("class": the class sum of each series' mean squared
-    error over its own scale, ``scales`` (S, n)). Where the data say nothing yet (no error,
-    or every grid point equal) the grid point nearest ``default`` is taken. Returns
-    (forecast (S, n), constants {name: (S, n)}).
-    """
-    s_count, g, n = ps.sse.shape
-    distance = np.zeros(g)
-    for name, vals in grid.items():
-        distance = distance + np.abs(vals[:, 0] - default[name])
-    fallback = int(np.argmin(distance))
-    if mode == "series":
-        best = ps.sse.argmin(axis=1)
-        uninformative = ps.sse.max(axis=1) <= 0.0  # no error yet, or all grid points equal
-        best[uninformative] = fallback
-    else:
-        ok = (ps.nobs > 0) & (scales > 0)
-        w = np.where(ok, 1.0 / np.where(ok, ps.nobs * scales, 1.0), 0.0)  # (S, n)
-        weighted = (ps.sse * w[:, None, :]).reshape(s_count * g, n)
-        cls_score = (weighted @ onehot).reshape(s_count, g, onehot.shape[1])
-        cls_best = cls_score.argmin(axis=1)  # (S, C)
-        cls_best[cls_score.max(axis=1) <= 0.0] = fallback
-        best = cls_best[:, codes]
-    fc = np.take_along_axis(ps.forecast, best[:, None, :], axis=1)[:, 0, :]
-    chosen = {name: vals[best, 0] for name, vals in grid.items()}
-    return fc, chosen
-
-
-def _origin_scales(v: FloatArray, obs: BoolArray, snaps: NDArray[np.int64]) -> FloatArray:
-    """In-sample mean squared one-step change before each snapshot origin, (S, n)."""
-    d = np.diff(v, axis=1) ** 2
-    both = obs[:, 1:] & obs[:, :-1]
-    cs = np.concatenate([np.zeros((v.shape[0], 1)), np.cumsum(np.where(both, d, 0.0), 1)], 1)
-    cn = np.concatenate([np.zeros((v.shape[0], 1)), np.cumsum(both, 1)], 1)
-    idx = np.maximum(snaps - 1, 0)
-    return (cs[:, idx] / np.maximum(cn[:, idx], 1)).T
-
-
-def _candidates(
-    v: FloatArray,
-    obs: BoolArray,
-    snaps: NDArray[np.int64],
-    scales: FloatArray,
-    codes: NDArray[np.int64],
-    opt: FitOptions,
-    wanted: Sequence[str] | None = None,
-) -> dict[str, _Candidate]:
-    """Every wanted candidate's forecasts at the snapshot origins (one pass per method)."""
-    onehot = _class_matrix(codes)
-    out: dict[str, _Candidate] = {}
-
-    def names(method: str) -> list[tuple[str, str]]:
-        if method not in opt.methods:
-            return []
-        res = []
-        for mode in opt.param_modes:
-            nm = method if mode == "series" else f"{method}@class"
-            if wanted is None or nm in wanted:
-                res.append((nm, mode))
-        return res
-
-    def add(ps: sm.Pass, method: str, grid: dict[str, FloatArray], default: dict[str, float]
-            ) -> None:
-        for nm, mode in names(method):
-            fc, ch = _choose_params(ps, grid, default, mode, scales, onehot, codes)
-            out[nm] = _Candidate(fc, method, {k: x[-1] for k, x in ch.items()})
-
-    if names("ses"):
-        a = np.asarray(opt.ses_alphas, dtype=float)[:, None]
-        add(sm.ses_pass(v, obs, a, snaps), "ses", {"alpha": a}, {"alpha": 0.1})
-    pairs = np.array([(a, b) for a in opt.alphas for b in opt.betas], dtype=float)
-    grid2 = {"alpha": pairs[:, :1], "beta": pairs[:, 1:]}
-    default2 = {"alpha": 0.1, "beta": 0.1}
-    variants = [m for m in ("croston", "sba") if names(m)]
-    if variants:
-        passes = sm.croston_pass(v, obs, grid2["alpha"], grid2["beta"], snaps,
-                                 variants=["classic" if m == "croston" else m for m in variants])
-        for m in variants:
-            add(passes["classic" if m == "croston" else m], m, grid2, default2)
-    if names("tsb"):
-        add(sm.tsb_pass(v, obs, grid2["alpha"], grid2["beta"], snaps), "tsb", grid2, default2)
-    agg = {m: names(m) for m in ("adida", "imapa") if names(m)}
-    if agg:
-        out.update(_aggregate_candidates(v, obs, snaps, scales, onehot, codes, opt, agg))
-    return out
-
-
-def _bucket_pass_at_origins(
-    v: FloatArray, obs: BoolArray, k: int, snaps: NDArray[np.int64], alpha: FloatArray
-) -> sm.Pass:
-    """SES over k-period buckets aligned to end at each origin, all origins in ONE pass.
-
-    Origins with the same remainder mod k share a bucket sequence (starting at that
-    remainder). The sequences are stacked as extra rows, padded at the front with
-    unobserved buckets so they all end together, and run through one SES pass; each
-    origin's state is then read from its own block. Returns forecast and SSE per period
-    (divided by k and k^2) at each origin, shape (S, G, n).
-    """
-    n, t_len = v.shape
-    residues = np.unique(snaps % k)
-    m_max = (t_len - int(residues.min())) // k
-    cum_v = np.concatenate([np.zeros((n, 1)), np.cumsum(v, axis=1)], axis=1)
-    cum_miss = np.concatenate([np.zeros((n, 1)), np.cumsum(~obs, axis=1)], axis=1)
-    stacked_v = np.zeros((residues.size * n, m_max))
-    stacked_o = np.zeros((residues.size * n, m_max), dtype=bool)
-    pads = []
-    for i, r in enumerate(residues):
-        m = (t_len - int(r)) // k
-        edges = int(r) + k * np.arange(m + 1)
-        pad = m_max - m
-        rows = slice(i * n, (i + 1) * n)
-        stacked_v[rows, pad:] = cum_v[:, edges[1:]] - cum_v[:, edges[:-1]]
-        stacked_o[rows, pad:] = (cum_miss[:, edges[1:]] - cum_miss[:, edges[:-1]]) == 0
-        pads.append(pad)
-    block = {int(r): i for i, r in enumerate(residues)}
-    idx = np.array([pads[block[int(o % k)]] + (int(o) - int(o % k)) // k for o in snaps])
-    uniq, inv = np.unique(idx, return_inverse=True)
-    ps = sm.ses_pass(stacked_v, stacked_o, alpha, uniq.astype(np.int64))
-    g = alpha.shape[0]
-    fc = np.empty((snaps.size, g, n))
-    sse = np.empty((snaps.size, g, n))
-    nobs = np.empty((snaps.size, n), dtype=np.int64)
-    for s, o in enumerate(snaps):
-        rows = slice(block[int(o % k)] * n, (block[int(o % k)] + 1) * n)
-        fc[s] = ps.forecast[inv[s], :, rows] / k
-        sse[s] = ps.sse[inv[s], :, rows] / (k * k)
-        nobs[s] = ps.nobs[inv[s], rows]
-    return sm.Pass(fc, sse, nobs, None)
-
-
-def _aggregate_candidates(
-    v: FloatArray,
-    obs: BoolArray,
-    snaps: NDArray[np.int64],
-    scales: FloatArray,
-    onehot: FloatArray,
-    codes: NDArray[np.int64],
-    opt: FitOptions,
-    names: dict[str, list[tuple[str, str]]],
-) -> dict[str, _Candidate]:
-    """ADIDA and IMAPA at every origin from one set of bucket passes.
-
-    At origin o the buckets of size k are aligned to end at o, so they start at o mod k;
-    one SES pass per (k, o mod k) with snapshots at the origins gives every origin. A
-    series' bucket size at an origin is its ADI before that origin, rounded.
-    """
-    n = v.shape[0]
-    a = np.asarray(opt.agg_alphas, dtype=float)[:, None]
-    tops = np.ones((snaps.size, n), dtype=np.int64)
-    has = np.zeros((snaps.size, n), dtype=bool)
-    for s, o in enumerate(snaps):
-        if o < 1:
-            continue
-        vo, oo = v[:, :o], obs[:, :o]
-        tops[s] = np.minimum(sm.aggregation_level(np.where(oo, vo, np.nan),
-                                                  max_level=opt.max_level), max(o // 2, 1))
-        has[s] = sm.has_demand(vo)
-    kmax = int(tops.max(initial=1))
-    modes = sorted({mode for lst in names.values() for _, mode in lst})
-    lv_fc = {m: np.zeros((kmax, snaps.size, n)) for m in modes}
-    lv_alpha = {m: np.full((kmax, snaps.size, n), np.nan) for m in modes}
-    for k in range(1, kmax + 1):
-        ps = _bucket_pass_at_origins(v, obs, k, snaps, a)
-        for mode in modes:
-            fc, ch = _choose_params(ps, {"alpha": a}, {"alpha": 0.2}, mode, scales, onehot, codes)
-            lv_fc[mode][k - 1] = fc
-            lv_alpha[mode][k - 1] = ch["alpha"]
-    out: dict[str, _Candidate] = {}
-    level_no = np.arange(1, kmax + 1)[:, None, None]
-    for method, lst in names.items():
-        for nm, mode in lst:
-            if method == "adida":
-                fc = np.take_along_axis(lv_fc[mode], (tops - 1)[None], axis=0)[0]
-            else:
-                fc = np.where(level_no <= tops[None], lv_fc[mode], 0.0).sum(axis=0) / tops
-            final_alpha = np.take_along_axis(lv_alpha[mode][:, -1, :], (tops[-1] - 1)[None],
-                                             axis=0)[0]
-            out[nm] = _Candidate(np.where(has, fc, 0.0), method,
-                                 {"k": tops[-1].astype(float), "alpha": final_alpha})
-    return out
-
-
-# -- selection -----------------------------------------------------------------------------------
-
-
-def _rmsse_at_origins(fc: FloatArray, truth: FloatArray, scales: FloatArray,
-                      season: FloatArray | None) -> FloatArray:
-    """Mean over origins of RMSSE per series. ``fc`` (O, n) per-period levels, ``truth``
-    (O, n, h), ``scales`` (O, n), ``season`` (O, n, h) factors or None."""
-    path = fc[:, :, None] if season is None else fc[:, :, None] * season
-    mse = np.mean((truth - path) ** 2, axis=2)
-    ok = scales > 0
-    e = np.where(ok, np.sqrt(mse / np.where(ok, scales, 1.0)), np.nan)
-    cnt = ok.sum(axis=0)
-    return np.where(cnt > 0, np.nansum(e, axis=0) / np.maximum(cnt, 1), np.nan)
-
-
-def _nanmean(x: FloatArray) -> float:
-    ok = np.isfinite(x)
-    return float(x[ok].mean()) if ok.any() else np.inf
-
-
-def _class_choice(
-    cands: dict[str, _Candidate],
-    truth: FloatArray,
-    scales: FloatArray,
-    labels: NDArray[np.str_],
-    opt: FitOptions,
-) -> tuple[dict[str, FloatArray], dict[str, str], NDArray[np.str_]]:
-    """Per class: the best single candidate or mean of the best 2..``combine``, by backtest.
-
-    Returns (scores per candidate, choice per class, choice per series as "a+b" keys).
-    """
-    names = list(cands)
-    scores = {m: _rmsse_at_origins(cands[m].forecasts[:-1], truth, scales, None) for m in names}
-    mat = np.stack([scores[m] for m in names])
-    overall = np.array([_nanmean(row) for row in mat])
-    fallback = names[int(np.argmin(overall))]
-    per_series = np.full(labels.size, fallback, dtype=object)
-    choice: dict[str, str] = {}
-    for c in dm.CLASSES:
-        rows = np.flatnonzero(labels == c)
-        if rows.size == 0:
-            continue
-        means = np.array([_nanmean(row[rows]) for row in mat])
-        if not np.isfinite(means).any():
-            choice[c] = fallback
-            continue
-        order = np.argsort(means, kind="stable")
-        best_key, best_val = names[int(order[0])], float(means[order[0]])
-        single_val = best_val
-        # combinations: the best candidate of each method family, in rank order (two
-        # variants of one method make a weak combination)
-        leaders: list[str] = []
-        seen: set[str] = set()
-        for i in order:
-            fam = _FAMILY[cands[names[int(i)]].method]
-            if fam not in seen and np.isfinite(means[i]):
-                seen.add(fam)
-                leaders.append(names[int(i)])
-        for m in range(2, min(opt.combine, len(leaders)) + 1):
-            members = leaders[:m]
-            fc = np.mean([cands[x].forecasts[:-1, rows] for x in members], axis=0)
-            val = _nanmean(_rmsse_at_origins(fc, truth[:, rows], scales[:, rows], None))
-            if val < best_val or (best_key == names[int(order[0])]
-                                  and val * (1.0 - opt.single_margin) <= single_val):
-                best_key, best_val = "+".join(members), val
-        choice[c] = best_key
-        per_series[rows] = best_key
-    if opt.select == "series":
-        ok = np.isfinite(mat).any(axis=0)
-        best = np.argmin(np.where(np.isfinite(mat), mat, np.inf), axis=0)
-        for i in np.flatnonzero(ok):
-            per_series[i] = names[int(best[i])]
-    return scores, choice, per_series.astype(str)
-
-
-def _member_forecasts(keys: NDArray[np.str_], cands: dict[str, _Candidate]) -> FloatArray:
-    """(S, n) forecasts of each series' chosen candidate or mean of candidates."""
-    some = next(iter(cands.values())).forecasts
-    out = np.zeros_like(some)
-    for key in np.unique(keys):
-        rows = keys == key
-        out[:, rows] = np.mean([cands[x].forecasts[:, rows] for x in key.split("+")], axis=0)
-    return out
-
-
-def _deseason(v: FloatArray, obs: BoolArray, idx: FloatArray, pos: NDArray[np.int64]) -> FloatArray:
-    f = idx[:, pos[: v.shape[1]]]
-    return np.where(obs, v / np.where(f > 0, f, 1.0), 0.0)
-
-
-def _final_params(keys: NDArray[np.str_], cands: dict[str, _Candidate]) -> dict[str, FloatArray]:
-    """Smoothing constants of each series' first chosen candidate (NaN where none)."""
-    n = keys.size
-    out = {k: np.full(n, np.nan) for k in ("alpha", "beta", "k")}
-    first = np.array([k.split("+")[0] for k in keys])
-    for name in np.unique(first):
-        rows = first == name
-        for k, vals in cands[name].final.items():
-            if k in out:
-                out[k][rows] = vals[rows]
-    return out
-
-
-def _season_screen(
-    v: FloatArray, obs: BoolArray, idx: FloatArray, pos: NDArray[np.int64],
-    snaps: NDArray[np.int64], scales: FloatArray, codes: NDArray[np.int64], truth: FloatArray,
-    season_bt: FloatArray, opt: FitOptions,
-) -> tuple[float, float]:
-    """Cheap first look: does deseasonalising help SES with one constant per class in the
-    backtest? Returns its mean RMSSE without and with the profile. The profile is a
-    property of the data, not of the method, so one robust method screens it; only if it
-    gains ``seasonal_gain`` are all chosen methods re-run on deseasonalised demand."""
-    probe = replace(opt, methods=("ses",), param_modes=("class",), ses_alphas=opt.alphas)
-    plain = _candidates(v, obs, snaps, scales, codes, probe)["ses@class"].forecasts
-    deseason = _candidates(_deseason(v, obs, idx, pos), obs, snaps, scales, codes,
-                           probe)["ses@class"].forecasts
-    bt = scales[:-1]
-    s_plain = _nanmean(_rmsse_at_origins(plain[:-1], truth, bt, None))
-    s_season = _nanmean(_rmsse_at_origins(deseason[:-1], truth, bt, season_bt))
-    return s_plain, s_season
 
 
 def fit_forecast(
@@ -593,18 +129,19 @@ def fit_forecast(
     origins = np.array([o for o in range(last - opt.origins + 1, last + 1) if o >= 2],
                        dtype=np.int64)
     snaps = np.r_[origins, t_len].astype(np.int64)
-    scales = _origin_scales(v, obs, snaps)
+    scales = origin_scales(v, obs, snaps)
     truth = np.stack([v[:, o:o + h] for o in origins]) if origins.size else np.zeros((0, n, h))
     bt_scales = scales[:-1]
 
-    cands = _candidates(v, obs, snaps, scales, codes, opt)
+    data = OriginData(v, obs, snaps, scales, codes)
+    cands = candidates(data, opt)
     if origins.size:
-        scores, choice, keys = _class_choice(cands, truth, bt_scales, cls.label, opt)
+        scores, choice, keys = class_choice(cands, truth, bt_scales, cls.label, opt)
     else:  # too short to backtest: the first candidate for everyone
         first = next(iter(cands))
         scores, choice, keys = {}, {}, np.full(n, first)
-    plain = _member_forecasts(keys, cands)
-    plain_score = _nanmean(_rmsse_at_origins(plain[:-1], truth, bt_scales, None))
+    plain = member_forecasts(keys, cands)
+    plain_score = nanmean(rmsse_at_origins(plain[:-1], truth, bt_scales, None))
 
     pos = np.zeros(t_len, dtype=np.int64)
     if season_pos is not None:
@@ -624,26 +161,23 @@ def fit_forecast(
                                   groups=gi)[gi]
         season_bt = np.stack([idx_bt[:, pos[o:o + h]] for o in origins])
         if not np.allclose(idx_bt, 1.0):
-            screen = _season_screen(v, obs, idx_bt, pos, snaps, scales, codes, truth, season_bt,
-                                    opt)
+            screen = season_screen(data, idx_bt, pos, truth, season_bt, opt)
         if opt.seasonal == "on" or screen[1] < screen[0] * (1.0 - opt.seasonal_gain):
             wanted = sorted({x for key in np.unique(keys) for x in key.split("+")})
-            c_bt = _candidates(_deseason(v, obs, idx_bt, pos), obs, snaps, scales, codes, opt,
-                               wanted)
-            s_fc = _member_forecasts(keys, c_bt)
-            seasonal_score = _nanmean(_rmsse_at_origins(s_fc[:-1], truth, bt_scales, season_bt))
+            c_bt = candidates(replace(data, v=deseason(v, obs, idx_bt, pos)), opt, wanted)
+            s_fc = member_forecasts(keys, c_bt)
+            seasonal_score = nanmean(rmsse_at_origins(s_fc[:-1], truth, bt_scales, season_bt))
             if opt.seasonal == "on" or seasonal_score < plain_score * (1.0 - opt.seasonal_gain):
                 seasonal = True
                 indices = seasonal_indices(v, pos, period=opt.period, groups=gi)[gi]
-                c_all = _candidates(_deseason(v, obs, indices, pos), obs, snaps, scales, codes,
-                                    opt, wanted)
-                level = _member_forecasts(keys, c_all)[-1]
+                c_all = candidates(replace(data, v=deseason(v, obs, indices, pos)), opt, wanted)
+                level = member_forecasts(keys, c_all)[-1]
                 paths = s_fc[:-1, :, None] * season_bt
     return ForecastResult(
         level=level, method=keys, classification=cls, seasonal=seasonal, indices=indices,
         next_pos=next_pos, origins=origins, origin_paths=paths, scores=scores,
         class_choice=choice, seasonal_scores=(plain_score, seasonal_score), season_screen=screen,
-        params=_final_params(keys, cands),
+        params=final_params(keys, cands),
     )
 
 
