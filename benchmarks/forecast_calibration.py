@@ -35,6 +35,7 @@ import argparse  # noqa: E402
 import sys  # noqa: E402
 import time  # noqa: E402
 import warnings  # noqa: E402
+from dataclasses import replace  # noqa: E402
 from pathlib import Path  # noqa: E402
 
 import numpy as np  # noqa: E402
@@ -147,10 +148,12 @@ def main(argv: list[str] | None = None) -> int:
 
     # -- 1. calibration ----------------------------------------------------------------------
     t0 = time.perf_counter()
-    ours = bt.run_rolling_backtests(y, table.names, fill_rates=FILLS, origins=3,
-                                    season_pos=pos, allocation="uniform")
+    setup = bt.BacktestSetup(horizon=H, lead_time=LEAD, review_period=REVIEW,
+                             allocation="uniform")
+    ours = bt.run_rolling_backtests(y, table.names, fill_rates=FILLS, origins=3, setup=setup,
+                                    season_pos=pos)
     plain = bt.run_rolling_backtests(y, table.names, fill_rates=FILLS, origins=3,
-                                     season_pos=pos, allocation="uniform", calibrate=False)
+                                     setup=replace(setup, calibrate=False), season_pos=pos)
     secs = time.perf_counter() - t0
     print("| asked | achieved (calibrated) | asked of the policy | on hand | achieved "
           "(uncalibrated) | on hand | A | B | C |")
@@ -195,8 +198,8 @@ def main(argv: list[str] | None = None) -> int:
         perm = rng.permutation(n)
         for half, idx in (("1", np.sort(perm[: n // 2])), ("2", np.sort(perm[n // 2:]))):
             sub = y[idx]
-            sweep = bt.run_backtests(sub, fill_rates=SWEEP, horizon=H, season_pos=pos,
-                                     allocation="uniform", calibrate=False)
+            sweep = bt.run_backtests(sub, fill_rates=SWEEP, season_pos=pos,
+                                     setup=replace(setup, calibrate=False))
             ours_oh = stock_at_fill([r.fill_rate for r in sweep],
                                     [r.avg_on_hand for r in sweep], 0.95)
             train, test = sub[:, :-H], sub[:, -H:]
@@ -205,8 +208,7 @@ def main(argv: list[str] | None = None) -> int:
             ses_oh = simulate(sqrt_levels(mu, z), test)[1]
             ratio = ours_oh / ses_oh
             ratios.append(ratio)
-            cal = bt.run_backtests(sub, fill_rates=(0.95,), horizon=H, season_pos=pos,
-                                   allocation="uniform")[0]
+            cal = bt.run_backtests(sub, fill_rates=(0.95,), setup=setup, season_pos=pos)[0]
             cal95.append(cal.fill_rate)
             print(f"| {k + 1} | {half} | {idx.size} | {ours_oh:.2f} | {ses_oh:.2f} (z = {z:.2f}) "
                   f"| {ratio:.3f} | {100 * cal.fill_rate:.2f} % |")

@@ -125,8 +125,8 @@ def _carparts(n: int) -> bt.DemandTable:
 def test_small_backtest_on_carparts() -> None:
     t = _carparts(120)
     assert t.values.shape == (120, 51)
-    results = bt.run_backtests(t.values, t.names, fill_rates=(0.90, 0.98), horizon=6,
-                               season_pos=t.season_pos())
+    results = bt.run_backtests(t.values, t.names, fill_rates=(0.90, 0.98),
+                               setup=bt.BacktestSetup(horizon=6), season_pos=t.season_pos())
     lo, hi = results
     for r in results:
         d = r.to_dict()
@@ -153,7 +153,8 @@ def test_small_backtest_on_carparts() -> None:
 
 def test_rolling_backtest_on_carparts() -> None:
     t = _carparts(60)
-    r = bt.run_rolling_backtest(t.values, t.names, origins=2, horizon=6, fill_rate=0.95)
+    r = bt.run_rolling_backtest(t.values, t.names, origins=2, fill_rate=0.95,
+                                setup=bt.BacktestSetup(horizon=6))
     assert r.origins == (44, 45)
     assert 0.0 < r.fill_rate <= 1.0
     assert r.to_dict()["series"] == 60
@@ -161,7 +162,7 @@ def test_rolling_backtest_on_carparts() -> None:
 
 def test_backtest_rejects_too_short_history() -> None:
     with pytest.raises(ValueError, match="need more than"):
-        bt.run_backtest(np.ones((3, 7)), horizon=6)
+        bt.run_backtest(np.ones((3, 7)), setup=bt.BacktestSetup(horizon=6))
 
 
 # -- calibrated fill (issue 14 item 1) -------------------------------------------------------
@@ -200,8 +201,9 @@ def test_calibration_repairs_a_too_thin_model() -> None:
     def fit(history: np.ndarray, end: int):
         return poisson(history.mean(axis=1))
 
-    cal = learn_fill_calibration(train, fit, horizon=6, lead_time=1, review_period=1,
-                                 allocation="uniform")
+    cal = learn_fill_calibration(train, fit, bt.BacktestSetup(horizon=6, lead_time=1,
+                                                              review_period=1,
+                                                              allocation="uniform"))
     assert cal.origins == (18,)
     dist = fit(train, 24)
 
@@ -221,12 +223,13 @@ def test_rewriting_the_scored_months_changes_no_level() -> None:
     only, so rewriting the scored months leaves them identical (and the fill changes)."""
     t = _carparts(150)
     y = t.values.copy()
-    a = bt.run_backtests(y, t.names, fill_rates=(0.95,), horizon=6, season_pos=t.season_pos(),
-                         allocation="uniform")[0]
+    setup = bt.BacktestSetup(horizon=6, allocation="uniform")
+    a = bt.run_backtests(y, t.names, fill_rates=(0.95,), setup=setup,
+                         season_pos=t.season_pos())[0]
     y2 = y.copy()
     y2[:, -6:] = np.random.default_rng(3).poisson(2.0, size=y2[:, -6:].shape)
-    b = bt.run_backtests(y2, t.names, fill_rates=(0.95,), horizon=6,
-                         season_pos=t.season_pos(), allocation="uniform")[0]
+    b = bt.run_backtests(y2, t.names, fill_rates=(0.95,), setup=setup,
+                         season_pos=t.season_pos())[0]
     assert a.fill_calibration and a.fill_calibration == b.fill_calibration
     assert a.asked_policy == b.asked_policy
     assert a.levels is not None and b.levels is not None
@@ -237,7 +240,8 @@ def test_rewriting_the_scored_months_changes_no_level() -> None:
 def test_rolling_reports_promised_vs_achieved_per_abc_class() -> None:
     t = _carparts(80)
     r = bt.run_rolling_backtests(t.values, t.names, fill_rates=(0.9,), origins=2,
-                                 season_pos=t.season_pos(), allocation="uniform")[0]
+                                 setup=bt.BacktestSetup(allocation="uniform"),
+                                 season_pos=t.season_pos())[0]
     assert set(r.by_abc) <= {"A", "B", "C"} and r.by_abc
     # the per-class units add up to the pooled fill (an independent sum of the parts)
     served = sum(c["served"] for c in r.by_abc.values())

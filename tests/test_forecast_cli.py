@@ -146,7 +146,8 @@ def test_backtest_small_wide_csv_by_hand(tmp_path, monkeypatch, capsys):
     from inventory.ordering import backtest as bt
 
     table = bt.read_demand_csv(f)
-    res = bt.run_backtest(table.values, table.names, horizon=4, allocation="part",
+    res = bt.run_backtest(table.values, table.names,
+                          setup=bt.BacktestSetup(horizon=4, allocation="part"),
                           season_pos=table.season_pos())
     test = table.values[:, -4:]
     served = demanded = 0.0

@@ -227,10 +227,11 @@ def test_allocation_default_is_one_value_in_cli_and_library():
 
     cli_default = inspect.signature(forecast_cmd.backtest).parameters["allocation"].default
     assert cli_default.default == choices.DEFAULT_ALLOCATION
+    assert backtest.BacktestSetup().allocation == choices.DEFAULT_ALLOCATION
     for fn in (backtest.run_backtest, backtest.run_backtests, backtest.run_rolling_backtest,
                backtest.run_rolling_backtests):
-        assert inspect.signature(fn).parameters["allocation"].default == \
-            choices.DEFAULT_ALLOCATION, fn.__name__
+        assert inspect.signature(fn).parameters["setup"].default == backtest.BacktestSetup(), \
+            fn.__name__
 
 
 def test_a_choice_outside_its_enum_is_a_usage_error(tmp_path, monkeypatch, capsys):

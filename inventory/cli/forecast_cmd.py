@@ -202,9 +202,10 @@ def backtest(
 
     rate = options.fill_rate(fill_rate, "--fill-rate")
     with _progress(None, f"backtesting {file.name}", quiet=as_json):
-        data = service.backtest_file(file, horizon=horizon, lead_time=lead_time, fill_rate=rate,
-                                     review=review, rolling=rolling, origins=origins,
-                                     allocation=allocation.value)
+        setup = service.BacktestSetup(horizon=horizon, lead_time=lead_time,
+                                      review_period=review, allocation=allocation.value)
+        data = service.backtest_file(file, setup, fill_rate=rate, rolling=rolling,
+                                     origins=origins)
     if as_json:
         print_json(data)
         return

@@ -35,7 +35,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from inventory.forecast.distributions import DemandDistribution
-from inventory.ordering.simulate import Allocation, policy_levels, simulate_order_up_to
+from inventory.ordering.simulate import BacktestSetup, policy_levels, simulate_order_up_to
 
 FloatArray = NDArray[np.float64]
 
@@ -97,23 +97,22 @@ def curve(asked: ArrayLike, achieved: ArrayLike, origins: Sequence[int] = ()) ->
 def learn_fill_calibration(
     train: FloatArray,
     fit: Callable[[FloatArray, int], DemandDistribution],
+    setup: BacktestSetup,
     *,
-    horizon: int,
-    lead_time: int,
-    review_period: int,
-    allocation: Allocation,
-    origins: int = 1,
     grid: Sequence[float] = GRID,
 ) -> FillCalibration:
     """Learn the asked-to-achieved curve on ``train`` only (see the module docstring).
 
     ``fit(history, end)`` fits the forecast and the distribution on ``history`` (the
     first ``end`` training periods) and returns the per-period demand distribution.
-    Inner origins: ``len - horizon``, one period apart going back. Too short a training
-    history gives no calibration (the policy is asked for the promised rate itself).
+    ``setup``: the horizon, lead time, review period and allocation of the backtest, and
+    ``calibration_origins`` inner origins: ``len - horizon``, one period apart going back.
+    Too short a training history gives no calibration (the policy is asked for the
+    promised rate itself).
     """
+    horizon, lt, rp = setup.horizon, setup.lead_time, setup.review_period
     n, t_len = train.shape
-    ends = [t_len - j for j in range(origins)]
+    ends = [t_len - j for j in range(setup.calibration_origins)]
     ends = [e for e in ends if e - horizon > horizon + 2]
     if not ends or n == 0:
         return NO_CALIBRATION
@@ -123,10 +122,9 @@ def learn_fill_calibration(
         dist = fit(train[:, :e - horizon], e - horizon)
         test = np.nan_to_num(train[:, e - horizon:e])
         for i, g in enumerate(grid):
-            levels = policy_levels(dist, g, allocation=allocation, lead_time=lead_time,
-                                   review_period=review_period)
-            sim = simulate_order_up_to(levels, test, lead_time=lead_time,
-                                       review_period=review_period)
+            levels = policy_levels(dist, g, allocation=setup.allocation, lead_time=lt,
+                                   review_period=rp)
+            sim = simulate_order_up_to(levels, test, lead_time=lt, review_period=rp)
             served[i] += float(sim.served.sum())
         demanded += float(test.sum())
     if demanded <= 0:

@@ -56,6 +56,7 @@ from inventory.ordering.model import (
     SupplyOption,
 )
 from inventory.ordering.plan import PlanningError, plan_orders
+from inventory.ordering.simulate import BacktestSetup
 
 # -- the forecast protocol ----------------------------------------------------------------------
 
@@ -488,32 +489,35 @@ def _read_demand_file(path: Path) -> Any:
         raise InventoryError(f"{path}: not a UTF-8 text file") from None
 
 
-def backtest_file(file: Any, *, horizon: int = 6, lead_time: int = 1, fill_rate: float = 0.95,
-                  review: int = 1, rolling: bool = False, origins: int = 3,
-                  allocation: str = "uniform") -> dict[str, Any]:
+def backtest_file(file: Any, setup: BacktestSetup = BacktestSetup(), *,
+                  fill_rate: float = 0.95, rolling: bool = False, origins: int = 3
+                  ) -> dict[str, Any]:
     """``inventory backtest``: forecast + order-up-to policy on a demand history outside the
-    database (wide or long CSV), one origin or ``origins`` rolling ones; returns the result
-    as the ``--json`` document (with the file, the allocation and the wall seconds)."""
+    database (wide or long CSV), one origin or ``origins`` rolling ones; ``setup``: horizon,
+    lead time, review period, allocation (:class:`BacktestSetup`). Returns the result as
+    the ``--json`` document (with the file, the allocation and the wall seconds)."""
     import time as clock
 
     from inventory.ordering import backtest as bt
 
     file = Path(file)
-    if horizon < 1 or lead_time < 0 or review < 1:
+    horizon, allocation = setup.horizon, setup.allocation
+    if horizon < 1 or setup.lead_time < 0 or setup.review_period < 1:
         raise InventoryError("--horizon and --review must be 1 or more, --lead-time 0 or more")
     table = _read_demand_file(file)
     _, t_len = table.values.shape
     if t_len <= horizon + 2:
         raise InventoryError(f"{file}: {t_len} periods is too short for --horizon {horizon}: "
                              f"need more than {horizon + 2}", hint="use a shorter --horizon")
-    kw = dict(horizon=horizon, lead_time=lead_time, fill_rate=fill_rate, review_period=review,
-              season_pos=table.season_pos(), allocation=allocation)
     t0 = clock.perf_counter()
     try:
         if rolling:
-            res = bt.run_rolling_backtest(table.values, table.names, origins=origins, **kw)
+            res = bt.run_rolling_backtest(table.values, table.names, fill_rate=fill_rate,
+                                          origins=origins, setup=setup,
+                                          season_pos=table.season_pos())
         else:
-            res = bt.run_backtest(table.values, table.names, **kw)
+            res = bt.run_backtest(table.values, table.names, fill_rate=fill_rate, setup=setup,
+                                  season_pos=table.season_pos())
     except ValueError as exc:
         raise InventoryError(f"{file}: {exc}", hint="use a shorter --horizon or fewer "
                                                     "--origins") from None

@@ -9,16 +9,42 @@ thing the same way.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Literal
+from typing import TYPE_CHECKING, Literal, cast
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from inventory.core.choices import DEFAULT_ALLOCATION
 from inventory.forecast.distributions import DemandDistribution
 from inventory.ordering import policy
 
+if TYPE_CHECKING:
+    from inventory.forecast.methods import FitOptions
+
 FloatArray = NDArray[np.float64]
 Allocation = Literal["part", "uniform", "marginal"]
+
+
+@dataclass(frozen=True)
+class BacktestSetup:
+    """How a backtest (and its fill calibration) runs: ``horizon`` scored periods,
+    ``lead_time`` and ``review_period`` in periods, the ``allocation`` of levels
+    (:func:`policy_levels`), the forecast ``options`` (None: the defaults for the
+    horizon), and whether to ``calibrate`` the fill on ``calibration_origins`` inner
+    origins inside the training months (:mod:`inventory.ordering.calibration`)."""
+
+    horizon: int = 6
+    lead_time: int = 1
+    review_period: int = 1
+    allocation: Allocation = cast(Allocation, DEFAULT_ALLOCATION.value)
+    options: FitOptions | None = None
+    calibrate: bool = True
+    calibration_origins: int = 1
+
+    @property
+    def cover(self) -> int:
+        """Lead time plus review period: the periods one order-up-to level covers."""
+        return self.lead_time + self.review_period
 
 
 @dataclass(frozen=True)
