@@ -271,7 +271,8 @@ def test_pooled_levels_meet_the_pooled_target(method: str) -> None:
     mean = rng.gamma(0.7, 1.2, 400)
     d = dd.negative_binomial(mean, rng.uniform(1.0, 5.0, 400))
     groups = np.where(np.arange(400) < 150, "A", "C")
-    levels = policy.pooled_order_up_to_levels(d, [0.97, 0.90], groups=groups, method=method)
+    levels = policy.pooled_order_up_to_levels(d, [0.97, 0.90], groups=groups,
+                                              search=policy.PooledSearch(method=method))
     for g, target in (("A", 0.97), ("C", 0.90)):
         rows = groups == g
         got = policy.expected_fill(d.take(rows), levels[rows])
@@ -288,7 +289,12 @@ def test_one_level_search_finds_the_smallest_level_or_raises() -> None:
     level reaches raises instead of returning a level that silently misses it."""
     from inventory.forecast.distributions import negative_binomial
     from inventory.ordering.levels import reorder_point_for_fill
-    from inventory.ordering.policy import cycle_fill_rate, order_up_to_levels, smallest_level
+    from inventory.ordering.policy import (
+        LevelSearch,
+        cycle_fill_rate,
+        order_up_to_levels,
+        smallest_level,
+    )
 
     dist = negative_binomial([0.3, 2.0, 7.5], 2.5)
     got = order_up_to_levels(dist, 0.95, lead_time=1, review_period=1)
@@ -303,4 +309,4 @@ def test_one_level_search_finds_the_smallest_level_or_raises() -> None:
     assert np.all(rp >= -6)
     with pytest.raises(RuntimeError, match="no level reaches the target"):
         smallest_level(lambda s, idx: s >= 1e30, np.full(2, -1.0), np.ones(2),
-                       np.arange(2), max_doublings=5, what="test")
+                       np.arange(2), LevelSearch(max_doublings=5, what="test"))

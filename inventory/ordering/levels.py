@@ -125,8 +125,10 @@ def reorder_point_for_fill(
     active = np.flatnonzero(over.mean > 0)
     hi = np.ceil(over.mean + 4.0 * np.sqrt(over.variance()) + 1.0)
     lo = -np.ceil(q) - 1.0  # a level of -Q - 1 fills nothing
-    out = policy.smallest_level(meets, lo, hi, active, whole=whole, tol=tol,
-                                max_doublings=max_doublings, what="reorder_point_for_fill")
+    out = policy.smallest_level(meets, lo, hi, active,
+                                policy.LevelSearch(whole=whole, tol=tol,
+                                                   max_doublings=max_doublings,
+                                                   what="reorder_point_for_fill"))
     out[over.mean <= 0] = -1.0
     return out
 

@@ -178,7 +178,8 @@ def _pool_levels(lv: _Levels, chosen: IntArray, groups: list[str], targets: Floa
     # or below it): the levels need searching only up to the highest target
     top = min(float(tg.max()) + 0.002, 0.9999)
     levels = policy.pooled_order_up_to_levels(
-        lv.dist.take(rows), tg, groups=g, method="uniform",
-        lead_time=lv.lead_op[rows], review_period=lv.review_op[rows], top_fill=top)
+        lv.dist.take(rows), tg, groups=g, lead_time=lv.lead_op[rows],
+        review_period=lv.review_op[rows],
+        search=policy.PooledSearch(method="uniform", top_fill=top))
     lv.level[rows] = levels
     lv.level_int[rows] = levels

@@ -5,12 +5,9 @@ planner: the planner calls :func:`order_up_to_levels` with the forecaster's dist
 of demand per period (``inventory.forecast.distributions.DemandDistribution``) and per-part
 fill-rate targets, and gets whole-unit levels per part back.
 
-Formulas (REFERENCE.md section 8; Silver, Pyke and Peterson 1998, ch. 5 and 7):
+Formulas (REFERENCE.md section 8; Silver, Pyke and Peterson 1998, ch. 5 and 7); the normal
+model and the EOQ are in :mod:`inventory.ordering.policy_normal`, re-exported here:
 
-- Normal lead-time demand: mu_L = D L, sigma_L = sigma_D sqrt(L) (with lead-time spread
-  sigma_L = sqrt(L sigma_D^2 + D^2 sigma_LT^2)); cycle service P1: s = mu_L + k sigma_L with
-  k = Phi^-1(P1); fill rate P2 of an (s, Q) policy with backorders: G(k) = (1 - P2) Q / sigma_L.
-- Periodic review order-up-to (R, S), normal: S = D (R + L) + k sigma_D sqrt(R + L).
 - Slow movers: Poisson or negative binomial lead-time demand, the smallest whole s with
   P(X <= s) >= P1.
 - Fill rate of a periodic-review order-up-to policy with backorders, exact for any
@@ -18,22 +15,32 @@ Formulas (REFERENCE.md section 8; Silver, Pyke and Peterson 1998, ch. 5 and 7):
   E[(D_{L+R} - S)^+] - E[(D_L - S)^+], and the fill rate is one minus that over E[D_R]
   (e.g. Axsaeter 2015, ch. 5; Silver, Pyke and Peterson ch. 7). :func:`order_up_to_levels`
   returns the smallest whole S that reaches the target.
-- EOQ (Harris 1913, Wilson 1934): Q* = sqrt(2 A D / (v r)).
-
 Everything is vectorised over parts (numpy arrays); scalars broadcast.
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
+from dataclasses import dataclass
 from decimal import Decimal
 from typing import Literal
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy import stats
 
 from inventory.forecast.distributions import DemandDistribution, normal_loss
+from inventory.ordering.policy_normal import (
+    eoq,
+    eoq_annual_cost,
+    fill_rate_sq_normal,
+    inverse_normal_loss,
+    lead_time_demand_normal,
+    order_up_to_normal,
+    reorder_point_fill_rate_normal,
+    reorder_point_normal,
+    safety_factor,
+    safety_stock,
+)
 
 __all__ = [
     "normal_loss",
@@ -51,6 +58,8 @@ __all__ = [
     "smallest_level",
     "expected_fill",
     "pooled_order_up_to_levels",
+    "LevelSearch",
+    "PooledSearch",
     "eoq",
     "eoq_annual_cost",
 ]
@@ -62,94 +71,6 @@ def _f(x: ArrayLike | Decimal) -> FloatArray:
     if isinstance(x, Decimal):
         x = float(x)
     return np.asarray(x, dtype=float)
-
-
-# -- normal model -------------------------------------------------------------------------
-
-
-def inverse_normal_loss(g: ArrayLike, *, tol: float = 1e-10) -> FloatArray:
-    """The k with G(k) = g (g > 0), by vectorised bisection on k in [-20, 20].
-
-    G is strictly decreasing, so bisection is safe; ``tol`` is the width of the final bracket.
-    """
-    g = _f(g)
-    if np.any(g <= 0):
-        raise ValueError("G(k) is positive; g must be > 0")
-    lo = np.full(g.shape, -20.0)
-    hi = np.full(g.shape, 20.0)
-    while np.max(hi - lo) > tol:
-        mid = 0.5 * (lo + hi)
-        above = normal_loss(mid) > g  # G(mid) too large -> k must be larger
-        lo = np.where(above, mid, lo)
-        hi = np.where(above, hi, mid)
-    return 0.5 * (lo + hi)
-
-
-def safety_factor(cycle_service: ArrayLike) -> FloatArray:
-    """k = Phi^-1(P1) for a cycle service level P1 (probability of no stockout per cycle)."""
-    return stats.norm.ppf(_f(cycle_service))
-
-
-def lead_time_demand_normal(
-    demand_per_period: ArrayLike,
-    sd_per_period: ArrayLike,
-    lead_time: ArrayLike,
-    *,
-    lead_time_sd: ArrayLike = 0.0,
-) -> tuple[FloatArray, FloatArray]:
-    """(mu_L, sigma_L) of demand over the lead time; a lead-time spread adds D^2 sigma_LT^2."""
-    d, s, lt, slt = (_f(a) for a in (demand_per_period, sd_per_period, lead_time, lead_time_sd))
-    return d * lt, np.sqrt(lt * s**2 + d**2 * slt**2)
-
-
-def safety_stock(k: ArrayLike, sd_lead_time: ArrayLike) -> FloatArray:
-    """SS = k sigma_L."""
-    return _f(k) * _f(sd_lead_time)
-
-
-def reorder_point_normal(
-    mean_lead_time: ArrayLike, sd_lead_time: ArrayLike, cycle_service: ArrayLike
-) -> FloatArray:
-    """s = mu_L + Phi^-1(P1) sigma_L (not rounded)."""
-    return _f(mean_lead_time) + safety_factor(cycle_service) * _f(sd_lead_time)
-
-
-def reorder_point_fill_rate_normal(
-    mean_lead_time: ArrayLike,
-    sd_lead_time: ArrayLike,
-    order_quantity: ArrayLike,
-    fill_rate: ArrayLike,
-) -> FloatArray:
-    """s for an (s, Q) policy with backorders hitting fill rate P2: G(k) = (1 - P2) Q / sigma_L."""
-    sd = _f(sd_lead_time)
-    k = inverse_normal_loss((1.0 - _f(fill_rate)) * _f(order_quantity) / sd)
-    return _f(mean_lead_time) + k * sd
-
-
-def fill_rate_sq_normal(
-    mean_lead_time: ArrayLike,
-    sd_lead_time: ArrayLike,
-    order_quantity: ArrayLike,
-    reorder_point: ArrayLike,
-) -> FloatArray:
-    """P2 = 1 - sigma_L G(k) / Q of an (s, Q) policy with backorders, k = (s - mu_L) / sigma_L."""
-    sd = _f(sd_lead_time)
-    k = (_f(reorder_point) - _f(mean_lead_time)) / sd
-    return 1.0 - sd * normal_loss(k) / _f(order_quantity)
-
-
-def order_up_to_normal(
-    demand_per_period: ArrayLike,
-    sd_per_period: ArrayLike,
-    review_period: ArrayLike,
-    lead_time: ArrayLike,
-    cycle_service: ArrayLike,
-) -> FloatArray:
-    """S = D (R + L) + k sigma_D sqrt(R + L), k = Phi^-1(P1) (not rounded)."""
-    cover = _f(review_period) + _f(lead_time)
-    return _f(demand_per_period) * cover + safety_factor(cycle_service) * _f(
-        sd_per_period
-    ) * np.sqrt(cover)
 
 
 # -- discrete lead-time demand -----------------------------------------------------------
@@ -222,9 +143,21 @@ def order_up_to_levels(
     hi = np.ceil(cover.mean + 4.0 * np.sqrt(cover.variance()) + 1.0)
     active = np.flatnonzero(dist.mean > 0)
     hi[dist.mean <= 0] = 0.0
-    out = smallest_level(meets, np.full(n, -1.0), hi, active, max_doublings=max_doublings,
-                         what="order_up_to_levels")
+    out = smallest_level(meets, np.full(n, -1.0), hi, active,
+                         LevelSearch(max_doublings=max_doublings, what="order_up_to_levels"))
     return out.astype(np.int64)
+
+
+@dataclass(frozen=True)
+class LevelSearch:
+    """How :func:`smallest_level` searches: whole units (``whole``) or to ``tol``; at most
+    ``max_doublings`` doublings of the upper bracket; ``what`` names the search in its
+    error."""
+
+    whole: bool = True
+    tol: float = 1e-7
+    max_doublings: int = 40
+    what: str = "level search"
 
 
 def smallest_level(
@@ -232,11 +165,7 @@ def smallest_level(
     lo: FloatArray,
     hi: FloatArray,
     active: NDArray[np.int64],
-    *,
-    whole: bool = True,
-    tol: float = 1e-7,
-    max_doublings: int = 40,
-    what: str = "level search",
+    search: LevelSearch = LevelSearch(),
 ) -> FloatArray:
     """THE level search of the planner and the backtest: per part in ``active``, the
     smallest level in (lo, hi] for which ``meets(levels, rows)`` holds, ``meets`` being
@@ -246,8 +175,10 @@ def smallest_level(
     upper bracket and grows (2 hi + 1) until it meets, at most ``max_doublings`` times:
     a part that still fails raises ``RuntimeError`` naming ``what``, never a silent miss.
     Then a vectorised bisection: whole units (``whole``) or to ``tol``. Rows outside
-    ``active`` keep ``hi``. Returns a new array.
+    ``active`` keep ``hi``. Returns a new array. (``search``: :class:`LevelSearch`.)
     """
+    whole, tol, max_doublings, what = (search.whole, search.tol, search.max_doublings,
+                                       search.what)
     lo = np.array(lo, dtype=float)
     hi = np.array(hi, dtype=float)
     todo = np.asarray(active, dtype=np.int64)
@@ -310,17 +241,26 @@ def _fill_segments(
     return starts, filled, levels
 
 
+@dataclass(frozen=True)
+class PooledSearch:
+    """How :func:`pooled_order_up_to_levels` meets a pooled target: ``method`` "uniform" or
+    "marginal", levels searched up to the one reaching ``top_fill`` on its own, the common
+    target (or the price of stock) bisected to ``tol``."""
+
+    method: Literal["uniform", "marginal"] = "uniform"
+    top_fill: float = 0.9999
+    tol: float = 1e-6
+
+
 def pooled_order_up_to_levels(
     dist: DemandDistribution,
     fill_target: ArrayLike,
     *,
     groups: ArrayLike | None = None,
-    method: Literal["uniform", "marginal"] = "uniform",
     unit_cost: ArrayLike = 1.0,
     lead_time: ArrayLike = 1.0,
     review_period: ArrayLike = 1.0,
-    top_fill: float = 0.9999,
-    tol: float = 1e-6,
+    search: PooledSearch = PooledSearch(),
 ) -> NDArray[np.int64]:
     """Whole order-up-to levels whose expected POOLED fill rate per group meets a target.
 
@@ -342,8 +282,10 @@ def pooled_order_up_to_levels(
     ``fill_target``: one value, or one per group (``groups`` labels per part, targets in the
     order of ``np.unique(groups)``). Levels are searched between 0 and the level reaching
     ``top_fill`` on its own; expected fills use the exact periodic-review formula
-    (:func:`cycle_fill_rate`).
+    (:func:`cycle_fill_rate`). ``search`` (:class:`PooledSearch`) holds ``method``,
+    ``top_fill`` and ``tol``.
     """
+    method, top_fill, tol = search.method, search.top_fill, search.tol
     n = len(dist)
     lt = np.broadcast_to(_f(lead_time), (n,)).astype(float)
     rp = np.broadcast_to(_f(review_period), (n,)).astype(float)
@@ -417,34 +359,3 @@ def pooled_order_up_to_levels(
         else:
             raise ValueError("method must be 'uniform' or 'marginal'")
     return out.astype(np.int64)
-
-
-# -- economic order quantity ---------------------------------------------------------------
-
-
-def eoq(
-    annual_demand: ArrayLike | Decimal,
-    order_cost: ArrayLike | Decimal,
-    unit_cost: ArrayLike | Decimal,
-    carrying_rate: ArrayLike | Decimal,
-) -> FloatArray:
-    """Harris/Wilson economic order quantity Q* = sqrt(2 A D / (v r)) (not rounded).
-
-    ``annual_demand`` D in units/year, ``order_cost`` A per order, ``unit_cost`` v,
-    ``carrying_rate`` r per year (0.25 = 25 %). Money may be Decimal; the result is a float.
-    """
-    d, a, v, r = (_f(x) for x in (annual_demand, order_cost, unit_cost, carrying_rate))
-    return np.sqrt(2.0 * a * d / (v * r))
-
-
-def eoq_annual_cost(
-    order_quantity: ArrayLike,
-    annual_demand: ArrayLike | Decimal,
-    order_cost: ArrayLike | Decimal,
-    unit_cost: ArrayLike | Decimal,
-    carrying_rate: ArrayLike | Decimal,
-) -> FloatArray:
-    """Ordering plus carrying cost per year at order size Q: A D / Q + Q v r / 2."""
-    q = _f(order_quantity)
-    d, a, v, r = (_f(x) for x in (annual_demand, order_cost, unit_cost, carrying_rate))
-    return a * d / q + q * v * r / 2.0

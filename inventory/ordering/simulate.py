@@ -112,6 +112,7 @@ def policy_levels(dist: DemandDistribution, fill_rate: float, *, allocation: All
         return policy.order_up_to_levels(dist, fill_rate, lead_time=lead_time,
                                          review_period=review_period)
     if allocation == "uniform" or allocation == "marginal":
-        return policy.pooled_order_up_to_levels(dist, fill_rate, method=allocation,
-                                                lead_time=lead_time, review_period=review_period)
+        return policy.pooled_order_up_to_levels(dist, fill_rate, lead_time=lead_time,
+                                                review_period=review_period,
+                                                search=policy.PooledSearch(method=allocation))
     raise ValueError("allocation must be 'part', 'uniform' or 'marginal'")
