@@ -33,14 +33,13 @@ from inventory.bench.fit_limits import (
     Limit,
 )
 from inventory.bench.fit_rules import evaluate, worst
+from inventory.bench.match_query import CAUTION
 from inventory.bench.seals import medium_status
 from inventory.core.model import PartKind, PartSpec, SeatSpec
 
 __all__ = ["CAUTION", "Check", "FitResult", "FitRules", "Limit", "Verdict", "fit",
            "kind_applies"]
 
-CAUTION = ("A dimensional match is a suggestion: check material, profile and the maker's "
-           "service data; release all air before opening an air spring.")
 
 
 class Verdict(StrEnum):

@@ -10,8 +10,9 @@ from typing import Any
 
 import numpy as np
 
-from inventory.bench.fit_limits import KIND_CODE, MATERIAL_CODE, NO_MATERIAL, UNKNOWN_MATERIAL
-from inventory.bench.seals import ROUND_SECTION, normalise_material
+from inventory.bench.fit_limits import KIND_CODE
+from inventory.bench.fit_limits import material_code as material_code  # re-exported
+from inventory.bench.seals import ROUND_SECTION
 from inventory.bench.sizes import normalise_designation, standard_orings
 from inventory.core.model import PartKind, PartSpec
 
@@ -88,13 +89,6 @@ def ring_tolerances(spec: PartSpec) -> tuple[float, float, int]:
             return hit[0], hit[1], TOL_TABLE
     id_tol, cs_tol = assumed_ring_tolerances(_f(spec.id_mm), _f(spec.cs_mm))
     return float(id_tol), float(cs_tol), TOL_ASSUMED
-
-
-def material_code(code: str | None) -> int:
-    key = normalise_material(code)
-    if key is None:
-        return NO_MATERIAL
-    return MATERIAL_CODE.get(key, UNKNOWN_MATERIAL)
 
 
 def _f(value: float | None) -> float:

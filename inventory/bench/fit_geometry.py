@@ -13,9 +13,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-ArrayLike = float | np.ndarray
+from inventory.bench.fit_limits import P_ATM_BAR  # standard atmosphere, bar (ISO 2533)
 
-P_ATM_BAR = 1.01325  # standard atmosphere, bar (ISO 2533)
+ArrayLike = float | np.ndarray
 
 
 def stretched_cross_section(d1: ArrayLike, d2: ArrayLike, d_seat: ArrayLike) -> ArrayLike:

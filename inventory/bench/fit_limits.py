@@ -9,13 +9,15 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-import numpy as np
-
-from inventory.bench.fit_geometry import P_ATM_BAR
-from inventory.bench.seals import MATERIALS
+from inventory.bench.seals import MATERIALS, normalise_material
 from inventory.core.model import PartKind
+
+if TYPE_CHECKING:  # numpy loads when a rule grades values (match reads without it)
+    import numpy as np
+
+P_ATM_BAR = 1.01325  # standard atmosphere, bar (ISO 2533)
 
 PASS, MARGINAL, FAIL = 0, 1, 2
 NOT_APPLICABLE = -1  # the part's kind does not go in the seat (matrix only)
@@ -28,6 +30,15 @@ MATERIAL_CODES: tuple[str, ...] = tuple(MATERIALS)
 MATERIAL_CODE = {m: i for i, m in enumerate(MATERIAL_CODES)}
 UNKNOWN_MATERIAL = len(MATERIAL_CODES)  # a code not in MATERIALS
 NO_MATERIAL = -1  # material not recorded (indexes the last slot of a lookup table)
+
+def material_code(code: str | None) -> int:
+    """Code of a material (index in MATERIAL_CODES), UNKNOWN_MATERIAL for a code not in
+    the table, NO_MATERIAL when none is recorded."""
+    key = normalise_material(code)
+    if key is None:
+        return NO_MATERIAL
+    return MATERIAL_CODE.get(key, UNKNOWN_MATERIAL)
+
 
 # Sources shown to the user beside each check. "Recalled from memory" marks textbook ranges
 # not re-read for this project; "common practice" marks trade rules of thumb.
@@ -61,6 +72,8 @@ class Limit:
     unit: str = "%"
 
     def grade(self, value: Any) -> np.ndarray:
+        import numpy as np
+
         v = np.asarray(value, dtype=float)
         # a value that prints as the bound is on the bound: forgive float round-off
         eps = 1e-9

@@ -27,23 +27,25 @@ from functools import lru_cache
 import numpy as np
 
 from inventory.bench.fit_checks import kind_status_table
-from inventory.bench.fit_columns import PartColumns, columns_from_specs, material_code
+from inventory.bench.fit_columns import PartColumns, columns_from_specs
 from inventory.bench.fit_limits import (
-    KIND_CODE,
     KINDS,
-    MATERIAL_CODES,
-    NO_MATERIAL,
     NOT_APPLICABLE,
     STATUS_NAMES,
-    UNKNOWN_MATERIAL,
     FitRules,
 )
 from inventory.bench.fit_rules import evaluate, worst
-from inventory.bench.seals import MATERIALS, ROUND_SECTION
+
+# the query, tolerance, weights and candidate live in the numpy-free module: re-exported
+from inventory.bench.match_query import DIMENSIONS as DIMENSIONS
+from inventory.bench.match_query import Candidate as Candidate
+from inventory.bench.match_query import MatchQuery as MatchQuery
+from inventory.bench.match_query import MatchTolerance as MatchTolerance
+from inventory.bench.match_query import MatchWeights as MatchWeights
+from inventory.bench.match_query import kind_penalty_table, material_penalty_table
+from inventory.bench.seals import ROUND_SECTION
 from inventory.bench.sizes import StandardRings, standard_orings
 from inventory.core.model import PartKind, PartSpec, SeatSpec
-
-DIMENSIONS = ("id", "od", "height", "cs")
 
 
 @dataclass(frozen=True, eq=False)
@@ -117,114 +119,13 @@ def standard_part_arrays() -> PartArrays:
 
 # --------------------------------------------------------------------------- matching
 
-@dataclass(frozen=True, slots=True)
-class MatchQuery:
-    """What was measured (mm) and, optionally, the kind and material wanted."""
-
-    id_mm: float | None = None
-    od_mm: float | None = None
-    height_mm: float | None = None
-    cs_mm: float | None = None
-    kind: PartKind | None = None
-    material: str | None = None
-
-    def dims(self) -> dict[str, float]:
-        return {d: getattr(self, f"{d}_mm") for d in DIMENSIONS
-                if getattr(self, f"{d}_mm") is not None}
-
-
-@dataclass(frozen=True, slots=True)
-class MatchTolerance:
-    """Tolerance per measured dimension: ``abs_mm + rel * value``.
-
-    Defaults suit a caliper reading on a used seal (common practice): a caliper reads to
-    about +/-0.02-0.03 mm (REFERENCE.md 3), soft rubber gives under the jaws by a few
-    hundredths to a tenth, and a used seal is worn, set or swollen by the oil by one or two
-    per cent of its size. 0.15 mm + 1.5 % gives +/-0.20 mm on a 3.5 mm cross-section and
-    +/-0.52 mm on a 25 mm inside diameter: wide enough to find the part, narrow enough to
-    separate the neighbouring AS568 sizes (1/16 in apart).
-    """
-
-    abs_mm: float = 0.15
-    rel: float = 0.015
-
-    def for_value(self, value_mm: float) -> float:
-        return self.abs_mm + self.rel * abs(value_mm)
-
-
-@dataclass(frozen=True, slots=True)
-class MatchWeights:
-    """Score parts that are not dimensions (in units of 'one tolerance off')."""
-
-    #: A measured dimension the candidate does not record.
-    missing_dimension: float = 3.0
-    #: Candidate of another kind than asked for.
-    kind_mismatch: float = 5.0
-    #: Candidate of a related kind (X-ring for O-ring, scraper for wiper).
-    kind_related: float = 1.0
-    #: Candidate of another polymer family than asked for.
-    material_mismatch: float = 2.0
-    #: Same family, other grade (NBR for HNBR, EU for AU).
-    material_family: float = 0.5
-    #: Candidate's material not recorded or unknown.
-    material_unknown: float = 1.0
-
-
-_RELATED = (
-    frozenset({PartKind.O_RING, PartKind.X_RING}),
-    frozenset({PartKind.DUST_WIPER, PartKind.SCRAPER_SEAL}),
-)
-
-
-@dataclass(frozen=True, slots=True)
-class Candidate:
-    """One ranked candidate with its score broken into named parts."""
-
-    index: int
-    code: str
-    source: str
-    kind: str
-    id_mm: float | None
-    od_mm: float | None
-    height_mm: float | None
-    cs_mm: float | None
-    score: float
-    parts: dict[str, float]
-    driver: str | None  # the measured dimension with the largest part
-    verdict: str | None = None  # when a seat was given
-
-    def to_dict(self) -> dict:
-        d = {"source": self.source, "kind": self.kind, "id_mm": self.id_mm,
-             "od_mm": self.od_mm, "height_mm": self.height_mm, "cs_mm": self.cs_mm,
-             "score": self.score, "parts": self.parts, "driver": self.driver}
-        d["designation" if self.source == "standard" else "part"] = self.code
-        if self.verdict is not None:
-            d["verdict"] = self.verdict
-        return d
-
-
 def _kind_penalties(kind: PartKind, weights: MatchWeights) -> np.ndarray:
-    table = np.full(len(KINDS), weights.kind_mismatch)
-    for group in _RELATED:
-        if kind in group:
-            for k in group:
-                table[KIND_CODE[k]] = weights.kind_related
-    table[KIND_CODE[PartKind(kind)]] = 0.0
-    return table
+    return np.asarray(kind_penalty_table(kind, weights), dtype=float)
 
 
 def _material_penalties(material: str, weights: MatchWeights) -> np.ndarray:
     """Penalty per material code; slots UNKNOWN_MATERIAL and NO_MATERIAL (-1) at the end."""
-    wanted = material_code(material)
-    table = np.full(len(MATERIAL_CODES) + 2, weights.material_mismatch)
-    table[UNKNOWN_MATERIAL] = table[NO_MATERIAL] = weights.material_unknown
-    if wanted >= 0 and wanted != UNKNOWN_MATERIAL:
-        family = MATERIALS[MATERIAL_CODES[wanted]].family
-        for i, code in enumerate(MATERIAL_CODES):
-            if MATERIALS[code].family == family:
-                table[i] = weights.material_family
-        table[wanted] = 0.0
-    return table
+    return np.asarray(material_penalty_table(material, weights), dtype=float)
 
 
 def _score_columns(query: MatchQuery, cols: PartColumns, tolerance: MatchTolerance,

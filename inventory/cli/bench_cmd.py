@@ -10,17 +10,18 @@ from __future__ import annotations
 
 import math
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import typer
 from rich.table import Table
 
-from inventory.bench import service as svc
-from inventory.bench.fit import CAUTION, FitResult, FitRules
-from inventory.bench.matching import MatchQuery
 from inventory.cli.common import console, print_json, print_table, reading, say
 from inventory.core.errors import InventoryError
-from inventory.core.model import PartKind
 from inventory.core.units import format_length
+
+if TYPE_CHECKING:  # the bench loads numpy: imported by the commands that need it
+    from inventory.bench import service as svc
+    from inventory.bench.fit import FitResult
 
 parts_app = typer.Typer(help="Look parts up in the shop's catalog.", no_args_is_help=True)
 
@@ -40,6 +41,8 @@ def _len(mm: float | None, unit: str) -> str:
 
 def _say_caution() -> None:
     """The caution as one line, never wrapped (the last line of every match and fit)."""
+    from inventory.bench.match_query import CAUTION
+
     console.print(CAUTION, highlight=False, markup=False, soft_wrap=True)
 
 
@@ -210,6 +213,11 @@ def match(ctx: typer.Context,
           as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
     """Rank the shop's parts and the standard sizes against caliper readings; with --fork
     and --seat, give each a fit verdict (no dimensions: every part that fits the seat)."""
+    from inventory.bench import service as svc
+    from inventory.bench.fit import FitRules
+    from inventory.bench.matching import MatchQuery
+    from inventory.core.model import PartKind
+
     unit = _unit(unit)
     if limit is not None and limit < 1:
         raise InventoryError(f"--limit must be 1 or more, got {limit}")
@@ -293,6 +301,9 @@ def fit_command(ctx: typer.Context,
                 as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
     """Will PART work in a seat? With --fork and --seat: every check with its numbers and
     source. Alone (or with --fork only): every seat where it fits."""
+    from inventory.bench import service as svc
+    from inventory.bench.fit import CAUTION, FitResult, FitRules
+
     rules = svc.hardness_rules(FitRules(), hardness_tol)
     ref = svc.check_hardness(hardness)
     with reading(ctx) as s:
@@ -327,6 +338,7 @@ def compat(ctx: typer.Context,
            as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
     """Every seat of every fork family against every part of a kind that goes there,
     computed by the fit rules: a table, --json, or a workbook (--xlsx)."""
+    from inventory.bench import service as svc
     from inventory.bench.compat import sheet_title
 
     with reading(ctx) as s:
@@ -360,6 +372,8 @@ def parts_find(ctx: typer.Context,
                unit: str = typer.Option("mm", "--unit", help="mm or in."),
                as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
     """Fuzzy search over part codes, descriptions and dimensions."""
+    from inventory.bench import service as svc
+
     unit = _unit(unit)
     query = " ".join(text)
     with reading(ctx) as s:  # stock is read per hit shown, inside the read

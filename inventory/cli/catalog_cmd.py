@@ -6,8 +6,8 @@ from pathlib import Path
 
 import typer
 
-from inventory.catalog import service
 from inventory.cli.common import print_json, reading, say, unit_of_work
+from inventory.core.names import CATALOG_TABLES
 
 app = typer.Typer(help="Load and export the catalog (csv folder or xlsx workbook).",
                   no_args_is_help=True)
@@ -16,9 +16,11 @@ app = typer.Typer(help="Load and export the catalog (csv folder or xlsx workbook
 @app.command()
 def load(ctx: typer.Context,
          path: Path = typer.Argument(..., help=f"Folder of csv files or a workbook with sheets "
-                                               f"{', '.join(service.TABLES)}."),
+                                               f"{', '.join(CATALOG_TABLES)}."),
          as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table.")) -> None:
     """Validate the whole catalog, then write it in one transaction (or write nothing)."""
+    from inventory.catalog import service
+
     with unit_of_work(ctx) as s:
         report = service.load(s, path)
     if as_json:
@@ -32,6 +34,8 @@ def load(ctx: typer.Context,
 def export(ctx: typer.Context,
            target: Path = typer.Argument(..., help="A folder (csv files) or a FILE.xlsx.")) -> None:
     """Write the catalog out in the same layout `catalog load` reads."""
+    from inventory.catalog import service
+
     with reading(ctx) as s:
         paths = service.export(s, target)
     for p in paths:

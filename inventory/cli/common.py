@@ -12,17 +12,20 @@ from dataclasses import dataclass
 from datetime import date, datetime
 from decimal import Decimal
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import typer
 from rich.console import Console
 from rich.table import Table
-from sqlalchemy.engine import Engine, make_url
-from sqlmodel import Session
 
-from inventory.core import build_mark, migrate
-from inventory.core.db import make_engine, read_transaction, resolve_url, transaction
 from inventory.core.errors import InventoryError
+from inventory.core.sqlread import resolve_url
+
+if TYPE_CHECKING:  # the database libraries load when a command opens the database
+    from sqlalchemy.engine import Engine
+    from sqlmodel import Session
+
+    from inventory.core.sqlread import Reader
 
 console = Console()
 err_console = Console(stderr=True)
@@ -46,28 +49,42 @@ def state(ctx: typer.Context) -> AppState:
     return obj
 
 
+def _require_file(st: AppState) -> None:
+    """A SQLite database named by ``--db`` must exist before a command reads or writes it."""
+    from inventory.core.sqlread import sqlite_path
+
+    path = sqlite_path(st.url)
+    if path not in (None, "", ":memory:") and not Path(path).exists():
+        raise InventoryError(
+            f"no database file {path}",
+            hint=f"run `inventory{' --db ' + st.db if st.db else ''} init` to create it, "
+                 "or `inventory demo` to build the demo shop",
+        )
+
+
+def _demo_hint(st: AppState) -> str:
+    return f"run `inventory demo --db {st.db or st.url} --replace` to build it again"
+
+
 def engine(ctx: typer.Context, *, check_schema: bool = True) -> Engine:
+    from inventory.core import build_mark, migrate
+    from inventory.core.db import make_engine
+
     st = state(ctx)
-    url = make_url(st.url)
-    if check_schema and url.get_backend_name() == "sqlite" and url.database not in (None, "", ":memory:"):
-        if not Path(url.database).exists():
-            raise InventoryError(
-                f"no database file {url.database}",
-                hint=f"run `inventory{' --db ' + st.db if st.db else ''} init` to create it, "
-                     "or `inventory demo` to build the demo shop",
-            )
+    if check_schema:
+        _require_file(st)
     eng = make_engine(st.url)
     if check_schema:
         migrate.require_current(eng, st.db)
-        build_mark.require_finished(
-            eng, "demo", f"run `inventory demo --db {st.db or st.url} --replace` to build "
-            "it again")
+        build_mark.require_finished(eng, "demo", _demo_hint(st))
     return eng
 
 
 @contextmanager
 def unit_of_work(ctx: typer.Context) -> Iterator[Session]:
     """A transaction on the configured database: all of it is written, or none."""
+    from inventory.core.db import transaction
+
     with transaction(engine(ctx)) as session:
         yield session
 
@@ -76,8 +93,25 @@ def unit_of_work(ctx: typer.Context) -> Iterator[Session]:
 def reading(ctx: typer.Context) -> Iterator[Session]:
     """A read-only unit of work (:func:`inventory.core.db.read_transaction`): reports and
     lookups never take SQLite's write lock, so they do not hold up a booking."""
+    from inventory.core.db import read_transaction
+
     with read_transaction(engine(ctx)) as session:
         yield session
+
+
+@contextmanager
+def plain_reading(ctx: typer.Context) -> Iterator[Reader]:
+    """A read of the configured database by plain SQL (:mod:`inventory.core.sqlread`: on
+    SQLite the standard library's driver, read-only, without SQLAlchemy), after the same
+    schema and demo-build checks as :func:`reading`."""
+    from inventory.core.sqlread import open_reader
+
+    st = state(ctx)
+    _require_file(st)
+    with open_reader(st.url) as reader:
+        reader.require_current(st.db)
+        reader.require_finished("demo", _demo_hint(st))
+        yield reader
 
 
 def _default(o: Any) -> Any:

@@ -10,8 +10,8 @@ import typer
 
 from inventory.cli.common import console, print_json, print_table, reading, unit_of_work
 from inventory.core.errors import InventoryError, Problem
-from inventory.history import service
-from inventory.history.service import KINDS, TABLES
+from inventory.core.names import EXPORT_TABLES as TABLES
+from inventory.core.names import IMPORT_KINDS as KINDS
 
 if TYPE_CHECKING:
     from inventory.history.imports import ImportReport
@@ -73,6 +73,8 @@ def import_file(
 
     Re-importing rows already applied changes nothing.
     """
+    from inventory.history import service
+
     if kind not in KINDS:
         raise InventoryError(f"unknown import kind {kind!r}", hint=f"use one of {', '.join(KINDS)}")
     order = None
@@ -154,6 +156,8 @@ def export(ctx: typer.Context,
            csv: Path = typer.Option(None, "--csv", help="Write a csv file (UTF-8)."),
            ) -> None:
     """Export a table to xlsx or csv (jobs in the layout `import history` reads)."""
+    from inventory.history import service
+
     if (xlsx is None) == (csv is None):
         raise InventoryError("give exactly one of --xlsx FILE or --csv FILE")
     with reading(ctx) as s:
@@ -166,6 +170,8 @@ def template(ctx: typer.Context,
              xlsx: Path = typer.Option(..., "--xlsx", help="The workbook to write."),
              ) -> None:
     """Write an empty import template with drop-down lists and an example row."""
+    from inventory.history import service
+
     with reading(ctx) as s:
         path = service.write_template(s, kind, xlsx)
     say(f"wrote {path}: fill in the {kind!r} sheet (the 'example' sheet shows one row), then "

@@ -9,7 +9,6 @@ import typer
 from inventory.cli import options
 from inventory.cli.common import console, print_json, print_table, reading, unit_of_work
 from inventory.core.errors import InventoryError
-from inventory.history import service as history
 
 app = typer.Typer(help="Record service jobs (stock is taken through the ledger) and look "
                        "them up.", no_args_is_help=True)
@@ -58,6 +57,8 @@ def add(ctx: typer.Context,
         ) -> None:
     """Record a job and take its kits and parts from stock (oldest cure first), all or
     nothing. A kit not on hand is built from loose parts through its bill of materials."""
+    from inventory.history import service as history
+
     d = parse_day(day)
     ref = options.code(ref, "--ref", "job ref")
     fork_ref = options.code(fork_ref, "--fork-ref", "job ref")
@@ -94,6 +95,8 @@ def list_(ctx: typer.Context,
           as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
           ) -> None:
     """Jobs, newest first, with what each used."""
+    from inventory.history import service as history
+
     start = parse_day(since, "--from", today=date.max) if since else None
     end = parse_day(until, "--to", today=date.max) if until else None
     with reading(ctx) as s:
@@ -112,6 +115,8 @@ def show(ctx: typer.Context,
          ref: str = typer.Argument(..., help="Job reference."),
          as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table.")) -> None:
     """One job: what it used and the lots its parts came from."""
+    from inventory.history import service as history
+
     with reading(ctx) as s:
         row, moves = history.job_detail(s, ref)
     if as_json:

@@ -9,7 +9,6 @@ import typer
 
 from inventory.cli.common import print_json, print_table, reading, say, unit_of_work
 from inventory.core.errors import InventoryError
-from inventory.people import service as people
 
 app = typer.Typer(help="People who sign in to the web app: add, list, disable.",
                   no_args_is_help=True)
@@ -38,6 +37,8 @@ def add(ctx: typer.Context,
                                                  "(one line) instead of asking."),
         ) -> None:
     """Add a person who can sign in; the password is asked without echo."""
+    from inventory.people import service as people
+
     people.check_name(name)
     people.check_role(role)
     password = people.check_password(_read_password(password_stdin))
@@ -50,6 +51,8 @@ def add(ctx: typer.Context,
 def list_(ctx: typer.Context,
           as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
     """Everyone who can (or could) sign in, with their role."""
+    from inventory.people import service as people
+
     with reading(ctx) as s:
         rows = people.list_people(s)
     if as_json:
@@ -64,6 +67,8 @@ def list_(ctx: typer.Context,
 def disable(ctx: typer.Context,
             name: str = typer.Argument(..., help="Sign-in name.")) -> None:
     """Stop a person signing in (their bookings stay in the ledger under their name)."""
+    from inventory.people import service as people
+
     with unit_of_work(ctx) as s:
         p = people.disable_person(s, name)
     say(f"disabled {p.name}")

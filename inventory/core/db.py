@@ -20,9 +20,9 @@ from __future__ import annotations
 
 import errno
 import functools
-import os
 import random
 import re
+import sqlite3
 import time
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
@@ -36,45 +36,19 @@ from sqlmodel import Session, create_engine
 
 from inventory.core.errors import InventoryError
 
-DEFAULT_URL = "sqlite:///inventory.db"
-ENV_VAR = "INVENTORY_DB"
-#: Seconds a write waits for another writer before giving up (both databases).
-DEFAULT_LOCK_TIMEOUT = 5.0
-LOCK_TIMEOUT_VAR = "INVENTORY_LOCK_TIMEOUT"
+# the URL and the lock timeout are read without SQLAlchemy (the plain reader needs them too)
+from inventory.core.sqlread import DEFAULT_LOCK_TIMEOUT as DEFAULT_LOCK_TIMEOUT
+from inventory.core.sqlread import DEFAULT_URL as DEFAULT_URL
+from inventory.core.sqlread import ENV_VAR as ENV_VAR
+from inventory.core.sqlread import LOCK_TIMEOUT_VAR as LOCK_TIMEOUT_VAR
+from inventory.core.sqlread import lock_timeout as lock_timeout
+from inventory.core.sqlread import resolve_url as resolve_url
+
 #: Attempts of one unit of work when PostgreSQL picks it as a deadlock victim or reports a
 #: serialisation failure.
 DEFAULT_ATTEMPTS = 4
 BUSY_MESSAGE = "another booking is in progress"
 BUSY_HINT = "try again in a moment"
-
-
-def lock_timeout(value: float | str | None = None) -> float:
-    """Seconds to wait for a lock: ``value``, else ``$INVENTORY_LOCK_TIMEOUT``, else the
-    default; a positive finite number of at most an hour."""
-    raw = value if value is not None else os.environ.get(LOCK_TIMEOUT_VAR)
-    if raw is None or raw == "":
-        return DEFAULT_LOCK_TIMEOUT
-    try:
-        seconds = float(raw)
-    except (TypeError, ValueError):
-        seconds = float("nan")
-    if not (0 < seconds <= 3600):  # also refuses nan
-        raise InventoryError(f"bad {LOCK_TIMEOUT_VAR} {raw!r}: expected seconds between 0 "
-                             "and 3600, e.g. 5")
-    return seconds
-
-
-def resolve_url(url: str | None = None) -> str:
-    """The database URL: the argument, else ``$INVENTORY_DB``, else ``inventory.db`` here.
-
-    A bare path (``demo.db``) is taken as a SQLite file; ``postgresql://`` URLs use psycopg 3.
-    """
-    url = url or os.environ.get(ENV_VAR) or DEFAULT_URL
-    if "://" not in url:
-        url = f"sqlite:///{url}"
-    if url.startswith("postgresql://") or url.startswith("postgres://"):
-        url = "postgresql+psycopg://" + url.split("://", 1)[1]
-    return url
 
 
 def _sqlite_pragmas(dbapi_conn, _record, *, busy_ms: int = int(DEFAULT_LOCK_TIMEOUT * 1000)) -> None:
@@ -163,6 +137,15 @@ def transaction(engine: Engine) -> Iterator[Session]:
             raise
 
 
+def read_only(engine: Engine) -> Engine:
+    """``engine`` for reads only: SQLite ``BEGIN DEFERRED``, PostgreSQL ``REPEATABLE READ
+    READ ONLY``."""
+    if engine.dialect.name == "postgresql":
+        return engine.execution_options(**{READ_ONLY: True}, isolation_level="REPEATABLE READ",
+                                        postgresql_readonly=True)
+    return engine.execution_options(**{READ_ONLY: True})
+
+
 @contextmanager
 def read_transaction(engine: Engine) -> Iterator[Session]:
     """A read-only unit of work for reports and lookups: it never takes the write lock, so a
@@ -171,12 +154,7 @@ def read_transaction(engine: Engine) -> Iterator[Session]:
     SQLite: ``BEGIN DEFERRED`` (WAL: a consistent snapshot from the first read, writers go
     on). PostgreSQL: ``REPEATABLE READ READ ONLY`` (one snapshot for the whole report, and a
     write by mistake is refused). It always ends with a rollback: nothing is written."""
-    if engine.dialect.name == "postgresql":
-        bound = engine.execution_options(**{READ_ONLY: True}, isolation_level="REPEATABLE READ",
-                                         postgresql_readonly=True)
-    else:
-        bound = engine.execution_options(**{READ_ONLY: True})
-    with Session(bound, expire_on_commit=False) as session:
+    with Session(read_only(engine), expire_on_commit=False) as session:
         try:
             yield session
         finally:
@@ -265,7 +243,9 @@ def _retryable(exc: BaseException) -> bool:
 def _where(url) -> str:
     """The database as a person knows it: the SQLite file, or host/database."""
     if url is None:
-        url = _last_url
+        from inventory.core import sqlread
+
+        url = _last_url or sqlread.last_url
     if url is None:
         return "the database"
     parsed = make_url(str(url)) if not hasattr(url, "get_backend_name") else url
@@ -298,6 +278,9 @@ def explain(exc: BaseException, url=None) -> InventoryError | None:
     if isinstance(exc, InventoryError):
         return exc
     where = _where(url)
+    if isinstance(exc, sqlite3.Error) and not isinstance(exc, sa_exc.DBAPIError):
+        # the plain reader (inventory.core.sqlread) uses the driver without SQLAlchemy
+        exc = sa_exc.DBAPIError(None, None, exc)
     if isinstance(exc, sa_exc.DBAPIError):
         orig = exc.orig
         text = str(orig)

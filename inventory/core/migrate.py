@@ -11,14 +11,11 @@ from __future__ import annotations
 from importlib import resources
 from typing import TYPE_CHECKING
 
-from sqlalchemy import text
-from sqlalchemy.engine import Engine
-from sqlalchemy.exc import DBAPIError
-
 from inventory.core.errors import InventoryError
 
-if TYPE_CHECKING:
+if TYPE_CHECKING:  # SQLAlchemy loads with the engine; the plain reader needs none of it
     from alembic.config import Config
+    from sqlalchemy.engine import Engine
 
 #: The newest revision in ``migrations/versions`` (tests/test_migrations.py checks it).
 HEAD_REVISION = "0005"
@@ -45,7 +42,8 @@ def head_revision(engine: Engine) -> str:
 
 def current_revision(engine: Engine) -> str | None:
     """The revision recorded in the database (None for a database without the schema)."""
-    from sqlalchemy import inspect
+    from sqlalchemy import inspect, text
+    from sqlalchemy.exc import DBAPIError
 
     with engine.connect() as conn:
         if not inspect(conn).has_table(VERSION_TABLE):
@@ -77,18 +75,27 @@ def downgrade(engine: Engine, revision: str) -> None:
 
 def require_current(engine: Engine, url_for_hint: str | None = None) -> None:
     """Raise unless the database is at the head revision."""
-    current = current_revision(engine)
+    problem = schema_problem(current_revision(engine),
+                             engine.url.render_as_string(hide_password=True), url_for_hint)
+    if problem is not None:
+        raise problem
+
+
+def schema_problem(current: str | None, shown_url: str,
+                   url_for_hint: str | None = None) -> InventoryError | None:
+    """The refusal for a database whose recorded revision is ``current`` (None: no schema),
+    or None when it is the head revision (also used by :mod:`inventory.core.sqlread`)."""
     head = HEAD_REVISION
     if current == head:
-        return
+        return None
     db = f" --db {url_for_hint}" if url_for_hint else ""
     if current is None:
-        raise InventoryError(
-            f"database {engine.url.render_as_string(hide_password=True)} has no inventory schema",
+        return InventoryError(
+            f"database {shown_url} has no inventory schema",
             kind="schema",
             hint=f"run `inventory{db} init` to create it, or `inventory demo` for the demo shop",
         )
-    raise InventoryError(
+    return InventoryError(
         f"database schema is at revision {current}, this version of the tool needs {head}",
         kind="schema",
         hint=f"run `inventory{db} init` to upgrade it",
