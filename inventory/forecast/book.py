@@ -17,7 +17,7 @@ from openpyxl import Workbook
 from openpyxl.chart import LineChart, Reference
 from openpyxl.styles import Font
 
-from inventory.forecast.service import ForecastReport, SeriesForecast
+from inventory.forecast.report import ForecastReport, SeriesForecast
 from inventory.sheets.write import SheetSpec, fill_sheet, put_cell, save_workbook
 
 CHART_HISTORY = 24  # periods of history shown in a chart

@@ -11,7 +11,7 @@ import re
 from collections.abc import Sequence
 from pathlib import Path
 
-from inventory.forecast.service import ForecastReport, SeriesForecast
+from inventory.forecast.report import ForecastReport, SeriesForecast
 
 HISTORY = 24  # periods of history shown
 
