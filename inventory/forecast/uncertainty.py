@@ -111,16 +111,25 @@ def _fit_law(d: FloatArray, mu: FloatArray, a_bounds: tuple[float, float],
     return float(np.exp(res.x[0])), float(res.x[1])
 
 
+@dataclass(frozen=True)
+class LawOptions:
+    """How the variance law is fitted: per SBC class (``by="class"``) where a class has at
+    least ``min_pairs`` (forecast, demand) pairs, else pooled; at most ``max_pairs`` pairs a
+    class fit and ``max_pooled_pairs`` for the pooled fallback (a seeded random draw)."""
+
+    min_pairs: int = 500
+    max_pairs: int = 50_000
+    max_pooled_pairs: int = 5_000
+    by: Literal["class", "pooled"] = "class"
+
+
 def fit_distribution(
     y: ArrayLike,
     result: ForecastResult,
     *,
     cover: float = 2.0,
     hold: int = 1,
-    min_pairs: int = 500,
-    max_pairs: int = 50_000,
-    max_pooled_pairs: int = 5_000,
-    by: Literal["class", "pooled"] = "class",
+    law: LawOptions = LawOptions(),
     scale_groups: ArrayLike | None = None,
 ) -> DistributionFit:
     """Negative binomial demand per period for the next ``cover`` periods (lead time plus
@@ -131,13 +140,16 @@ def fit_distribution(
     how long a level stays in force; 1 when the planner re-plans every review, the horizon in
     a one-origin backtest). Only series that had sold before the origin count; the others
     give the cold-start rate and variance-to-mean ratio, used for series that never sold.
-    ``by="class"`` fits the law per SBC class with at least ``min_pairs`` pairs and pools the
-    rest; a class fit uses at most ``max_pairs`` pairs and the pooled fallback (needed only
-    for small classes) at most ``max_pooled_pairs``, drawn at random with a fixed seed.
+    ``law`` (:class:`LawOptions`): ``by="class"`` fits the law per SBC class with at least
+    ``min_pairs`` pairs and pools the rest; a class fit uses at most ``max_pairs`` pairs and
+    the pooled fallback (needed only for small classes) at most ``max_pooled_pairs``, drawn
+    at random with a fixed seed.
     ``scale_groups`` (one label per series, e.g. the unit: each or ml) keeps series measured
     on different scales out of each other's law: the law is fitted per group and class, and
     the pooled fallback per group, so millilitres of oil do not set the spread of kits.
     """
+    min_pairs, max_pairs, max_pooled_pairs, by = (law.min_pairs, law.max_pairs,
+                                                  law.max_pooled_pairs, law.by)
     v, obs = sm.prepare(y)
     n, t_len = v.shape
     k = max(int(round(cover)), 1)
@@ -200,12 +212,13 @@ def fit_distribution(
     cold_vmr = float(cd.var() / cd.mean()) if cd.size and cd.mean() > 0 else 1.0
 
     m = result.mean(k).mean(axis=1)
-    def law(table: dict[str, float], i: int) -> float:
+
+    def law_of(table: dict[str, float], i: int) -> float:
         prefix = "" if len(groups) == 1 else f"{scale[i]}:"
         return table.get(prefix + labels[i], table.get(prefix + "pooled", 1.0))
 
-    a_s = np.array([law(a, i) for i in range(n)])
-    b_s = np.array([law(b, i) for i in range(n)])
+    a_s = np.array([law_of(a, i) for i in range(n)])
+    b_s = np.array([law_of(b, i) for i in range(n)])
     # the law gives each part its variance-to-mean ratio at the cover horizon; the part keeps
     # that ratio at every horizon (compound-Poisson scaling, see distributions.py)
     vmr = a_s * np.power(np.maximum(k * m, 1e-12), b_s - 1.0)
