@@ -66,7 +66,7 @@ def build(path: Path, n: int) -> None:
     step = max(1, n // STOCKED)
     with transaction(engine) as s:
         for p in parts[::step][:STOCKED]:
-            ledger.receive(s, p.code, 5, "0.30", cured="2025Q1", received=date(2025, 6, 1))
+            ledger.receive(s, ledger.Receipt(p.code, 5, "0.30", cured="2025Q1", received=date(2025, 6, 1)))
     engine.dispose()
 
 

@@ -59,7 +59,7 @@ def setup(url: str, parts: int, folder: Path) -> list[str]:
     with transaction(engine) as s:
         load_catalog(s, write_catalog(folder / "cat", files))
         for c in codes:
-            ledger.receive(s, c, 500, "0.40", lot="STANDING", user="bench")
+            ledger.receive(s, ledger.Receipt(c, 500, "0.40", lot="STANDING", user="bench"))
     engine.dispose()
     return codes
 
@@ -82,12 +82,12 @@ def writer(url, codes, seconds, seed, barrier, results) -> None:
         try:
             with transaction(engine) as s:
                 if k < 0.1:
-                    got = ledger.count(s, code, rng.randint(20, 60))
+                    got = ledger.count(s, ledger.Count(code, rng.randint(20, 60)))
                 elif k < 0.55:
-                    got = [ledger.receive(s, code, rng.randint(1, 3), lot="STANDING",
-                                          user="bench")]
+                    got = [ledger.receive(s, ledger.Receipt(code, rng.randint(1, 3), lot="STANDING",
+                                          user="bench"))]
                 else:
-                    got = ledger.issue(s, code, rng.randint(1, 3), user="bench")
+                    got = ledger.issue(s, ledger.Issue(code, rng.randint(1, 3), user="bench"))
             moves += len(got)
             tx += 1
         except Exception as exc:  # noqa: BLE001 - counted by kind

@@ -100,10 +100,10 @@ def shop(tmp_path_factory) -> str:
     migrate.upgrade(engine)
     with transaction(engine) as s:
         load_catalog(s, folder / "cat")
-        ledger.receive(s, "OR-214-NBR", 10, "0.25", lot="OLD", cured="2001Q1")
-        ledger.receive(s, "OR-214-NBR", 5, "0.25", lot="NEW", cured=RECENT, location="BENCH")
-        ledger.receive(s, "OR-214-EPDM", 4, "0.30", lot="E1", cured=RECENT)
-        ledger.receive(s, "DW-32-42", 2, "6.50", lot="W1", cured=RECENT)
+        ledger.receive(s, ledger.Receipt("OR-214-NBR", 10, "0.25", lot="OLD", cured="2001Q1"))
+        ledger.receive(s, ledger.Receipt("OR-214-NBR", 5, "0.25", lot="NEW", cured=RECENT, location="BENCH"))
+        ledger.receive(s, ledger.Receipt("OR-214-EPDM", 4, "0.30", lot="E1", cured=RECENT))
+        ledger.receive(s, ledger.Receipt("DW-32-42", 2, "6.50", lot="W1", cured=RECENT))
     engine.dispose()
     yield db
     dispose_all()

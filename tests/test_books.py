@@ -194,7 +194,7 @@ def test_storage_limit_skips_expired_lots_unless_inspected(shop):
 
 def test_cure_quarter_after_receipt_is_refused(store):
     with transaction(store) as s, pytest.raises(InventoryError) as info:
-        ledger.receive(s, "OR-214", 1, "0.25", cured="2027Q1", ts=noon(date(2026, 12, 1)))
+        ledger.receive(s, ledger.Receipt("OR-214", 1, "0.25", cured="2027Q1", ts=noon(date(2026, 12, 1))))
     assert str(info.value.problems[0]) == (
         "cure quarter 2027Q1 of OR-214 starts after the receipt date 2026-12-01: rubber "
         "cannot arrive before it is cured")
@@ -240,8 +240,8 @@ def test_return_void_and_reverse_give_net_usage(shop):
 
 def test_reversal_obeys_the_time_order_rule(store):
     with transaction(store) as s:
-        r = ledger.receive(s, "WP-32", 3, "6.50", lot="W", ts=noon(date(2026, 10, 1)))
-        ledger.issue(s, "WP-32", 2, reference="J", ts=noon(date(2026, 10, 5)))
+        r = ledger.receive(s, ledger.Receipt("WP-32", 3, "6.50", lot="W", ts=noon(date(2026, 10, 1))))
+        ledger.issue(s, ledger.Issue("WP-32", 2, reference="J", ts=noon(date(2026, 10, 5))))
     with transaction(store) as s, pytest.raises(InventoryError) as info:
         returns.reverse(s, r.id, reason="typo", ts=noon(date(2026, 10, 3)))
     assert str(info.value.problems[0]) == (
@@ -254,7 +254,7 @@ def test_reversal_obeys_the_time_order_rule(store):
 
 def test_history_before_the_ledger_records_usage_only(store, tmp_path):
     with transaction(store) as s:
-        ledger.receive(s, "WP-32", 8, "6.50", lot="W", ts=noon(date(2026, 1, 5)))
+        ledger.receive(s, ledger.Receipt("WP-32", 8, "6.50", lot="W", ts=noon(date(2026, 1, 5))))
     path = book(tmp_path / "h.xlsx", [
         HISTORY_HEADER,
         ["OLD-1", "2019-05-02", "XC-32", "lower_leg", 40, "F-1", "WP-32", 1],
@@ -303,11 +303,11 @@ def test_random_back_dated_sequences_keep_every_day_non_negative(store, ops):
             try:
                 with transaction(store) as s:
                     if kind == "receive":
-                        ledger.receive(s, "OR-214", qty, "0.25", ts=noon(day))
+                        ledger.receive(s, ledger.Receipt("OR-214", qty, "0.25", ts=noon(day)))
                     elif kind == "issue":
-                        ledger.issue(s, "OR-214", qty, reference="J", ts=noon(day))
+                        ledger.issue(s, ledger.Issue("OR-214", qty, reference="J", ts=noon(day)))
                     elif kind == "count":
-                        ledger.count(s, "OR-214", qty, ts=noon(day))
+                        ledger.count(s, ledger.Count("OR-214", qty, ts=noon(day)))
                     else:
                         label = f"{day:%Y-%m}"
                         done = close_month(s, label, today=TODAY)
@@ -372,8 +372,8 @@ def test_backup_is_consistent_while_another_writes(shop, tmp_path):
     def writer():
         while not stop.is_set():
             with transaction(engine) as s:
-                ledger.issue(s, "OIL-5", 1)
-                ledger.receive(s, "OIL-5", 1, "0.02", lot="O")
+                ledger.issue(s, ledger.Issue("OIL-5", 1))
+                ledger.receive(s, ledger.Receipt("OIL-5", 1, "0.02", lot="O"))
 
     t = threading.Thread(target=writer)
     t.start()
@@ -402,7 +402,7 @@ def test_backup_of_postgresql_names_pg_dump(pg_url, tmp_path):
 
 def test_void_and_return_refuse_closed_books_dates(store):
     with transaction(store) as s:
-        ledger.receive(s, "WP-32", 3, "6.50", lot="W", ts=noon(date(2026, 9, 1)))
+        ledger.receive(s, ledger.Receipt("WP-32", 3, "6.50", lot="W", ts=noon(date(2026, 9, 1))))
         record_job(s, ref="J-9", day=date(2026, 10, 2), fork="XC-32", service="damper",
                    items=[JobItem("WP-32", 2)])
     with transaction(store) as s:
@@ -467,10 +467,10 @@ def test_bulk_job_writer_skips_expired_lots_like_the_ledger(store):
     from inventory.history.jobs import JobSpec
 
     with transaction(store) as s:
-        ledger.receive(s, "OR-214", 2, "0.25", lot="OLD", cured="2015Q1",
-                       ts=noon(date(2024, 12, 1)))
-        ledger.receive(s, "OR-214", 2, "0.25", lot="NEW", cured="2024Q2",
-                       ts=noon(date(2024, 12, 1)))
+        ledger.receive(s, ledger.Receipt("OR-214", 2, "0.25", lot="OLD", cured="2015Q1",
+                       ts=noon(date(2024, 12, 1))))
+        ledger.receive(s, ledger.Receipt("OR-214", 2, "0.25", lot="NEW", cured="2024Q2",
+                       ts=noon(date(2024, 12, 1))))
     spec = JobSpec("B-1", date(2025, 1, 10), "XC-32", "damper", (JobItem("OR-214", 2),))
     with transaction(store) as s:
         record_jobs(s, [spec])

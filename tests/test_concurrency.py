@@ -72,18 +72,18 @@ def test_a_manual_code_never_blocks_later_automatic_ones(store):
     day = date(2026, 12, 4)
     ts = datetime(2026, 12, 4, 12, tzinfo=UTC)
     with transaction(store) as s:
-        ledger.receive(s, "OR-214", 1, "0.25", received=day, ts=ts)  # 20261204-1
-        ledger.receive(s, "OR-214", 1, "0.25", lot="20261204-2", received=day, ts=ts)
-        ledger.receive(s, "OR-214", 1, "0.25", lot="20261204-9", received=day, ts=ts)
+        ledger.receive(s, ledger.Receipt("OR-214", 1, "0.25", received=day, ts=ts))  # 20261204-1
+        ledger.receive(s, ledger.Receipt("OR-214", 1, "0.25", lot="20261204-2", received=day, ts=ts))
+        ledger.receive(s, ledger.Receipt("OR-214", 1, "0.25", lot="20261204-9", received=day, ts=ts))
     codes = []
     for _ in range(3):
         with transaction(store) as s:
-            mv = ledger.receive(s, "OR-214", 1, "0.25", received=day, ts=ts)
+            mv = ledger.receive(s, ledger.Receipt("OR-214", 1, "0.25", received=day, ts=ts))
             codes.append(s.get(Lot, mv.lot_id).code)
     assert codes == ["20261204-10", "20261204-11", "20261204-12"]
     # another part's codes are its own
     with transaction(store) as s:
-        mv = ledger.receive(s, "WP-32", 1, "6.50", received=day, ts=ts)
+        mv = ledger.receive(s, ledger.Receipt("WP-32", 1, "6.50", received=day, ts=ts))
         assert s.get(Lot, mv.lot_id).code == "20261204-1"
 
 
@@ -95,8 +95,8 @@ def _receive_worker(url, i, barrier, results):
         for _ in range(3):
             try:
                 with transaction(engine) as s:
-                    mv = ledger.receive(s, "OR-214", 1, "0.25", received=date(2026, 12, 4),
-                                        ts=datetime(2026, 12, 4, 12, tzinfo=UTC))
+                    mv = ledger.receive(s, ledger.Receipt("OR-214", 1, "0.25", received=date(2026, 12, 4),
+                                        ts=datetime(2026, 12, 4, 12, tzinfo=UTC)))
                     code = s.get(Lot, mv.lot_id).code
                 got.append(("ok", code))
             except Exception as exc:  # noqa: BLE001 - reported to the parent
@@ -136,7 +136,7 @@ def _order_worker(url, ref, barrier, results):
     barrier.wait()
     try:
         with transaction(engine) as s:
-            r = receive_against_order(s, ref, "OR-214", 2, tolerance=0.0)
+            r = receive_against_order(s, ref, ledger.Receipt("OR-214", 2), tolerance=0.0)
         results.put(("ok", r.movement.qty, r.received, r.status == "closed"))
     except Exception as exc:  # noqa: BLE001
         results.put((*_refusal(exc), None, None))
@@ -228,10 +228,10 @@ def test_plan_json_and_workbook_are_one_plan_an_edited_workbook_another(store, t
     from inventory.ordering.workbook import read_plan_file, write_plan_workbook
 
     with transaction(store) as s:
-        ledger.receive(s, "OR-214", 2, "0.25", ts=datetime(2026, 1, 5, tzinfo=UTC))
+        ledger.receive(s, ledger.Receipt("OR-214", 2, "0.25", ts=datetime(2026, 1, 5, tzinfo=UTC)))
         for m in range(1, 12):
-            ledger.receive(s, "WP-32", 6, "6.50", ts=datetime(2026, m, 2, tzinfo=UTC))
-            ledger.issue(s, "WP-32", 6, ts=datetime(2026, m, 20, tzinfo=UTC))
+            ledger.receive(s, ledger.Receipt("WP-32", 6, "6.50", ts=datetime(2026, m, 2, tzinfo=UTC)))
+            ledger.issue(s, ledger.Issue("WP-32", 6, ts=datetime(2026, m, 20, tzinfo=UTC)))
     with Session(store) as s:
         plan = make_plan(s, as_of=date(2026, 12, 4), fill_rate=0.95)
     assert plan.orders, "the plan must order something for this test to mean anything"
@@ -276,7 +276,7 @@ def _hold_lock(url: str, seconds: float, ready, done) -> None:
     """Hold a write lock on the part's stock for ``seconds``."""
     engine = make_engine(url, fresh=True)
     with transaction(engine) as s:
-        ledger.issue(s, "OR-214", 1)
+        ledger.issue(s, ledger.Issue("OR-214", 1))
         ready.set()
         done.wait(seconds)
     engine.dispose()
@@ -285,7 +285,7 @@ def _hold_lock(url: str, seconds: float, ready, done) -> None:
 def test_a_write_waiting_on_a_lock_gives_up_with_one_line(store, db_url, monkeypatch):
     """Issue 12: a write waiting on a locked row hung for more than 70 s with no output."""
     with transaction(store) as s:
-        ledger.receive(s, "OR-214", 10, "0.25")
+        ledger.receive(s, ledger.Receipt("OR-214", 10, "0.25"))
     store.dispose()
     ready, done = FORK.Event(), FORK.Event()
     holder = FORK.Process(target=_hold_lock, args=(db_url, 30, ready, done))
@@ -295,7 +295,7 @@ def test_a_write_waiting_on_a_lock_gives_up_with_one_line(store, db_url, monkeyp
         engine = make_engine(db_url, fresh=True, timeout=1.0)
         t0 = time.monotonic()
         with pytest.raises(Exception) as err, transaction(engine) as s:
-            ledger.issue(s, "OR-214", 1)
+            ledger.issue(s, ledger.Issue("OR-214", 1))
         waited = time.monotonic() - t0
         engine.dispose()
     finally:
@@ -337,12 +337,12 @@ def _count_issue_worker(url, seed, barrier, results):
             try:
                 with transaction(engine) as s:
                     if op == "count":
-                        moves = ledger.count(s, "OR-214", rng.randint(20, 60))
+                        moves = ledger.count(s, ledger.Count("OR-214", rng.randint(20, 60)))
                     elif op == "issue":
-                        moves = ledger.issue(s, "OR-214", rng.randint(1, 3))
+                        moves = ledger.issue(s, ledger.Issue("OR-214", rng.randint(1, 3)))
                     else:
-                        moves = [ledger.receive(s, "OR-214", rng.randint(1, 4), "0.25",
-                                                lot=rng.choice((None, "A", "B")))]
+                        moves = [ledger.receive(s, ledger.Receipt("OR-214", rng.randint(1, 4), "0.25",
+                                                lot=rng.choice((None, "A", "B"))))]
                 net += sum(m.qty for m in moves)
                 seen["ok"] += 1
             except Exception as exc:  # noqa: BLE001
@@ -362,7 +362,7 @@ def _count_issue_worker(url, seed, barrier, results):
 def test_counts_beside_issues_never_deadlock(store, db_url):
     with transaction(store) as s:
         for lot in ("A", "B"):
-            ledger.receive(s, "OR-214", 20, "0.25", lot=lot)
+            ledger.receive(s, ledger.Receipt("OR-214", 20, "0.25", lot=lot))
     n = _workers(db_url, 16, 6)
     store.dispose()
     out = _run(_count_issue_worker, lambda i: (db_url, 1000 + i), n)
@@ -399,15 +399,14 @@ def _stress_worker(url, seed, ref, seconds, barrier, results):
                 with transaction(engine) as s:
                     if op == "receive":
                         cost = "0.25" if part == "OR-214" else "6.50"
-                        moves = [ledger.receive(s, part, rng.randint(1, 5), cost,
-                                                lot=rng.choice((None, None, f"M{seed}")))]
+                        moves = [ledger.receive(s, ledger.Receipt(part, rng.randint(1, 5), cost,
+                                                lot=rng.choice((None, None, f"M{seed}"))))]
                     elif op == "issue":
-                        moves = ledger.issue(s, part, rng.randint(1, 4), reference="J-STRESS")
+                        moves = ledger.issue(s, ledger.Issue(part, rng.randint(1, 4), reference="J-STRESS"))
                     elif op == "count":
-                        moves = ledger.count(s, part, rng.randint(0, 40))
+                        moves = ledger.count(s, ledger.Count(part, rng.randint(0, 40)))
                     else:
-                        r = receive_against_order(s, ref, "OR-214", rng.randint(1, 3),
-                                                  tolerance=0.0)
+                        r = receive_against_order(s, ref, ledger.Receipt("OR-214", rng.randint(1, 3)), tolerance=0.0)
                         moves = [r.movement]
                         part = "OR-214"
                 for m in moves:
@@ -534,8 +533,8 @@ def test_a_deadlock_victim_is_retried_and_then_succeeds(store, db_url):
     from inventory.core.tables import StockBalance
 
     with transaction(store) as s:
-        ledger.receive(s, "OR-214", 5, "0.25", lot="X")
-        ledger.receive(s, "WP-32", 5, "6.50", lot="Y")
+        ledger.receive(s, ledger.Receipt("OR-214", 5, "0.25", lot="X"))
+        ledger.receive(s, ledger.Receipt("WP-32", 5, "6.50", lot="Y"))
     with Session(store) as s:
         x, y = (s.exec(select(StockBalance.id).join(Lot, Lot.id == StockBalance.lot_id)
                        .where(Lot.code == c)).one() for c in ("X", "Y"))
@@ -578,9 +577,9 @@ def test_one_savepoint_per_transaction_however_many_bookings(store, db_url):
     try:
         with transaction(store) as s:
             for _ in range(5):
-                ledger.receive(s, "OR-214", 2, "0.25", lot="A")
-            ledger.issue(s, "OR-214", 3)
-            ledger.count(s, "OR-214", 4)
+                ledger.receive(s, ledger.Receipt("OR-214", 2, "0.25", lot="A"))
+            ledger.issue(s, ledger.Issue("OR-214", 3))
+            ledger.count(s, ledger.Count("OR-214", 4))
     finally:
         event.remove(store, "before_cursor_execute", log)
     want = 1 if db_url.startswith("postgresql") else 0

@@ -28,16 +28,16 @@ from tests.test_sheets_write import soffice_sheets
 def activity(engine) -> None:
     at = datetime(2025, 5, 2, 9, 30, tzinfo=UTC)
     with transaction(engine) as s:
-        ledger.receive(s, "OR-214", 30, "0.25", lot="A", cured="2025Q1", received=date(2025, 5, 1),
-                       ts=at)
-        ledger.receive(s, "WP-32", 10, "6.50", lot="W", received=date(2025, 5, 2), ts=at)
-        ledger.receive(s, "OIL-5", 1000, "0.02", lot="O", received=date(2025, 5, 2), ts=at)
+        ledger.receive(s, ledger.Receipt("OR-214", 30, "0.25", lot="A", cured="2025Q1", received=date(2025, 5, 1),
+                       ts=at))
+        ledger.receive(s, ledger.Receipt("WP-32", 10, "6.50", lot="W", received=date(2025, 5, 2), ts=at))
+        ledger.receive(s, ledger.Receipt("OIL-5", 1000, "0.02", lot="O", received=date(2025, 5, 2), ts=at))
         record_job(s, ref="J-1", day=date(2025, 6, 1), fork="XC-32", service="lower_leg",
                    items=[JobItem("K-TST", 1), JobItem("OIL-5", 120)], hours=40, fork_ref="F-9")
         record_job(s, ref="=J-2", day=date(2025, 6, 2), fork="XC-32", service="damper",
                    items=[JobItem("OR-214", 3)])
-        ledger.adjust(s, "OR-214", -1, reason="=cmd|' /C calc'!A0 (dropped)",
-                      ts=datetime(2025, 6, 3, 17, 5, 30, tzinfo=UTC))
+        ledger.adjust(s, ledger.Adjustment("OR-214", -1, reason="=cmd|' /C calc'!A0 (dropped)",
+                      ts=datetime(2025, 6, 3, 17, 5, 30, tzinfo=UTC)))
 
 
 def _csv_rows(path):

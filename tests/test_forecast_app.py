@@ -68,7 +68,7 @@ def build(engine, months: int, start: date = date(2024, 1, 1)) -> list[JobSpec]:
     with transaction(engine) as s:
         for code, qty, cost in (("K-TST", 400, "40.00"), ("WP-32", 900, "6.50"),
                                 ("OR-214", 900, "0.25")):
-            ledger.receive(s, code, qty, cost, received=start, ts=ts)
+            ledger.receive(s, ledger.Receipt(code, qty, cost, received=start, ts=ts))
         record_jobs(s, jobs)
     return jobs
 

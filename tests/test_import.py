@@ -33,7 +33,7 @@ def stock_up(engine) -> None:
                 ("OR-214", 10, "0.30", "B", "2024Q3", date(2025, 6, 1)),
                 ("WP-32", 40, "6.50", "W", "2025Q2", date(2025, 6, 1)),
                 ("K-TST", 1, "10.00", "K", None, date(2025, 6, 1))):
-            ledger.receive(s, part, qty, cost, lot=lot, cured=cured, received=day, ts=noon(day))
+            ledger.receive(s, ledger.Receipt(part, qty, cost, lot=lot, cured=cured, received=day, ts=noon(day)))
 
 
 def preview(engine, path, settings=H):

@@ -190,7 +190,7 @@ def test_stocked_part_rule_on_both_databases(store, tmp_path):
     from inventory.stock import ledger
 
     with transaction(store) as s:
-        ledger.receive(s, "OR-214", 36, "0.25", user="test")
+        ledger.receive(s, ledger.Receipt("OR-214", 36, "0.25", user="test"))
     path = csv_file(tmp_path / "c.csv", "code,kind,unit\nOR-214,oil,ml\nWP-32,grease,each\n")
     with Session(store) as s:
         rep = run_import(s, path, replace(ImportSettings(kind="catalog")))

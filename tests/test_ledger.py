@@ -24,11 +24,11 @@ from inventory.stock import ledger
 
 def test_receive_issue_fifo_by_cure_quarter(store):
     with transaction(store) as s:
-        ledger.receive(s, "OR-214", 5, "0.30", lot="NEW", cured="2026Q2")
-        ledger.receive(s, "OR-214", 5, "0.20", lot="OLD", cured="3/24")  # month/year: 2024Q1
-        ledger.receive(s, "OR-214", 5, "0.25", lot="MID", cured="2025Q1")
+        ledger.receive(s, ledger.Receipt("OR-214", 5, "0.30", lot="NEW", cured="2026Q2"))
+        ledger.receive(s, ledger.Receipt("OR-214", 5, "0.20", lot="OLD", cured="3/24"))  # month/year: 2024Q1
+        ledger.receive(s, ledger.Receipt("OR-214", 5, "0.25", lot="MID", cured="2025Q1"))
     with transaction(store) as s:
-        moves = ledger.issue(s, "OR-214", 7, reference="J-1")
+        moves = ledger.issue(s, ledger.Issue("OR-214", 7, reference="J-1"))
     lots = {}
     with Session(store) as s:
         for mv in moves:
@@ -40,11 +40,11 @@ def test_receive_issue_fifo_by_cure_quarter(store):
 
 def test_issue_more_than_on_hand_fails_and_changes_nothing(store):
     with transaction(store) as s:
-        ledger.receive(s, "WP-32", 3, "6.50")
+        ledger.receive(s, ledger.Receipt("WP-32", 3, "6.50"))
     with pytest.raises(InventoryError, match=r"not enough stock of WP-32: asked 2, on hand 1"):
         with transaction(store) as s:
-            ledger.issue(s, "WP-32", 2)
-            ledger.issue(s, "WP-32", 2)  # the second one fails: the first is rolled back too
+            ledger.issue(s, ledger.Issue("WP-32", 2))
+            ledger.issue(s, ledger.Issue("WP-32", 2))  # the second one fails: the first is rolled back too
     with Session(store) as s:
         assert [ln.on_hand for ln in ledger.on_hand(s, part="WP-32")] == [3]
         assert len(list(s.exec(select(Movement)))) == 1
@@ -52,9 +52,9 @@ def test_issue_more_than_on_hand_fails_and_changes_nothing(store):
 
 def test_count_books_the_variance_and_move_keeps_lots(store):
     with transaction(store) as s:
-        ledger.receive(s, "OR-214", 10, "0.25", lot="A", cured="2025Q4")
-        assert ledger.count(s, "OR-214", 10) == []
-        (mv,) = ledger.count(s, "OR-214", 8)
+        ledger.receive(s, ledger.Receipt("OR-214", 10, "0.25", lot="A", cured="2025Q4"))
+        assert ledger.count(s, ledger.Count("OR-214", 10)) == []
+        (mv,) = ledger.count(s, ledger.Count("OR-214", 8))
         assert mv.qty == -2 and mv.kind == "count"
         ledger.move(s, "OR-214", 3, from_location="MAIN", to_location="BENCH")
     with Session(store) as s:
@@ -68,7 +68,7 @@ def test_database_refuses_a_negative_balance(store):
     from sqlalchemy.exc import IntegrityError
 
     with transaction(store) as s:
-        ledger.receive(s, "OR-214", 1, "0.25")
+        ledger.receive(s, ledger.Receipt("OR-214", 1, "0.25"))
     with pytest.raises(IntegrityError):
         with transaction(store) as s:
             bal = s.exec(select(StockBalance)).one()
@@ -116,15 +116,15 @@ def test_random_ledger_sequences_keep_on_hand_exact(store, ops):
         try:
             with transaction(store) as s:
                 if o[0] == "receive":
-                    ledger.receive(s, o[1], o[2], "1.00", location=o[3], cured=o[4], ts=ts,
-                                   received=date(2026, 1, 1) + timedelta(days=i))
+                    ledger.receive(s, ledger.Receipt(o[1], o[2], "1.00", location=o[3], cured=o[4], ts=ts,
+                                   received=date(2026, 1, 1) + timedelta(days=i)))
                 elif o[0] == "issue":
-                    moves = ledger.issue(s, o[1], o[2], location=o[3], ts=ts)
+                    moves = ledger.issue(s, ledger.Issue(o[1], o[2], location=o[3], ts=ts))
                     _assert_fifo(s, before, moves, o[1], o[3])
                 elif o[0] == "adjust":
-                    ledger.adjust(s, o[1], o[2], reason="test", location=o[3], ts=ts)
+                    ledger.adjust(s, ledger.Adjustment(o[1], o[2], reason="test", location=o[3], ts=ts))
                 elif o[0] == "count":
-                    ledger.count(s, o[1], o[2], location=o[3], ts=ts)
+                    ledger.count(s, ledger.Count(o[1], o[2], location=o[3], ts=ts))
                     assert _total(s, o[1], o[3]) == o[2]
                 else:
                     ledger.move(s, o[1], o[2], from_location=o[3], to_location=o[4], ts=ts)

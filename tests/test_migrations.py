@@ -26,7 +26,7 @@ def test_empty_to_head_matches_models(db_url):
 
 def test_data_survives_downgrade_and_upgrade(store):
     with transaction(store) as s:
-        ledger.receive(s, "OR-214", 7, "0.25", lot="L1", cured="2026Q1")
+        ledger.receive(s, ledger.Receipt("OR-214", 7, "0.25", lot="L1", cured="2026Q1"))
     head = migrate.head_revision(store)
     # The chain's oldest revision is the base of this check: down one step (or to base when
     # the chain has one revision, which drops everything: then upgrade must recreate).

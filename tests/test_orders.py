@@ -29,7 +29,7 @@ def draft(*lines, supplier="SUP-A", source="plan.json: orders[0]"):
 def test_create_orders_assigns_references_and_expected_dates(store):
     with transaction(store) as s:
         # a reference already used by history booked before the tool: numbering goes past it
-        ledger.receive(s, "OR-214", 10, "0.25", ts=TS, reference="PO-2026-0007")
+        ledger.receive(s, ledger.Receipt("OR-214", 10, "0.25", ts=TS, reference="PO-2026-0007"))
         made = create_orders(s, [draft(("OR-214", 50, None, "why"), ("WP-32", 4, Decimal("6.40")))],
                              created=DAY)
         made += create_orders(s, [draft(("OR-214", 20, None))], created=DAY)
@@ -69,11 +69,11 @@ def test_receive_partial_then_complete_closes_the_order(store):
     with transaction(store) as s:
         [po] = create_orders(s, [draft(("OR-214", 50, None), ("WP-32", 4, None))], created=DAY)
     with transaction(store) as s:
-        got = receive_against_order(s, po.ref, "OR-214", 30, cured="2026Q3", ts=TS)
+        got = receive_against_order(s, po.ref, ledger.Receipt("OR-214", 30, cured="2026Q3", ts=TS))
     assert got.summary == f"{po.ref}: OR-214 30 of 50 received" and got.status == "open"
     with transaction(store) as s:
-        receive_against_order(s, po.ref, "OR-214", 20, ts=TS)
-        got = receive_against_order(s, po.ref, "WP-32", 4, ts=TS)
+        receive_against_order(s, po.ref, ledger.Receipt("OR-214", 20, ts=TS))
+        got = receive_against_order(s, po.ref, ledger.Receipt("WP-32", 4, ts=TS))
     assert got.status == "closed" and got.summary.endswith("order complete, closed")
     with Session(store) as s:
         # booked with the order's reference, supplier and unit cost
@@ -90,34 +90,33 @@ def test_over_delivery_beyond_the_tolerance_is_refused(store):
     with transaction(store) as s:
         [po] = create_orders(s, [draft(("OR-214", 50, None))], created=DAY)
     with transaction(store) as s:
-        receive_against_order(s, po.ref, "OR-214", 40, ts=TS)
+        receive_against_order(s, po.ref, ledger.Receipt("OR-214", 40, ts=TS))
     # 5 % of 50 = 2.5: at most 52 in all
     with pytest.raises(InventoryError) as err, transaction(store) as s:
-        receive_against_order(s, po.ref, "OR-214", 13, ts=TS)
+        receive_against_order(s, po.ref, ledger.Receipt("OR-214", 13, ts=TS))
     assert str(err.value) == (f"{po.ref} OR-214: ordered 50, received 40; 13 more would make "
                               "53, beyond the 5% over-delivery tolerance (52)")
     assert err.value.hint == "book the surplus without --order, or raise --tolerance"
     with transaction(store) as s:
-        got = receive_against_order(s, po.ref, "OR-214", 12, ts=TS)  # 52: within 5 %
+        got = receive_against_order(s, po.ref, ledger.Receipt("OR-214", 12, ts=TS))  # 52: within 5 %
     assert got.status == "closed" and got.received == 52
     with transaction(store) as s:
         [po2] = create_orders(s, [draft(("OR-214", 10, None))], created=DAY)
     with pytest.raises(InventoryError), transaction(store) as s:
-        receive_against_order(s, po2.ref, "OR-214", 11, ts=TS, tolerance=0.0)
+        receive_against_order(s, po2.ref, ledger.Receipt("OR-214", 11, ts=TS), tolerance=0.0)
     with transaction(store) as s:
-        assert receive_against_order(s, po2.ref, "OR-214", 11, ts=TS,
-                                     tolerance=0.10).received == 11
+        assert receive_against_order(s, po2.ref, ledger.Receipt("OR-214", 11, ts=TS), tolerance=0.10).received == 11
 
 
 def test_receiving_errors(store):
     with transaction(store) as s:
         [po] = create_orders(s, [draft(("OR-214", 50, None))], created=DAY)
     with pytest.raises(InventoryError) as err, transaction(store) as s:
-        receive_against_order(s, "PO-2026-0002", "OR-214", 1)
+        receive_against_order(s, "PO-2026-0002", ledger.Receipt("OR-214", 1))
     assert err.value.lines() == ["unknown purchase order 'PO-2026-0002'",
                                  f"hint: did you mean {po.ref}?"]
     with pytest.raises(InventoryError) as err, transaction(store) as s:
-        receive_against_order(s, po.ref, "WP-32", 1)
+        receive_against_order(s, po.ref, ledger.Receipt("WP-32", 1))
     assert str(err.value) == f"{po.ref} has no line for WP-32"
     assert err.value.hint == "its lines: OR-214"
     with Session(store) as s:
@@ -132,15 +131,15 @@ def test_plan_reads_open_orders_and_usable_stock(store):
     from inventory.ordering.service import make_plan
 
     with transaction(store) as s:
-        ledger.receive(s, "WP-32", 3, "6.50", lot="OLD", cured="2019Q1", location="BENCH",
-                       ts=datetime(2025, 1, 5, 12, tzinfo=UTC))
+        ledger.receive(s, ledger.Receipt("WP-32", 3, "6.50", lot="OLD", cured="2019Q1", location="BENCH",
+                       ts=datetime(2025, 1, 5, 12, tzinfo=UTC)))
         for i in range(18):
             y, m = 2025 + (6 + i) // 12, (6 + i) % 12 + 1
             ts = datetime(y, m, 3, 12, tzinfo=UTC)
-            ledger.receive(s, "OR-214", 5, "0.25", cured="2025Q1", ts=ts)
-            ledger.issue(s, "OR-214", 5, ts=ts.replace(day=20), reference=f"J{i}")
+            ledger.receive(s, ledger.Receipt("OR-214", 5, "0.25", cured="2025Q1", ts=ts))
+            ledger.issue(s, ledger.Issue("OR-214", 5, ts=ts.replace(day=20), reference=f"J{i}"))
         [po] = create_orders(s, [draft(("OR-214", 40, None))], created=DAY)
-        receive_against_order(s, po.ref, "OR-214", 15, ts=TS)
+        receive_against_order(s, po.ref, ledger.Receipt("OR-214", 15, ts=TS))
     with Session(store) as s:
         plan = make_plan(s, as_of=DAY)
     by = {ln.part: ln for ln in plan.lines}

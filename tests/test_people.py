@@ -70,9 +70,9 @@ def test_disabled_person_cannot_sign_in_and_roles_are_checked(store):
 
 def test_movement_records_the_person_acting(store):
     with transaction(store) as s, acting_as("sam"):
-        ledger.receive(s, "OR-214", 5, "0.25")
+        ledger.receive(s, ledger.Receipt("OR-214", 5, "0.25"))
     with transaction(store) as s:
-        ledger.issue(s, "OR-214", 1, user="cli-admin")
+        ledger.issue(s, ledger.Issue("OR-214", 1, user="cli-admin"))
     with Session(store) as s:
         users = [m.user for m in s.exec(select(Movement).order_by(Movement.id))]
     assert users == ["sam", "cli-admin"]

@@ -32,18 +32,18 @@ def book_history(url: str) -> None:
     an old AU lot of WP-32 cured 2019Q1 sits in the bench drawer past its storage period."""
     engine = make_engine(url)
     with transaction(engine) as s:
-        ledger.receive(s, "WP-32", 4, "6.50", lot="OLD-AU", cured="2019Q1", location="BENCH",
-                       ts=_ts(2024, 11, 20))
+        ledger.receive(s, ledger.Receipt("WP-32", 4, "6.50", lot="OLD-AU", cured="2019Q1", location="BENCH",
+                       ts=_ts(2024, 11, 20)))
         for i in range(24):
             y, m = 2024 + (11 + i) // 12, (11 + i) % 12 + 1
             spring = 2 if m in (3, 4, 5) else 0
-            ledger.receive(s, "OR-214", 6 + spring, "0.25", cured="2024Q3", ts=_ts(y, m, 1))
-            ledger.receive(s, "WP-32", 2, "6.50", cured="2024Q4", ts=_ts(y, m, 1))
-            ledger.receive(s, "OIL-5", 100, "0.02", ts=_ts(y, m, 1))
-            ledger.issue(s, "OR-214", 3 + spring, ts=_ts(y, m, 10), reference=f"J{i}a")
-            ledger.issue(s, "OR-214", 3, ts=_ts(y, m, 20), reference=f"J{i}b")
-            ledger.issue(s, "WP-32", 2, ts=_ts(y, m, 15), reference=f"J{i}c", location="MAIN")
-            ledger.issue(s, "OIL-5", 100, ts=_ts(y, m, 15), reference=f"J{i}d")
+            ledger.receive(s, ledger.Receipt("OR-214", 6 + spring, "0.25", cured="2024Q3", ts=_ts(y, m, 1)))
+            ledger.receive(s, ledger.Receipt("WP-32", 2, "6.50", cured="2024Q4", ts=_ts(y, m, 1)))
+            ledger.receive(s, ledger.Receipt("OIL-5", 100, "0.02", ts=_ts(y, m, 1)))
+            ledger.issue(s, ledger.Issue("OR-214", 3 + spring, ts=_ts(y, m, 10), reference=f"J{i}a"))
+            ledger.issue(s, ledger.Issue("OR-214", 3, ts=_ts(y, m, 20), reference=f"J{i}b"))
+            ledger.issue(s, ledger.Issue("WP-32", 2, ts=_ts(y, m, 15), reference=f"J{i}c", location="MAIN"))
+            ledger.issue(s, ledger.Issue("OIL-5", 100, ts=_ts(y, m, 15), reference=f"J{i}d"))
     engine.dispose()
 
 

@@ -24,7 +24,7 @@ def _worker(url: str, barrier, results) -> None:
     barrier.wait()
     try:
         with tx(engine) as s:
-            ledger.issue(s, "WP-32", 1, reference="RACE")
+            ledger.issue(s, ledger.Issue("WP-32", 1, reference="RACE"))
         results.put("ok")
     except InventoryError as exc:
         results.put(exc.kind)
@@ -36,7 +36,7 @@ def _worker(url: str, barrier, results) -> None:
 
 def test_last_units_issued_once(store, db_url):
     with transaction(store) as s:
-        ledger.receive(s, "WP-32", UNITS, "6.50")
+        ledger.receive(s, ledger.Receipt("WP-32", UNITS, "6.50"))
     ctx = mp.get_context("spawn")
     barrier = ctx.Barrier(WORKERS)
     results = ctx.Queue()
@@ -83,14 +83,14 @@ def _plan(qty: int) -> list[DraftOrder]:
 
 
 WRITERS = {
-    "receive": lambda s, ref: ledger.receive(s, "OR-214", 5, "0.25"),
-    "receive new lot": lambda s, ref: ledger.receive(s, "OR-214", 5, "0.30"),
-    "issue": lambda s, ref: ledger.issue(s, "OR-214", 2, reference="J-K"),
-    "count": lambda s, ref: ledger.count(s, "OR-214", 3),
-    "adjust": lambda s, ref: ledger.adjust(s, "OR-214", -1, reason="damaged"),
+    "receive": lambda s, ref: ledger.receive(s, ledger.Receipt("OR-214", 5, "0.25")),
+    "receive new lot": lambda s, ref: ledger.receive(s, ledger.Receipt("OR-214", 5, "0.30")),
+    "issue": lambda s, ref: ledger.issue(s, ledger.Issue("OR-214", 2, reference="J-K")),
+    "count": lambda s, ref: ledger.count(s, ledger.Count("OR-214", 3)),
+    "adjust": lambda s, ref: ledger.adjust(s, ledger.Adjustment("OR-214", -1, reason="damaged")),
     "move": lambda s, ref: ledger.move(s, "OR-214", 1, from_location="MAIN",
                                        to_location="BENCH"),
-    "receive against order": lambda s, ref: receive_against_order(s, ref, "OR-214", 2),
+    "receive against order": lambda s, ref: receive_against_order(s, ref, ledger.Receipt("OR-214", 2)),
     "record plan": lambda s, ref: create_orders(s, _plan(2), created=date(2026, 12, 4)),
 }
 
@@ -133,7 +133,7 @@ def _state(store) -> tuple:
 @pytest.mark.parametrize("name", list(WRITERS))
 def test_kill_9_during_each_writer_leaves_nothing_half_written(store, db_url, name):
     with transaction(store) as s:
-        ledger.receive(s, "OR-214", 20, "0.25", lot="A")
+        ledger.receive(s, ledger.Receipt("OR-214", 20, "0.25", lot="A"))
         (po,) = create_orders(s, [DraftOrder("SUP-A", None, None,
                                              (DraftLine("OR-214", 10, Decimal("0.25")),))],
                               created=date(2026, 12, 4))

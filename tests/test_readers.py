@@ -26,9 +26,9 @@ WAIT = 1.0  # seconds a writer waits for a lock in these tests
 
 def _book(engine) -> None:
     with transaction(engine) as s:
-        ledger.receive(s, "OR-214", 10, "0.25", lot="A", cured="2025Q1",
+        ledger.receive(s, ledger.Receipt("OR-214", 10, "0.25", lot="A", cured="2025Q1",
                        received=date(2025, 5, 1),
-                       ts=datetime(2025, 5, 1, 12, tzinfo=UTC))
+                       ts=datetime(2025, 5, 1, 12, tzinfo=UTC)))
 
 
 def _issue(url) -> float:
@@ -37,7 +37,7 @@ def _issue(url) -> float:
     try:
         t0 = time.perf_counter()
         with transaction(other) as s:
-            ledger.issue(s, "OR-214", 1, reference="J-1")
+            ledger.issue(s, ledger.Issue("OR-214", 1, reference="J-1"))
         return time.perf_counter() - t0
     finally:
         other.dispose()

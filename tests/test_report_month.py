@@ -48,10 +48,10 @@ def by_part(r) -> dict:
 # arrival order, so the ledger's FIFO by cure date is the book's FIFO.
 def _textbook(engine) -> None:
     with transaction(engine) as s:
-        ledger.receive(s, "OR-214", 2000, "4.00", lot="L1", cured="2025Q4", ts=ts(2026, 3, 2))
-        ledger.receive(s, "OR-214", 6000, "4.40", lot="L2", cured="2026Q1", ts=ts(2026, 3, 15))
-        ledger.issue(s, "OR-214", 4000, reference="J-1", ts=ts(2026, 3, 19))
-        ledger.receive(s, "OR-214", 2000, "4.75", lot="L3", cured="2026Q1", ts=ts(2026, 3, 30))
+        ledger.receive(s, ledger.Receipt("OR-214", 2000, "4.00", lot="L1", cured="2025Q4", ts=ts(2026, 3, 2)))
+        ledger.receive(s, ledger.Receipt("OR-214", 6000, "4.40", lot="L2", cured="2026Q1", ts=ts(2026, 3, 15)))
+        ledger.issue(s, ledger.Issue("OR-214", 4000, reference="J-1", ts=ts(2026, 3, 19)))
+        ledger.receive(s, ledger.Receipt("OR-214", 2000, "4.75", lot="L3", cured="2026Q1", ts=ts(2026, 3, 30)))
 
 
 def test_fifo_report_matches_textbook(store):
@@ -75,7 +75,7 @@ def test_moving_average_report_matches_textbook(store):
     assert r.method_label == "moving average"
     # the next month opens where this one closed, under both methods
     with transaction(store) as s:
-        ledger.issue(s, "OR-214", 1000, ts=ts(2026, 4, 2))
+        ledger.issue(s, ledger.Issue("OR-214", 1000, ts=ts(2026, 4, 2)))
     for method, closing in (("fifo", D("27100")), ("average", D("26700"))):
         april = by_part(report(store, "2026-04", method=method))["OR-214"]
         assert april.opening_value == closing
@@ -120,14 +120,14 @@ def _apply(engine, ops) -> None:
         try:
             with transaction(engine) as s:
                 if o[0] == "receive":
-                    ledger.receive(s, o[1], o[2], o[5], location=o[3], cured=o[4], ts=when,
-                                   lot=f"{o[1]}-{i}")
+                    ledger.receive(s, ledger.Receipt(o[1], o[2], o[5], location=o[3], cured=o[4], ts=when,
+                                   lot=f"{o[1]}-{i}"))
                 elif o[0] == "issue":
-                    ledger.issue(s, o[1], o[2], ts=when, reference=f"J-{i}" if o[3] else None)
+                    ledger.issue(s, ledger.Issue(o[1], o[2], ts=when, reference=f"J-{i}" if o[3] else None))
                 elif o[0] == "adjust":
-                    ledger.adjust(s, o[1], o[2], reason="test", location=o[3], ts=when)
+                    ledger.adjust(s, ledger.Adjustment(o[1], o[2], reason="test", location=o[3], ts=when))
                 elif o[0] == "count":
-                    ledger.count(s, o[1], o[2], location=o[3], ts=when)
+                    ledger.count(s, ledger.Count(o[1], o[2], location=o[3], ts=when))
                 elif o[3] != o[4]:
                     ledger.move(s, o[1], o[2], from_location=o[3], to_location=o[4], ts=when)
         except InventoryError as exc:
@@ -218,12 +218,12 @@ def test_report_values_match_pure_fifo_and_moving_average(store, ops):
         when = t0 + timedelta(hours=i)
         with transaction(store) as s:
             if o[0] == "receive":
-                mv = ledger.receive(s, "OR-214", o[1], o[3], cured=o[2], ts=when,
-                                    received=when.date(), lot=f"L{i}")
+                mv = ledger.receive(s, ledger.Receipt("OR-214", o[1], o[3], cured=o[2], ts=when,
+                                    received=when.date(), lot=f"L{i}"))
                 layers += (val.Layer(o[1], D(o[3]), val.fifo_key(o[2], when.date(), mv.lot_id)),)
                 avg, _ = val.average_step(avg, o[1], D(o[3]))
             elif sum(la.qty for la in layers) >= o[1]:
-                ledger.issue(s, "OR-214", o[1], ts=when, reference="J")
+                ledger.issue(s, ledger.Issue("OR-214", o[1], ts=when, reference="J"))
                 cost, layers = val.fifo_take(layers, o[1])
                 issued_fifo += cost
                 avg, v = val.average_step(avg, -o[1])
@@ -243,9 +243,9 @@ def test_report_values_match_pure_fifo_and_moving_average(store, ops):
 
 def _stocked(engine) -> None:
     with transaction(engine) as s:
-        ledger.receive(s, "OR-214", 10, "0.25", lot="A", cured="2025Q4", ts=ts(2026, 10, 2))
-        ledger.receive(s, "WP-32", 4, "6.50", lot="W", cured="2025Q4", ts=ts(2026, 10, 2))
-        ledger.issue(s, "OR-214", 3, reference="J-1", ts=ts(2026, 11, 5))
+        ledger.receive(s, ledger.Receipt("OR-214", 10, "0.25", lot="A", cured="2025Q4", ts=ts(2026, 10, 2)))
+        ledger.receive(s, ledger.Receipt("WP-32", 4, "6.50", lot="W", cured="2025Q4", ts=ts(2026, 10, 2)))
+        ledger.issue(s, ledger.Issue("OR-214", 3, reference="J-1", ts=ts(2026, 11, 5)))
 
 
 def _raw(engine, part: str, lot: str, qty: int, kind: str, cost: str) -> None:
@@ -300,8 +300,8 @@ def test_cached_balance_disagreeing_with_the_ledger_is_refused(store):
 
 def test_usage_by_fork_family_and_service_level(store):
     with transaction(store) as s:
-        ledger.receive(s, "WP-32", 20, "6.50", lot="W", cured="2026Q1", ts=ts(2026, 10, 1))
-        ledger.receive(s, "OR-214", 20, "0.25", lot="O", cured="2026Q1", ts=ts(2026, 10, 1))
+        ledger.receive(s, ledger.Receipt("WP-32", 20, "6.50", lot="W", cured="2026Q1", ts=ts(2026, 10, 1)))
+        ledger.receive(s, ledger.Receipt("OR-214", 20, "0.25", lot="O", cured="2026Q1", ts=ts(2026, 10, 1)))
         record_job(s, ref="J-1", day=date(2026, 11, 3), fork="XC-32", service="lower_leg",
                    items=[JobItem("K-TST", 2)])  # kit not on hand: 4 wipers, 2 O-rings
         record_job(s, ref="J-2", day=date(2026, 11, 4), fork="XC-32", service="air_spring",
@@ -322,14 +322,14 @@ def test_usage_by_fork_family_and_service_level(store):
 def test_dead_slow_expiring_counts_and_reorder(store):
     with transaction(store) as s:
         # AU wiper cured 2021Q3: ISO 2230 group A, 5 years -> limit 2026-09-30, past by Nov
-        ledger.receive(s, "WP-32", 6, "6.50", lot="OLD", cured="2021Q3", ts=ts(2025, 6, 1))
-        ledger.issue(s, "WP-32", 1, reference="J-0", ts=ts(2025, 11, 15))  # 12.5 months ago
+        ledger.receive(s, ledger.Receipt("WP-32", 6, "6.50", lot="OLD", cured="2021Q3", ts=ts(2025, 6, 1)))
+        ledger.issue(s, ledger.Issue("WP-32", 1, reference="J-0", ts=ts(2025, 11, 15)))  # 12.5 months ago
         # NBR O-rings cured 2019Q3: group B, 7 years -> 2026-09-30 past; 2020Q1 -> 2027-03-31
-        ledger.receive(s, "OR-214", 5, "0.25", lot="B1", cured="2019Q3", ts=ts(2026, 1, 5))
-        ledger.receive(s, "OR-214", 40, "0.25", lot="B2", cured="2020Q1", ts=ts(2026, 1, 5))
+        ledger.receive(s, ledger.Receipt("OR-214", 5, "0.25", lot="B1", cured="2019Q3", ts=ts(2026, 1, 5)))
+        ledger.receive(s, ledger.Receipt("OR-214", 40, "0.25", lot="B2", cured="2020Q1", ts=ts(2026, 1, 5)))
         for m in range(1, 12):
-            ledger.issue(s, "OR-214", 3, reference=f"J-{m}", ts=ts(2026, m, 20))
-        ledger.count(s, "OR-214", 5, ts=ts(2026, 11, 28))  # ledger 12, shelf 5 -> -7
+            ledger.issue(s, ledger.Issue("OR-214", 3, reference=f"J-{m}", ts=ts(2026, m, 20)))
+        ledger.count(s, ledger.Count("OR-214", 5, ts=ts(2026, 11, 28)))  # ledger 12, shelf 5 -> -7
     r = report(store, "2026-11")
     parts = by_part(r)
     assert parts["WP-32"].status == "dead" and r.totals.dead_value == D("32.50")
@@ -359,13 +359,13 @@ def test_dead_slow_expiring_counts_and_reorder(store):
 
 def test_abc_xyz_turns_in_the_report(store):
     with transaction(store) as s:
-        ledger.receive(s, "OR-214", 500, "0.25", lot="O", ts=ts(2025, 11, 1))
-        ledger.receive(s, "WP-32", 100, "6.50", lot="W", ts=ts(2025, 11, 1))
+        ledger.receive(s, ledger.Receipt("OR-214", 500, "0.25", lot="O", ts=ts(2025, 11, 1)))
+        ledger.receive(s, ledger.Receipt("WP-32", 100, "6.50", lot="W", ts=ts(2025, 11, 1)))
         for m in range(12):
             day = ts(2025, 12, 10) + timedelta(days=30 * m)
-            ledger.issue(s, "WP-32", 5, reference=f"W-{m}", ts=day)  # steady
+            ledger.issue(s, ledger.Issue("WP-32", 5, reference=f"W-{m}", ts=day))  # steady
             if m % 4 == 0:
-                ledger.issue(s, "OR-214", 12, reference=f"O-{m}", ts=day)  # lumpy
+                ledger.issue(s, ledger.Issue("OR-214", 12, reference=f"O-{m}", ts=day))  # lumpy
     r = report(store, "2026-11")
     p = by_part(r)
     assert (p["WP-32"].abc, p["WP-32"].xyz) == ("A", "X")  # 390.00 of 390.75

@@ -45,18 +45,18 @@ def report(tmp_path_factory):
     migrate.upgrade(engine)
     with transaction(engine) as s:
         load_catalog(s, write_catalog(tmp / "cat", cat))
-        ledger.receive(s, "OR-214", 300, "0.25", lot="O1", cured="2019Q2", ts=ts(2025, 11, 3))
-        ledger.receive(s, "WP-32", 60, "6.50", lot="W1", cured="2024Q1", ts=ts(2025, 11, 3))
+        ledger.receive(s, ledger.Receipt("OR-214", 300, "0.25", lot="O1", cured="2019Q2", ts=ts(2025, 11, 3)))
+        ledger.receive(s, ledger.Receipt("WP-32", 60, "6.50", lot="W1", cured="2024Q1", ts=ts(2025, 11, 3)))
         # issues skip lots past their storage limit (O1's ends 2026-06-30): a younger lot
         # serves the jobs after it, O1 stays on the shelf as the expired lot
-        ledger.receive(s, "OR-214", 100, "0.26", lot="O2", cured="2025Q3", ts=ts(2025, 11, 3))
-        ledger.receive(s, "OIL-5", 5000, "0.02", lot="OIL1", ts=ts(2025, 11, 3))
+        ledger.receive(s, ledger.Receipt("OR-214", 100, "0.26", lot="O2", cured="2025Q3", ts=ts(2025, 11, 3)))
+        ledger.receive(s, ledger.Receipt("OIL-5", 5000, "0.02", lot="OIL1", ts=ts(2025, 11, 3)))
         for m in range(12):
             y, mo = (2025, 12) if m == 0 else (2026, m)
             record_job(s, ref=f"J-{m}", day=date(y, mo, 8), fork="XC-32", service="lower_leg",
                        items=[JobItem("K-TST", 1 + m % 3)])
-        ledger.receive(s, "WP-32", 10, "7.00", lot="W2", cured="2026Q3", ts=ts(2026, 11, 9))
-        ledger.count(s, "WP-32", 20, ts=ts(2026, 11, 27))
+        ledger.receive(s, ledger.Receipt("WP-32", 10, "7.00", lot="W2", cured="2026Q3", ts=ts(2026, 11, 9)))
+        ledger.count(s, ledger.Count("WP-32", 20, ts=ts(2026, 11, 27)))
     with Session(engine) as s:
         r = month_report(s, "2026-11", today=TODAY)
     engine.dispose()

@@ -124,7 +124,7 @@ def test_unreachable_server_is_one_line(monkeypatch, capsys):
 
 def test_constraint_names_the_table_and_value(store, db_url):
     with transaction(store) as s:
-        ledger.receive(s, "OR-214", 1, "0.25", lot="L-1")
+        ledger.receive(s, ledger.Receipt("OR-214", 1, "0.25", lot="L-1"))
     with pytest.raises(Exception) as err, transaction(store) as s:
         part_id = s.exec(text("SELECT id FROM part WHERE code = 'OR-214'")).scalar_one()
         s.add(Lot(part_id=part_id, code="L-1", received=date(2026, 12, 4), unit_cost=1))

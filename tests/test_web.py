@@ -32,7 +32,7 @@ def web(store, tmp_path, monkeypatch):
     with transaction(store) as s:
         for name, role in (("sam", "technician"), ("ana", "manager"), ("lee", "admin")):
             add_person(s, name, role, PASSWORD)
-        ledger.receive(s, "OR-214", 3, "0.25", cured="2026Q1", user="setup")
+        ledger.receive(s, ledger.Receipt("OR-214", 3, "0.25", cured="2026Q1", user="setup"))
     url = store.url.render_as_string(hide_password=False)
     app = create_app(url, secret="test-secret-" + "x" * 20)
 

@@ -65,14 +65,13 @@ def receive(ctx: typer.Context,
         if order:
             from inventory.ordering.orders import receive_against_order
 
-            got = receive_against_order(s, order, part, qty, tolerance=tolerance,
-                                        unit_cost=unit_cost, lot=lot, cured=cured,
-                                        location=location, ts=ts)
+            got = receive_against_order(s, order, service.Receipt(
+                part, qty, unit_cost, lot=lot, cured=cured, location=location, ts=ts), tolerance)
             _report([got.movement], "received", part)
             say(got.summary)
             return
-        mv = service.book_receipt(s, part, qty, unit_cost, lot=lot, cured=cured, location=location,
-                            ts=ts)
+        mv = service.book_receipt(s, service.Receipt(part, qty, unit_cost, lot=lot, cured=cured,
+                                                     location=location, ts=ts))
         _report([mv], "received", part)
 
 
@@ -92,8 +91,9 @@ def issue(ctx: typer.Context,
     lots past their storage limit are skipped unless --inspected."""
     qty, job = options.quantity(qty, "QTY"), options.code(job, "--job", "job")
     with unit_of_work(ctx) as s:
-        moves, notes = service.book_issue(s, part, qty, location=location, reference=job,
-                                          ts=when(day), inspected=inspected)
+        moves, notes = service.book_issue(s, service.Issue(part, qty, location=location,
+                                                           reference=job, ts=when(day),
+                                                           inspected=inspected))
     _report(moves, "issued", part)
     _notes(notes)
 
@@ -165,8 +165,9 @@ def adjust(ctx: typer.Context,
     reason = options.code(reason, "--reason", "reason")
     unit_cost, ts = _money(cost, cost_ok), when(day)
     with unit_of_work(ctx) as s:
-        _report(service.book_adjustment(s, part, qty, reason=reason, location=location, ts=ts,
-                              unit_cost=unit_cost), "adjusted", part)
+        _report(service.book_adjustment(s, service.Adjustment(part, qty, reason, location=location,
+                                                              ts=ts, unit_cost=unit_cost)),
+                "adjusted", part)
 
 
 @app.command(context_settings=SIGNED)
@@ -179,7 +180,8 @@ def count(ctx: typer.Context,
     """Record a shelf count; the variance is booked as a movement."""
     counted = options.quantity(counted, "COUNTED", zero=True)
     with unit_of_work(ctx) as s:
-        moves = service.book_count(s, part, counted, location=location, ts=when(day))
+        moves = service.book_count(s, service.Count(part, counted, location=location,
+                                                    ts=when(day)))
         if not moves:
             say(f"{part}: count agrees with the ledger ({counted})")
         for mv in moves:

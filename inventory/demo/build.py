@@ -21,7 +21,7 @@ from inventory.history.imports import Event, ImportSettings, apply_import
 from inventory.sheets import cells, kinds
 from inventory.sheets.columns import Schema, parse_table
 from inventory.sheets.read import read_csv
-from inventory.stock import ledger
+from inventory.stock import service as stock
 
 
 def demo_dir() -> Path:
@@ -64,23 +64,25 @@ def replay(session: Session, folder: Path, *, progress: bool = True) -> dict[str
     # receipt date); each lot keeps its own receipt date and cure quarter.
     opening_day = max(r["date"] for r in opening)
     for r in opening:
-        ledger.receive(session, r["part"], r["qty"], r["unit_cost"], lot=r["lot"],
-                       cured=r["cured"], location=r["location"], received=r["date"],
-                       ts=_noon(opening_day, 0), reference="OPENING", user="demo")
+        stock.book_receipt(session, stock.Receipt(
+            r["part"], r["qty"], r["unit_cost"], lot=r["lot"], cured=r["cured"],
+            location=r["location"], received=r["date"], ts=_noon(opening_day, 0),
+            reference="OPENING", user="demo"))
 
     def receive(r: dict):
         def run(s: Session) -> list[str]:
-            ledger.receive(s, r["part"], r["qty"], r["unit_cost"], lot=r["lot"],
-                           cured=r["cured"], location=r["location"], received=r["date"],
-                           ts=_noon(r["date"], 0), reference=r["order_ref"],
-                           supplier=r["supplier"], user="demo")
+            stock.book_receipt(s, stock.Receipt(
+                r["part"], r["qty"], r["unit_cost"], lot=r["lot"], cured=r["cured"],
+                location=r["location"], received=r["date"], ts=_noon(r["date"], 0),
+                reference=r["order_ref"], supplier=r["supplier"], user="demo"))
             return [r["part"]]
         return run
 
     def count(r: dict):
         def run(s: Session) -> list[str]:
-            ledger.count(s, r["part"], r["counted"], location=r["location"],
-                         ts=_noon(r["date"], 30), user="demo", reference="COUNT")
+            stock.book_count(s, stock.Count(r["part"], r["counted"], location=r["location"],
+                                            ts=_noon(r["date"], 30), user="demo",
+                                            reference="COUNT"))
             return [r["part"]]
         return run
 

@@ -17,7 +17,7 @@ from sqlmodel import Session
 from inventory.cli.common import print_table, say
 from inventory.core.db import make_engine, read_transaction, transaction
 from inventory.demo.build import demo_dir
-from inventory.stock import ledger
+from inventory.stock import service as stock
 
 if TYPE_CHECKING:
     from inventory.monthend.report import ReorderSource
@@ -32,7 +32,7 @@ def tour(url: str, reports: str = "reports") -> None:
     Path(reports).mkdir(parents=True, exist_ok=True)
     engine = make_engine(url)
     with Session(engine) as s:
-        lines = ledger.on_hand(s)
+        lines = stock.on_hand(s)
     total = sum(ln.value for ln in lines)
     say(f"\n[bold]1. The demo shop[/bold] is built at {url}: three years of invented history.")
     say(f"Stock on hand: {len(lines)} part/location lines, value {total:,.2f} EUR")

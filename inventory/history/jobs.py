@@ -113,7 +113,7 @@ def record_job(session: Session, *, ref: str, day: date, fork: str, service: str
         else:
             takes = [(part, item.qty)]
         for p, q in takes:
-            ledger.issue(session, p.code, q, reference=ref, ts=ts, batch_id=batch_id)
+            ledger.issue(session, ledger.Issue(p.code, q, reference=ref, ts=ts, batch_id=batch_id))
             used[p.id] = used.get(p.id, 0) + q
     for part_id, q in used.items():
         session.add(JobLine(job_id=job.id, part_id=part_id, qty=q))

@@ -24,7 +24,7 @@ import hashlib
 import math
 import re
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from datetime import UTC, date, datetime, timedelta
 from decimal import Decimal
 from pathlib import Path
@@ -259,13 +259,11 @@ def find_order(session: Session, ref: str) -> PurchaseOrder:
 
 
 @retry_deadlocks
-def receive_against_order(
-    session: Session, ref: str, part_code: str, qty: int, *,
-    tolerance: float = DEFAULT_TOLERANCE, unit_cost: Decimal | None = None,
-    lot: str | None = None, cured: str | None = None, location: str = ledger.DEFAULT_LOCATION,
-    ts: datetime | None = None, user: str | None = None,
-) -> Receipt:
-    """Book a delivery of ``qty`` against order ``ref`` (see the module docstring)."""
+def receive_against_order(session: Session, ref: str, delivery: ledger.Receipt,
+                          tolerance: float = DEFAULT_TOLERANCE) -> Receipt:
+    """Book ``delivery`` against order ``ref`` (see the module docstring): its unit cost
+    defaults to the order line's, its reference and supplier are the order's."""
+    part_code, qty, unit_cost = delivery.part, delivery.qty, delivery.unit_cost
     if not (0 <= tolerance < 10):  # also refuses nan
         raise InventoryError(f"tolerance must be a fraction from 0 to 10, got {tolerance}")
     found = find_order(session, ref)
@@ -296,10 +294,9 @@ def receive_against_order(
             f"{tolerance:.0%} over-delivery tolerance ({limit})", kind="conflict",
             hint="book the surplus without --order, or raise --tolerance")
     sup = session.get(Supplier, po.supplier_id)
-    mv = ledger.receive(session, part.code, qty,
-                        unit_cost if unit_cost is not None else line.unit_cost, lot=lot,
-                        cured=cured, location=location, ts=ts, reference=po.ref,
-                        supplier=sup.code if sup else None, user=user)
+    mv = ledger.receive(session, replace(
+        delivery, part=part.code, unit_cost=unit_cost if unit_cost is not None else line.unit_cost,
+        reference=po.ref, supplier=sup.code if sup else None))
     pol = PurchaseOrderLine.__table__.c
     received = session.execute(
         update(PurchaseOrderLine).where(pol.id == line.id)

@@ -368,9 +368,10 @@ def receive_order(session: Session, ref: str, part: str, qty: int, *,
                   location: str = "MAIN") -> str:
     """Book a delivery against open purchase order ``ref``; returns its one-line summary."""
     from inventory.ordering.orders import receive_against_order
+    from inventory.stock.bookings import Receipt
 
-    return receive_against_order(session, ref, part, qty, unit_cost=unit_cost, cured=cured,
-                                 location=location).summary
+    return receive_against_order(session, ref, Receipt(part, qty, unit_cost, cured=cured,
+                                                       location=location)).summary
 
 
 def open_orders(session: Session) -> list:

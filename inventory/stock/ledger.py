@@ -31,8 +31,14 @@ from inventory.core.db import retry_deadlocks
 from inventory.core.errors import InventoryError
 from inventory.core.tables import Location, Lot, Movement, Part, StockBalance, SupplierItem
 from inventory.stock import allocation, months, timeline
+from inventory.stock.balances import StockLine, on_hand, on_hand_at, verify_balances
+from inventory.stock.bookings import DEFAULT_LOCATION, Adjustment, Count, Issue, Receipt, Stamp
 
-DEFAULT_LOCATION = "MAIN"
+# The reads and the booking records live in their own modules; the ledger's callers may
+# keep naming them here.
+__all__ = ["DEFAULT_LOCATION", "Adjustment", "Count", "Issue", "Receipt", "Stamp", "StockLine",
+           "adjust", "count", "current_user", "fifo_order", "issue", "lock_part_lots", "move",
+           "on_hand", "on_hand_at", "receive", "verify_balances"]
 
 
 def current_user() -> str:
@@ -81,14 +87,15 @@ def _bump_balance(session: Session, part_id: int, location_id: int, lot_id: int,
     session.execute(stmt)
 
 
-def _record(session: Session, *, part: Part, location: Location, lot: Lot, qty: int, kind: str,
-            ts: datetime | None, reference: str | None = None, reason: str | None = None,
-            user: str | None = None, batch_id: int | None = None,
-            reverses_id: int | None = None) -> Movement:
+def _record(session: Session, where: tuple[Part, Location, Lot], qty: int, kind: str,
+            stamp: Stamp) -> Movement:
+    """Write one movement of ``qty`` (signed) of a part at a location in a lot."""
+    part, location, lot = where
     values = dict(
-        ts=ts or _now(), part_id=part.id, location_id=location.id, lot_id=lot.id, qty=qty,
-        kind=kind, unit_cost=lot.unit_cost, reference=reference, reason=reason,
-        user=user or current_user(), batch_id=batch_id, reverses_id=reverses_id,
+        ts=stamp.ts or _now(), part_id=part.id, location_id=location.id, lot_id=lot.id,
+        qty=qty, kind=kind, unit_cost=lot.unit_cost, reference=stamp.reference,
+        reason=stamp.reason, user=stamp.user or current_user(), batch_id=stamp.batch_id,
+        reverses_id=stamp.reverses_id,
     )
     months.refuse_if_closed(session, values["ts"])
     # A Core insert: the ledger is append-only, so the ORM's change tracking buys nothing.
@@ -174,21 +181,18 @@ def _allocate(session: Session, part: Part, qty: int, location: Location | None,
 
 
 @retry_deadlocks
-def receive(session: Session, part_code: str, qty: int, unit_cost: Decimal | str | None = None, *,
-            lot: str | None = None, cured: str | None = None, location: str = DEFAULT_LOCATION,
-            received: date | None = None, ts: datetime | None = None,
-            reference: str | None = None, supplier: str | None = None, user: str | None = None,
-            batch_id: int | None = None) -> Movement:
-    """Book ``qty`` units into a lot (an existing lot code adds to it) at ``location``."""
+def receive(session: Session, r: Receipt) -> Movement:
+    """Book ``r.qty`` units into a lot (an existing lot code adds to it) at ``r.location``."""
+    qty, unit_cost, lot, cured, supplier = r.qty, r.unit_cost, r.lot, r.cured, r.supplier
     _positive(qty)
-    part = lookup.part(session, part_code)
-    loc = lookup.location(session, location)
+    part = lookup.part(session, r.part)
+    loc = lookup.location(session, r.location)
     try:
         cure = parse_quarter(cured) if cured else None
     except ValueError as exc:
         raise InventoryError(str(exc)) from None
-    ts = ts or _now()
-    received = received or ts.date()
+    ts = r.ts or _now()
+    received = r.received or ts.date()
     if cure and quarter_start(cure) > received:
         raise InventoryError(
             f"cure quarter {cure} of {part.code} starts after the receipt date "
@@ -216,8 +220,8 @@ def receive(session: Session, part_code: str, qty: int, unit_cost: Decimal | str
             f"lot {row.code} of {part.code} is costed at {row.unit_cost}, not {unit_cost}",
             kind="conflict", hint="a delivery at another cost needs its own lot code",
         )
-    return _record(session, part=part, location=loc, lot=row, qty=qty, kind="receipt", ts=ts,
-                   reference=reference, user=user, batch_id=batch_id)
+    return _record(session, (part, loc, row), qty, "receipt",
+                   Stamp(ts=ts, user=r.user, reference=r.reference, batch_id=r.batch_id))
 
 
 def _cost(session: Session, part: Part, unit_cost) -> Decimal:
@@ -244,81 +248,77 @@ def _cost(session: Session, part: Part, unit_cost) -> Decimal:
 
 
 @retry_deadlocks
-def issue(session: Session, part_code: str, qty: int, *, location: str | None = None,
-          reference: str | None = None, ts: datetime | None = None, user: str | None = None,
-          kind: str = "issue", reason: str | None = None,
-          batch_id: int | None = None, inspected: bool = False) -> list[Movement]:
-    """Take ``qty`` units out, oldest cure quarter first, from what was on hand on the
+def issue(session: Session, i: Issue) -> list[Movement]:
+    """Take ``i.qty`` units out, oldest cure quarter first, from what was on hand on the
     booking's day without taking any later balance below zero; all or nothing. An issue
-    skips lots past their ISO 2230 storage limit unless ``inspected`` (which records the
+    skips lots past their ISO 2230 storage limit unless ``i.inspected`` (which records the
     extension on the lot it uses)."""
-    _positive(qty)
-    part = lookup.part(session, part_code)
-    loc = lookup.location(session, location) if location else None
-    ts = ts or _now()
+    return _take(session, i, "issue")
+
+
+def _take(session: Session, i: Issue, kind: str) -> list[Movement]:
+    """:func:`issue` booked as ``kind`` (issue, adjust or count: only issues skip lots past
+    their storage limit)."""
+    _positive(i.qty)
+    part = lookup.part(session, i.part)
+    loc = lookup.location(session, i.location) if i.location else None
+    ts = i.ts or _now()
     months.refuse_if_closed(session, ts)
+    stamp = Stamp(ts=ts, user=i.user, reference=i.reference, reason=i.reason,
+                  batch_id=i.batch_id)
     return [
-        _record(session, part=part, location=t.location, lot=t.lot, qty=-t.qty, kind=kind, ts=ts,
-                reference=reference, reason=reason, user=user, batch_id=batch_id)
-        for t in _allocate(session, part, qty, loc, ts=ts, skip_expired=kind == "issue",
-                           inspected=inspected)
+        _record(session, (part, t.location, t.lot), -t.qty, kind, stamp)
+        for t in _allocate(session, part, i.qty, loc, ts=ts, skip_expired=kind == "issue",
+                           inspected=i.inspected)
     ]
 
 
-def _add_to_newest_lot(session, part, loc, qty, *, kind, ts, reason, user, unit_cost,
-                       reference=None, batch_id=None) -> Movement:
+def _add_to_newest_lot(session: Session, where: tuple[Part, Location], qty: int, kind: str,
+                       stamp: Stamp, unit_cost: Decimal | str | None) -> Movement:
+    """Book ``qty`` into the part's newest lot, or into a new lot at ``unit_cost``."""
+    part, loc = where
     lot = session.exec(
         select(Lot).where(Lot.part_id == part.id).order_by(Lot.received.desc(), Lot.id.desc())
     ).first()
     if lot is None or unit_cost is not None:
         lock_part_lots(session, part)
-        day = (ts or _now()).date()
+        day = (stamp.ts or _now()).date()
         lot = Lot(part_id=part.id, code=_next_lot_code(session, part, day), cured=None,
                   received=day, unit_cost=_cost(session, part, unit_cost))
         session.add(lot)
         session.flush()
-    return _record(session, part=part, location=loc, lot=lot, qty=qty, kind=kind, ts=ts,
-                   reason=reason, user=user, reference=reference, batch_id=batch_id)
+    return _record(session, (part, loc, lot), qty, kind, stamp)
 
 
 @retry_deadlocks
-def adjust(session: Session, part_code: str, qty: int, *, reason: str,
-           location: str = DEFAULT_LOCATION, ts: datetime | None = None,
-           user: str | None = None, unit_cost=None) -> list[Movement]:
+def adjust(session: Session, a: Adjustment) -> list[Movement]:
     """A signed correction with a reason. Out: oldest cure first. In: to the newest lot
-    (or a new lot at ``unit_cost``)."""
+    (or a new lot at ``a.unit_cost``)."""
+    qty, reason = a.qty, a.reason
     if isinstance(qty, bool) or not isinstance(qty, int) or qty == 0:
         raise InventoryError(f"adjustment must be a whole number other than 0, got {qty!r}")
     if not reason or not reason.strip():
         raise InventoryError("an adjustment needs a reason", hint="add --reason TEXT")
-    part = lookup.part(session, part_code)
-    loc = lookup.location(session, location)
+    part = lookup.part(session, a.part)
+    loc = lookup.location(session, a.location)
     if qty < 0:
-        return issue(session, part.code, -qty, location=loc.code, ts=ts, user=user,
-                     kind="adjust", reason=reason)
-    return [_add_to_newest_lot(session, part, loc, qty, kind="adjust", ts=ts, reason=reason,
-                               user=user, unit_cost=unit_cost)]
-
-
-def on_hand_at(session: Session, part: Part, location: Location | None = None) -> int:
-    q = select(func.coalesce(func.sum(StockBalance.qty), 0)).where(StockBalance.part_id == part.id)
-    if location is not None:
-        q = q.where(StockBalance.location_id == location.id)
-    return int(session.exec(q).one())
+        return _take(session, Issue(part.code, -qty, location=loc.code, ts=a.ts, user=a.user,
+                                    reason=reason), "adjust")
+    return [_add_to_newest_lot(session, (part, loc), qty, "adjust",
+                               Stamp(ts=a.ts, user=a.user, reason=reason), a.unit_cost)]
 
 
 @retry_deadlocks
-def count(session: Session, part_code: str, counted: int, *, location: str = DEFAULT_LOCATION,
-          ts: datetime | None = None, user: str | None = None,
-          reference: str | None = None, batch_id: int | None = None) -> list[Movement]:
+def count(session: Session, c: Count) -> list[Movement]:
     """Record a shelf count; the variance against the ledger becomes a ``count`` movement.
     A matching count writes nothing and returns no movement."""
+    counted = c.counted
     if isinstance(counted, bool) or not isinstance(counted, int) or counted < 0:
         raise InventoryError(f"counted quantity must be a whole number, 0 or more, got {counted!r}")
-    part = lookup.part(session, part_code)
-    loc = lookup.location(session, location)
+    part = lookup.part(session, c.part)
+    loc = lookup.location(session, c.location)
     _available(session, part, loc, lock=True)
-    ts = ts or _now()
+    ts = c.ts or _now()
     months.refuse_if_closed(session, ts)
     have = int(session.exec(  # on hand at the end of the count's day, from the ledger
         select(func.coalesce(func.sum(Movement.qty), 0)).where(
@@ -329,11 +329,12 @@ def count(session: Session, part_code: str, counted: int, *, location: str = DEF
     if variance == 0:
         return []
     if variance < 0:
-        return issue(session, part.code, -variance, location=loc.code, ts=ts, user=user,
-                     kind="count", reason=reason, reference=reference, batch_id=batch_id)
-    return [_add_to_newest_lot(session, part, loc, variance, kind="count", ts=ts, reason=reason,
-                               user=user, unit_cost=None, reference=reference,
-                               batch_id=batch_id)]
+        return _take(session, Issue(part.code, -variance, location=loc.code, ts=ts, user=c.user,
+                                    reason=reason, reference=c.reference,
+                                    batch_id=c.batch_id), "count")
+    return [_add_to_newest_lot(session, (part, loc), variance, "count",
+                               Stamp(ts=ts, user=c.user, reason=reason, reference=c.reference,
+                                     batch_id=c.batch_id), None)]
 
 
 @retry_deadlocks
@@ -350,81 +351,8 @@ def move(session: Session, part_code: str, qty: int, *, from_location: str, to_l
     out: list[Movement] = []
     months.refuse_if_closed(session, ts)
     for t in _allocate(session, part, qty, src, ts=ts):
-        out.append(_record(session, part=part, location=src, lot=t.lot, qty=-t.qty, kind="move",
-                           ts=ts, reason=f"to {dst.code}", user=user))
-        out.append(_record(session, part=part, location=dst, lot=t.lot, qty=t.qty, kind="move",
-                           ts=ts, reason=f"from {src.code}", user=user))
+        out.append(_record(session, (part, src, t.lot), -t.qty, "move",
+                           Stamp(ts=ts, user=user, reason=f"to {dst.code}")))
+        out.append(_record(session, (part, dst, t.lot), t.qty, "move",
+                           Stamp(ts=ts, user=user, reason=f"from {src.code}")))
     return out
-
-
-@dataclass(frozen=True, slots=True)
-class StockLine:
-    part: str
-    location: str
-    on_hand: int
-    value: Decimal
-    lot: str | None = None
-    cured: str | None = None
-
-    def to_dict(self) -> dict:
-        d = {"part": self.part, "location": self.location, "on_hand": self.on_hand,
-             "value": str(self.value)}
-        if self.lot is not None:
-            d.update(lot=self.lot, cured=self.cured)
-        return d
-
-
-def on_hand(session: Session, *, part: str | None = None, location: str | None = None,
-            by_lot: bool = False, as_of: datetime | None = None) -> list[StockLine]:
-    """Stock on hand summed from the ledger in SQL (not from the cached balances)."""
-    qty = func.sum(Movement.qty)
-    value = func.sum(Movement.qty * Movement.unit_cost)
-    cols = [Part.code, Location.code]
-    if by_lot:
-        cols += [Lot.code, Lot.cured]
-    q = (
-        select(*cols, qty, value)
-        .join(Part, Part.id == Movement.part_id)
-        .join(Location, Location.id == Movement.location_id)
-    )
-    if by_lot:
-        q = q.join(Lot, Lot.id == Movement.lot_id)
-    if part:
-        q = q.where(Movement.part_id == lookup.part(session, part).id)
-    if location:
-        q = q.where(Movement.location_id == lookup.location(session, location).id)
-    if as_of is not None:
-        q = q.where(Movement.ts <= as_of)
-    q = q.group_by(*cols).having(qty != 0).order_by(*cols)
-    out = []
-    for row in session.exec(q):
-        if by_lot:
-            p, loc, lot, cured, n, v = row
-        else:
-            p, loc, n, v = row
-            lot = cured = None
-        out.append(StockLine(p, loc, int(n), Decimal(str(v or 0)).quantize(Decimal("0.01")),
-                             lot, cured))
-    return out
-
-
-def verify_balances(session: Session) -> list[str]:
-    """Differences between the cached balances and the ledger (empty when they agree)."""
-    led = dict(
-        ((p, loc, lot), int(n))
-        for p, loc, lot, n in session.exec(
-            select(Movement.part_id, Movement.location_id, Movement.lot_id, func.sum(Movement.qty))
-            .group_by(Movement.part_id, Movement.location_id, Movement.lot_id)
-        )
-    )
-    bal = {
-        (b.part_id, b.location_id, b.lot_id): b.qty for b in session.exec(select(StockBalance))
-    }
-    problems = []
-    for key in sorted(set(led) | set(bal)):
-        a, b = led.get(key, 0), bal.get(key, 0)
-        if a != b:
-            problems.append(f"part {key[0]} location {key[1]} lot {key[2]}: ledger {a}, cached {b}")
-        if a < 0:
-            problems.append(f"part {key[0]} location {key[1]} lot {key[2]}: negative ledger {a}")
-    return problems

@@ -19,6 +19,7 @@ from inventory.core import lookup
 from inventory.core.errors import InventoryError
 from inventory.core.tables import JobLine, Location, Lot, Movement, Part, ServiceJob
 from inventory.stock import allocation, months, timeline
+from inventory.stock.bookings import Stamp
 from inventory.stock.ledger import _record
 
 
@@ -49,8 +50,9 @@ def _undo(session: Session, orig: Movement, qty: int, *, reason: str, ts: dateti
     months.refuse_if_closed(session, ts)
     if qty < 0:
         allocation.check_lot(session, part, loc, lot, -qty, timeline.day_of(ts))
-    return _record(session, part=part, location=loc, lot=lot, qty=qty, kind=orig.kind, ts=ts,
-                   reference=reference, reason=reason[:200], user=user, reverses_id=orig.id)
+    return _record(session, (part, loc, lot), qty, orig.kind,
+                   Stamp(ts=ts, user=user, reference=reference, reason=reason[:200],
+                         reverses_id=orig.id))
 
 
 def reverse(session: Session, movement_id: int, *, reason: str, ts: datetime | None = None,

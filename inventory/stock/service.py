@@ -10,16 +10,18 @@ from typing import Any
 from sqlmodel import Session, col, select
 
 from inventory.core.tables import Location, Movement
-from inventory.stock import ledger
-from inventory.stock.ledger import DEFAULT_LOCATION, StockLine
+from inventory.stock import balances, ledger
+from inventory.stock.balances import StockLine
+from inventory.stock.bookings import DEFAULT_LOCATION, Adjustment, Count, Issue, Receipt
 
-__all__ = ["DEFAULT_LOCATION", "StockLine", "adjust", "count", "issue", "locations", "move",
-           "on_hand", "receive"]
+__all__ = ["DEFAULT_LOCATION", "Adjustment", "Count", "Issue", "Receipt", "StockLine", "adjust",
+           "book_adjustment", "book_count", "book_issue", "book_move", "book_receipt", "count",
+           "issue", "locations", "move", "on_hand", "receive"]
 
 
 def on_hand(session: Session, *, part: str | None = None, location: str | None = None,
             by_lot: bool = False, as_of: datetime | None = None) -> list[StockLine]:
-    return ledger.on_hand(session, part=part, location=location, by_lot=by_lot, as_of=as_of)
+    return balances.on_hand(session, part=part, location=location, by_lot=by_lot, as_of=as_of)
 
 
 def locations(session: Session) -> list[str]:
@@ -29,28 +31,28 @@ def locations(session: Session) -> list[str]:
 def issue(session: Session, part: str, qty: int, *, location: str | None = None,
           reference: str | None = None) -> int:
     """Take ``qty`` out (oldest cure first); returns the units taken."""
-    return -sum(m.qty for m in ledger.issue(session, part, qty, location=location,
-                                            reference=reference))
+    return -sum(m.qty for m in ledger.issue(session, Issue(part, qty, location=location,
+                                                           reference=reference)))
 
 
 def receive(session: Session, part: str, qty: int, *, unit_cost: Decimal | None = None,
             cured: str | None = None, location: str = DEFAULT_LOCATION) -> str:
     """Book a delivery outside any purchase order; returns a one-line summary (against an
     order: :func:`inventory.ordering.service.receive_order`)."""
-    ledger.receive(session, part, qty, unit_cost, cured=cured, location=location)
+    ledger.receive(session, Receipt(part, qty, unit_cost, cured=cured, location=location))
     return f"received {qty} x {part} into {location}"
 
 
 def adjust(session: Session, part: str, qty: int, *, reason: str,
            location: str = DEFAULT_LOCATION) -> int:
-    return sum(m.qty for m in ledger.adjust(session, part, qty, reason=reason,
-                                            location=location))
+    return sum(m.qty for m in ledger.adjust(session, Adjustment(part, qty, reason,
+                                                                location=location)))
 
 
 def count(session: Session, part: str, counted: int, *,
           location: str = DEFAULT_LOCATION) -> int:
     """Book a shelf count; returns the variance booked (0 when the count agrees)."""
-    return sum(m.qty for m in ledger.count(session, part, counted, location=location))
+    return sum(m.qty for m in ledger.count(session, Count(part, counted, location=location)))
 
 
 def move(session: Session, part: str, qty: int, *, from_location: str,
@@ -59,35 +61,33 @@ def move(session: Session, part: str, qty: int, *, from_location: str,
     return qty
 
 
-# -- bookings for the command line: the ledger's own calls, returning the movements written
-# (the command line prints their lot and movement ids); keyword arguments are the ledger's
-# (ts, lot, cured, location, reference, inspected, unit_cost, ...).
+# -- bookings for the command line and the demo: the ledger's own calls with its booking
+# records (inventory.stock.bookings), returning the movements written (the command line
+# prints their lot and movement ids).
 
 
-def book_receipt(session: Session, part: str, qty: int, unit_cost: Decimal | None = None,
-                 **kwargs: Any) -> Movement:
+def book_receipt(session: Session, receipt: Receipt) -> Movement:
     """:func:`inventory.stock.ledger.receive`."""
-    return ledger.receive(session, part, qty, unit_cost, **kwargs)
+    return ledger.receive(session, receipt)
 
 
-def book_issue(session: Session, part: str, qty: int,
-               **kwargs: Any) -> tuple[list[Movement], list[str]]:
+def book_issue(session: Session, issue: Issue) -> tuple[list[Movement], list[str]]:
     """:func:`inventory.stock.ledger.issue`, with the allocation's notes (lots skipped past
     their storage limit, extensions recorded) for the person at the counter."""
     from inventory.stock import allocation
 
-    moves = ledger.issue(session, part, qty, **kwargs)
+    moves = ledger.issue(session, issue)
     return list(moves), list(allocation.notes(session))
 
 
-def book_adjustment(session: Session, part: str, qty: int, **kwargs: Any) -> list[Movement]:
+def book_adjustment(session: Session, adjustment: Adjustment) -> list[Movement]:
     """:func:`inventory.stock.ledger.adjust`."""
-    return list(ledger.adjust(session, part, qty, **kwargs))
+    return list(ledger.adjust(session, adjustment))
 
 
-def book_count(session: Session, part: str, counted: int, **kwargs: Any) -> list[Movement]:
+def book_count(session: Session, count: Count) -> list[Movement]:
     """:func:`inventory.stock.ledger.count` (no movement when the count agrees)."""
-    return list(ledger.count(session, part, counted, **kwargs))
+    return list(ledger.count(session, count))
 
 
 def book_move(session: Session, part: str, qty: int, **kwargs: Any) -> list[Movement]:
