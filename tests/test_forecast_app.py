@@ -92,9 +92,9 @@ def test_series_by_part_kit_and_family_equal_hand_tallies(store) -> None:
     jobs = build(store, 30)
     want = tally(jobs, 30)
     with Session(store) as s:
-        part = F.demand_outlook(s, today=TODAY, by="part", horizon=3)
-        kit = F.demand_outlook(s, today=TODAY, by="kit", horizon=3)
-        fam = F.demand_outlook(s, today=TODAY, by="family", horizon=3)
+        part = F.demand_outlook(s, F.ForecastRequest(TODAY, by="part", horizon=3))
+        kit = F.demand_outlook(s, F.ForecastRequest(TODAY, by="kit", horizon=3))
+        fam = F.demand_outlook(s, F.ForecastRequest(TODAY, by="family", horizon=3))
     assert part.codes == ["OIL-5", "OR-214", "WP-32"]  # every non-kit part, used or not
     wp = np.nan_to_num(part.history[part.codes.index("WP-32")])
     orr = np.nan_to_num(part.history[part.codes.index("OR-214")])
@@ -138,7 +138,7 @@ def test_seasonal_profile_from_pooled_jobs_matches_statsmodels_and_hand(store) -
 def test_short_history_runs_without_a_season(store) -> None:
     build(store, 8)
     with Session(store) as s:
-        rep = F.forecast_items(s, today=date(2024, 9, 10), by="part", horizon=4)
+        rep = F.forecast_items(s, F.ForecastRequest(date(2024, 9, 10), by="part", horizon=4))
     assert not rep.season.used
     assert "8 months of history" in rep.season.reason
     assert np.allclose(rep.season.profile, 1.0)
@@ -147,7 +147,7 @@ def test_short_history_runs_without_a_season(store) -> None:
     assert len(wp.history) == 8
     # no season and no installed base: a flat forecast (one level for every month)
     with Session(store) as s:
-        flat = F.forecast_items(s, today=date(2024, 9, 10), by="part", horizon=4,
+        flat = F.forecast_items(s, F.ForecastRequest(date(2024, 9, 10), by="part", horizon=4),
                                 settings=F.ForecastSettings(installed_base=False))
     wp = next(x for x in flat.series if x.code == "WP-32")
     assert flat.installed_base is None
@@ -157,8 +157,8 @@ def test_short_history_runs_without_a_season(store) -> None:
 def test_ranges_are_negative_binomial_quantiles_as_scipy(store) -> None:
     build(store, 30)
     with Session(store) as s:
-        out = F.demand_outlook(s, today=TODAY, by="part", horizon=6)
-        rep = F.forecast_items(s, today=TODAY, by="part", horizon=6)
+        out = F.demand_outlook(s, F.ForecastRequest(TODAY, by="part", horizon=6))
+        rep = F.forecast_items(s, F.ForecastRequest(TODAY, by="part", horizon=6))
     i = out.codes.index("WP-32")
     sf = next(x for x in rep.series if x.code == "WP-32")
     vmr = float(out.dist.vmr[i])
@@ -193,7 +193,8 @@ def test_weekly_buckets_add_up_to_the_monthly_totals(store) -> None:
     want = tally(jobs, 14)
     with Session(store) as s:
         hist = load_history(s, until=date(2025, 2, 28), freq="W")
-        rep = F.forecast_items(s, today=date(2025, 3, 5), by="kit", freq="W", horizon=5)
+        rep = F.forecast_items(s, F.ForecastRequest(date(2025, 3, 5), by="kit", freq="W",
+                                                   horizon=5))
     k = hist.items.index("K-TST")
     # every job day is a 2nd/6th/10th/... of a month: each week lies in one month here
     assert np.nansum(hist.values[k]) == want["kit"].sum()
@@ -209,7 +210,7 @@ def test_weekly_buckets_add_up_to_the_monthly_totals(store) -> None:
 def test_installed_base_is_judged_and_reported(store) -> None:
     build(store, 30)
     with Session(store) as s:
-        rep = F.forecast_items(s, today=TODAY, by="kit", horizon=6)
+        rep = F.forecast_items(s, F.ForecastRequest(TODAY, by="kit", horizon=6))
     ibi = rep.installed_base
     assert ibi is not None
     assert 0.0 <= ibi.weight <= 1.0 and ibi.reason

@@ -161,9 +161,11 @@ def forecast(
     by_: By = by.value  # type: ignore[assignment]
     with _progress(FORECAST_STEPS + 2, "forecast", quiet=as_json) as step, reading(ctx) as s:
         report, _, written = service.forecast_command(
-            s, today=day, top=top, parts=tuple(parts), xlsx=xlsx, charts=charts,
-            defaults=not as_json, step=step, horizon=horizon, by=by_,
-            freq="W" if weekly else "M", lead_time_months=lead_time, review_months=review)
+            s, service.ForecastRequest(today=day, horizon=horizon, by=by_,
+                                       freq="W" if weekly else "M",
+                                       lead_time_months=lead_time, review_months=review),
+            service.ForecastFiles(top=top, parts=tuple(parts), xlsx=xlsx, charts=charts,
+                                  defaults=not as_json), step=step)
     if as_json:
         data = report.to_dict()
         data["files"] = [str(p) for p in written]

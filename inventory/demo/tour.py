@@ -161,13 +161,13 @@ def forecast_tour(url: str, reports_dir: str | Path = "reports", *,
     """The demo shop's next season: kit forecast per month from the day after the history
     (the demo's "today", 2026-12-02), a short table, and where the workbook and charts went."""
     from inventory.cli.forecast_cmd import render_table
-    from inventory.forecast.service import forecast_items, write_outputs
+    from inventory.forecast.service import ForecastRequest, forecast_items, write_outputs
 
     day = today or date(2026, 12, 2)
     engine = make_engine(url)
     with Session(engine) as s:
-        report = forecast_items(s, today=day, horizon=7, by="kit")
-        parts = forecast_items(s, today=day, horizon=7, by="part")
+        report = forecast_items(s, ForecastRequest(today=day, horizon=7, by="kit"))
+        parts = forecast_items(s, ForecastRequest(today=day, horizon=7, by="part"))
     say(f"[bold]Next season's demand[/bold] from {day.isoformat()} "
         "(kits per month, with the 10-90 % range over lead time + review)")
     render_table(report, 8)

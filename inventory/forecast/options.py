@@ -1,13 +1,17 @@
-"""What a forecast is asked: the kind of series and the settings that travel together."""
+"""What a forecast is asked: which series over which periods (:class:`ForecastRequest`), the
+settings that travel together (:class:`ForecastSettings`) and the files ``inventory forecast``
+writes (:class:`ForecastFiles`)."""
 
 from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Literal
+from datetime import date
+from typing import Any, Literal
 
 from inventory.forecast import installed_base as ib
 from inventory.forecast import methods as fc
+from inventory.forecast.demand import Freq
 
 By = Literal["part", "kit", "family", "item"]
 WEEKS_PER_MONTH = 52.1775 / 12
@@ -33,3 +37,31 @@ class ForecastSettings:
     intervals: ib.ServiceIntervals = field(default_factory=ib.ServiceIntervals)
     returns: ib.ReturnOptions = field(default_factory=ib.ReturnOptions)
     fit: fc.FitOptions = field(default_factory=fc.FitOptions)
+
+
+@dataclass(frozen=True)
+class ForecastRequest:
+    """Which forecast: every series of ``by`` (part, kit, family or item) from the history
+    before ``today``'s month (``freq="M"``) or ISO week (``"W"``), ``horizon`` periods ahead
+    (at least the cover), the demand distribution over ``lead_time_months`` +
+    ``review_months``."""
+
+    today: date
+    horizon: int = 6
+    by: By = "part"
+    freq: Freq = "M"
+    lead_time_months: float = 1.0
+    review_months: float = 1.0
+
+
+@dataclass(frozen=True)
+class ForecastFiles:
+    """What ``inventory forecast`` writes: charts for the ``top`` series by usage value plus
+    those named in ``parts``; the workbook at ``xlsx`` and the charts in the folder
+    ``charts``, or (``defaults``) under ``reports/`` when not given."""
+
+    top: int = 0
+    parts: tuple[str, ...] = ()
+    xlsx: Any = None
+    charts: Any = None
+    defaults: bool = True

@@ -39,7 +39,7 @@ in months, and whose :meth:`DemandOutlook.per_period` gives the same for any oth
 from __future__ import annotations
 
 import time
-from collections.abc import Callable, Sequence
+from collections.abc import Callable
 from dataclasses import replace
 from datetime import date
 from typing import Any
@@ -48,12 +48,18 @@ import numpy as np
 from sqlmodel import Session
 
 from inventory.core.errors import InventoryError
-from inventory.forecast import demand as dm
 from inventory.forecast import methods as fc
 from inventory.forecast.data import last_complete_period, load_history
 from inventory.forecast.distributions import DemandDistribution, negative_binomial
 from inventory.forecast.ib_signal import blend_installed_base
-from inventory.forecast.options import WEEKS_PER_MONTH, By, ForecastSettings, Progress
+from inventory.forecast.options import (
+    WEEKS_PER_MONTH,
+    By,
+    ForecastFiles,
+    ForecastRequest,
+    ForecastSettings,
+    Progress,
+)
 from inventory.forecast.report import (
     PLAIN_CLASS,
     DemandOutlook,
@@ -68,7 +74,8 @@ from inventory.forecast.series import build_series, scale_of
 
 # the faces and the planner import these names from here
 __all__ = [
-    "PLAIN_CLASS", "By", "DemandOutlook", "ForecastReport", "ForecastSettings",
+    "PLAIN_CLASS", "By", "DemandOutlook", "ForecastFiles", "ForecastReport", "ForecastRequest",
+    "ForecastSettings",
     "InstalledBaseInfo", "SeasonInfo", "SeriesForecast", "demand_outlook", "forecast_command",
     "forecast_items", "job_profile", "lead_time_demand", "write_outputs",
 ]
@@ -76,18 +83,16 @@ __all__ = [
 
 def demand_outlook(
     session: Session,
+    request: ForecastRequest,
     *,
-    today: date,
-    horizon: int = 6,
-    by: By = "item",
-    freq: dm.Freq = "M",
-    lead_time_months: float = 1.0,
-    review_months: float = 1.0,
     settings: ForecastSettings | None = None,
     progress: Progress | None = None,
 ) -> DemandOutlook:
-    """Fit the forecast of every series of ``by`` from the history before ``today``'s month
-    (or ISO week); forecast ``horizon`` periods from it (at least the cover)."""
+    """Fit the forecast of every series of ``request.by`` from the history before
+    ``request.today``'s month (or ISO week); forecast ``request.horizon`` periods from it (at
+    least the cover)."""
+    today, horizon, by, freq = request.today, request.horizon, request.by, request.freq
+    lead_time_months, review_months = request.lead_time_months, request.review_months
     st = settings or ForecastSettings()
     step = progress or (lambda _msg: None)
     if horizon < 1:
@@ -153,30 +158,27 @@ def lead_time_demand(
     forecast result)``. Pass the distribution to
     :func:`inventory.ordering.policy.order_up_to_levels` with ``lead_time + review_period``
     summing to ``cover_months`` (in months)."""
-    out = demand_outlook(session, today=today, horizon=max(int(np.ceil(cover_months)), 1),
-                         by=by, lead_time_months=max(cover_months - 1.0, 0.0),
-                         review_months=min(cover_months, 1.0), settings=settings)
+    request = ForecastRequest(today=today, horizon=max(int(np.ceil(cover_months)), 1), by=by,
+                              lead_time_months=max(cover_months - 1.0, 0.0),
+                              review_months=min(cover_months, 1.0))
+    out = demand_outlook(session, request, settings=settings)
     return out.codes, out.dist, out.result
 
 
 def forecast_items(
     session: Session,
+    request: ForecastRequest,
     *,
-    today: date,
-    horizon: int = 6,
-    by: By = "part",
-    freq: dm.Freq = "M",
-    lead_time_months: float = 1.0,
-    review_months: float = 1.0,
     settings: ForecastSettings | None = None,
     progress: Progress | None = None,
 ) -> ForecastReport:
-    """The forecast of every ``by`` series as plain records (see the module docstring)."""
+    """The forecast of every ``request.by`` series as plain records (see the module
+    docstring)."""
     t0 = time.perf_counter()
+    today, horizon, by, freq = request.today, request.horizon, request.by, request.freq
+    lead_time_months, review_months = request.lead_time_months, request.review_months
     st = settings or ForecastSettings()
-    out = demand_outlook(session, today=today, horizon=horizon, by=by, freq=freq,
-                         lead_time_months=lead_time_months, review_months=review_months,
-                         settings=st, progress=progress)
+    out = demand_outlook(session, request, settings=st, progress=progress)
     if progress:
         progress("ranges")
     qlo, qhi = st.quantiles
@@ -257,15 +259,16 @@ def write_outputs(report: ForecastReport, chosen: list, *, xlsx: Any = None, cha
     return written
 
 
-def forecast_command(session: Session, *, today: date, top: int = 0,
-                     parts: Sequence[str] = (), xlsx: Any = None, charts: Any = None,
-                     defaults: bool = True, step: Callable[[str], Any] | None = None,
-                     **forecast_args: Any) -> tuple[ForecastReport, list, list]:
-    """``inventory forecast``: :func:`forecast_items` (``forecast_args``: horizon, by, freq,
-    lead_time_months, review_months), the series chosen for the files (``top`` by volume
-    plus ``parts``), and the files written; returns (report, chosen, files)."""
-    report = forecast_items(session, today=today, progress=step, **forecast_args)
-    chosen = report.chosen(top, tuple(parts))
-    written = write_outputs(report, chosen, xlsx=xlsx, charts=charts, defaults=defaults,
-                            step=step)
+def forecast_command(session: Session, request: ForecastRequest,
+                     files: ForecastFiles | None = None, *,
+                     step: Callable[[str], Any] | None = None
+                     ) -> tuple[ForecastReport, list, list]:
+    """``inventory forecast``: :func:`forecast_items`, the series chosen for the files
+    (``files.top`` by volume plus ``files.parts``), and the files written; returns (report,
+    chosen, files)."""
+    out = files or ForecastFiles()
+    report = forecast_items(session, request, progress=step)
+    chosen = report.chosen(out.top, tuple(out.parts))
+    written = write_outputs(report, chosen, xlsx=out.xlsx, charts=out.charts,
+                            defaults=out.defaults, step=step)
     return report, chosen, written

@@ -105,12 +105,12 @@ def outlook_forecast(session: Session, as_of: date, *, cover_months: float = 2.0
     item as it leaves the shelf) as a :class:`ForecastSource`. At most ``outlook_months``
     are forecast; the planner repeats the last year beyond them (shelf-life caps look years
     ahead, where the installed-base signal says nothing new)."""
-    from inventory.forecast.service import demand_outlook
+    from inventory.forecast.service import ForecastRequest, demand_outlook
 
-    out = demand_outlook(session, today=as_of, horizon=min(horizon_months, outlook_months),
-                         by="item",
-                         lead_time_months=max(cover_months - 1.0, 0.0),
-                         review_months=min(max(cover_months, 0.1), 1.0))
+    out = demand_outlook(session, ForecastRequest(
+        today=as_of, horizon=min(horizon_months, outlook_months), by="item",
+        lead_time_months=max(cover_months - 1.0, 0.0),
+        review_months=min(max(cover_months, 0.1), 1.0)))
     month0 = np.datetime64(out.periods[0], "D").item()
     seen = (np.nan_to_num(out.history) > 0).any(axis=1)
     return DemandForecast(tuple(out.codes), month0, out.mean, out.dist, seen)

@@ -85,7 +85,7 @@ async def plan_charts(request: Request) -> Response:
 
     def go(s):
         from inventory.forecast.charts import chart_name
-        from inventory.forecast.service import forecast_command
+        from inventory.forecast.service import ForecastFiles, ForecastRequest, forecast_command
 
         as_of = day_field(q.get("date"), "date") or date.today()
         codes = []
@@ -95,9 +95,9 @@ async def plan_charts(request: Request) -> Response:
         token = secrets.token_hex(6)
         folder = _chart_dir() / token
         try:
-            report, chosen, _ = forecast_command(s, today=as_of, top=0 if codes else 12,
-                                                 parts=(), charts=None, defaults=False,
-                                                 by=by)
+            report, chosen, _ = forecast_command(s, ForecastRequest(today=as_of, by=by),
+                                                 ForecastFiles(top=0 if codes else 12,
+                                                               defaults=False))
         except InventoryError as exc:
             return token, [], (message_of(exc), 1)
         known = {x.code: x for x in report.series}
