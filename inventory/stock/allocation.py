@@ -58,12 +58,26 @@ def notes(session: Session) -> list[str]:
     return list(session.info.get("stock_notes", []))
 
 
-def pick(session: Session, part: Part, qty: int, location: Location | None,
-         rows: list[tuple[StockBalance, Lot, Location]], *, day: date,
-         skip_expired: bool = False, inspected: bool = False) -> list[Pick]:
-    """Choose lots for taking ``qty`` of ``part`` on ``day`` from ``rows`` (the part's
-    balances above zero, locked, in FIFO order). Raises a one-line shortage naming the part,
-    the day, the lots and what they held then."""
+@dataclass(frozen=True, slots=True)
+class Want:
+    """Take ``qty`` of ``part`` on ``day`` (only at ``location`` if given); ``skip_expired``
+    sets aside lots past their ISO 2230 storage limit unless ``inspected``."""
+
+    part: Part
+    qty: int
+    location: Location | None
+    day: date
+    skip_expired: bool = False
+    inspected: bool = False
+
+
+def pick(session: Session, want: Want,
+         rows: list[tuple[StockBalance, Lot, Location]]) -> list[Pick]:
+    """Choose lots for taking ``want.qty`` of ``want.part`` on ``want.day`` from ``rows``
+    (the part's balances above zero, locked, in FIFO order). Raises a one-line shortage
+    naming the part, the day, the lots and what they held then."""
+    part, qty, location, day = want.part, want.qty, want.location, want.day
+    skip_expired, inspected = want.skip_expired, want.inspected
     balances = {(b.location_id, b.lot_id): b.qty for b, _, _ in rows}
     later = timeline.later_movements(session, part.id, day,
                                      location_id=location.id if location else None)
@@ -102,12 +116,11 @@ def pick(session: Session, part: Part, qty: int, location: Location | None,
         from sqlalchemy import select
 
         codes.update(session.execute(select(Lot.id, Lot.code).where(Lot.id.in_(missing))).all())
-    raise _shortage(part, qty, location, day, rows, win, expired, dated=bool(later),
-                    codes=codes)
+    raise _shortage(want, rows, win, expired, dated=bool(later), codes=codes)
 
 
-def _shortage(part, qty, location, day, rows, win, expired, *, dated,
-              codes) -> InventoryError:
+def _shortage(want: Want, rows, win, expired, *, dated, codes) -> InventoryError:
+    part, qty, location, day = want.part, want.qty, want.location, want.day
     where = f" at {location.code}" if location is not None else ""
     if not dated and not expired:  # nothing booked after the day: today's shelf is the answer
         have = sum(b.qty for b, _, _ in rows)

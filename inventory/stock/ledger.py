@@ -175,8 +175,9 @@ def _allocate(session: Session, part: Part, qty: int, location: Location | None,
     """Lots to take ``qty`` from on the booking's day, in time order (see
     :mod:`inventory.stock.allocation`, the one allocation path)."""
     rows = _available(session, part, location, lock=True)
-    picks = allocation.pick(session, part, qty, location, rows, day=timeline.day_of(ts or _now()),
-                            skip_expired=skip_expired, inspected=inspected)
+    want = allocation.Want(part, qty, location, timeline.day_of(ts or _now()),
+                           skip_expired=skip_expired, inspected=inspected)
+    picks = allocation.pick(session, want, rows)
     return [Take(p.balance.id, p.location, p.lot, p.qty) for p in picks]
 
 
