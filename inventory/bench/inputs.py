@@ -6,10 +6,8 @@ from __future__ import annotations
 
 import dataclasses
 
-from rapidfuzz import fuzz, process
-
-from inventory.bench.fit import FitRules, Limit
-from inventory.bench.matching import MatchTolerance
+from inventory.bench.fit_limits import FitRules, Limit
+from inventory.bench.match_query import MatchTolerance
 from inventory.bench.seals import MATERIALS, PLAUSIBLE_MM, normalise_material, parse_dimension
 from inventory.core.errors import InventoryError
 from inventory.core.model import PartKind
@@ -34,6 +32,8 @@ def parse_kind(text: str | None) -> PartKind | None:
     kinds = [k.value for k in PartKind if k not in NOT_BENCH_KINDS]
     if key in kinds:
         return PartKind(key)
+    from rapidfuzz import fuzz, process  # only to suggest a spelling
+
     close = [c for c, _, _ in process.extract(key, kinds, scorer=fuzz.ratio, limit=3,
                                               score_cutoff=50)]
     hint = f"did you mean {', '.join(close)}?" if close else f"one of {', '.join(kinds)}"
@@ -46,6 +46,8 @@ def parse_material(text: str | None) -> str | None:
     key = normalise_material(text)
     if key in MATERIALS:
         return key
+    from rapidfuzz import fuzz, process  # only to suggest a spelling
+
     close = [c for c, _, _ in process.extract(key or "", list(MATERIALS), scorer=fuzz.ratio,
                                               limit=3, score_cutoff=50)]
     hint = f"did you mean {', '.join(close)}?" if close else "an ISO 1629 code such as NBR"

@@ -202,7 +202,10 @@ def match(query: MatchQuery, candidates: PartArrays, *,
     rough = _rank_scores(query, candidates, tolerance, weights)
     # take a margin of extra rows so float32 rounding cannot push a true top row out
     k = min(n, limit + 16)
-    top = np.argpartition(rough, k - 1)[:k] if k < n else np.arange(n)
+    if k < n:  # every row tied with the k-th too: ties then rank by index, never by chance
+        top = np.flatnonzero(rough <= rough[np.argpartition(rough, k - 1)[:k]].max())
+    else:
+        top = np.arange(n)
     sub = candidates.cols.take(top)
     parts_top = _score_columns(query, sub, tolerance, weights)
     total_top = np.sum(list(parts_top.values()), axis=0)

@@ -15,11 +15,13 @@ from __future__ import annotations
 from dataclasses import dataclass
 from functools import cache, lru_cache
 from importlib import resources
-
-import numpy as np
+from typing import TYPE_CHECKING
 
 from inventory.core.units import MM_PER_INCH
 from inventory.sheets.csvread import csv_text_grid
+
+if TYPE_CHECKING:  # the arrays load numpy when first built (a lookup by SQL needs none)
+    import numpy as np
 
 AS568_FILE = "as568.csv"
 ISO3601_FILE = "iso3601_metric.csv"
@@ -65,6 +67,8 @@ class StandardRings:
 
     def index(self, designation: str) -> int:
         """Row of a designation (case and spacing tolerant), ``KeyError`` when unknown."""
+        import numpy as np
+
         key = normalise_designation(designation)
         hits = np.flatnonzero(self.designation == key)
         if not len(hits):
@@ -100,9 +104,24 @@ def normalise_designation(text: str) -> str:
 
 
 def _frozen(values: list, dtype=float) -> np.ndarray:
+    import numpy as np
+
     arr = np.asarray(values, dtype=dtype)
     arr.setflags(write=False)
     return arr
+
+
+@cache
+def standard_ring_rows() -> tuple[tuple[str, float, float], ...]:
+    """(designation, inside diameter mm, cross-section mm) of every standard size, AS568
+    then ISO 3601-1, as plain numbers: the same values and order as
+    :func:`standard_orings`, without numpy."""
+    _, as568 = read_standard_csv(AS568_FILE)
+    _, iso = read_standard_csv(ISO3601_FILE)
+    return (tuple((as568_designation(int(r["dash"])), float(r["id_in"]) * MM_PER_INCH,
+                   float(r["cs_in"]) * MM_PER_INCH) for r in as568)
+            + tuple((iso3601_designation(float(r["d1_mm"]), float(r["d2_mm"])),
+                     float(r["d1_mm"]), float(r["d2_mm"])) for r in iso))
 
 
 @lru_cache(maxsize=1)
@@ -139,6 +158,8 @@ def iso3601_rings() -> StandardRings:
 @lru_cache(maxsize=1)
 def standard_orings() -> StandardRings:
     """AS568 followed by the ISO 3601-1 metric series, as one set of arrays."""
+    import numpy as np
+
     a, b = as568_rings(), iso3601_rings()
     return StandardRings(
         **{

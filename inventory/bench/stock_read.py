@@ -10,78 +10,33 @@ good until its ``extended_until``) are counted per part.
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
 from datetime import date
 
-from sqlalchemy import func
-from sqlmodel import Session, col, select
+from sqlmodel import Session
 
-from inventory.bench.seals import is_past_storage_limit
+# one definition of a part's stock and of a lot past storage, shared with the plain reader
+from inventory.bench.match_rows import StockInfo as StockInfo
+from inventory.bench.match_rows import lot_past_storage as lot_past_storage
+from inventory.bench.match_sql import STOCK_SQL, collect_stock
 from inventory.core.model import PartSpec
-from inventory.core.tables import Location, Lot, Movement, Part
-
-
-@dataclass(frozen=True, slots=True)
-class StockInfo:
-    """Stock of one part: on hand, by location (largest first), units past storage."""
-
-    on_hand: int = 0
-    locations: tuple[tuple[str, int], ...] = ()
-    past_storage: int = 0
-    lots_past: tuple[str, ...] = ()
-
-    @property
-    def location(self) -> str | None:
-        return ", ".join(loc for loc, _ in self.locations) or None
-
-
-def lot_past_storage(cured: str | None, material: str | None, on: date, *,
-                     extended_until: date | None = None) -> bool:
-    """True when a lot is past its ISO 2230 storage period on ``on``. A lot inspected and
-    extended is good until ``extended_until``; lots without a cure quarter, plastics,
-    metals and unknown materials are never flagged."""
-    if not cured or not material:
-        return False
-    if extended_until is not None:
-        return on > extended_until
-    try:
-        return is_past_storage_limit(cured, material, on)
-    except ValueError:
-        return False
 
 
 def stock_infos(session: Session, specs: Mapping[str, PartSpec], *, on: date,
                 codes: Sequence[str] | None = None) -> dict[str, StockInfo]:
     """On hand, locations and units past storage of the parts ``codes`` (None: every part
-    with stock), the movements summed per part, location and lot in one query. Parts with
+    with stock), the movements summed per part, location and lot in one query
+    (:data:`inventory.bench.match_sql.STOCK_SQL`, the plain reader's query too). Parts with
     nothing on hand are left out."""
-    qty = func.sum(Movement.qty)
-    q = (select(Part.code, Location.code, Lot.code, Lot.cured, Lot.extended_until, qty)
-         .join(Part, col(Part.id) == Movement.part_id)
-         .join(Location, col(Location.id) == Movement.location_id)
-         .join(Lot, col(Lot.id) == Movement.lot_id))
-    if codes is not None:
-        q = q.where(col(Part.code).in_(list(codes)))
-    q = (q.group_by(Part.code, Location.code, Lot.code, Lot.cured, Lot.extended_until)
-         .having(qty != 0)
-         .order_by(Part.code, Location.code, Lot.code, Lot.cured))
-    acc: dict[str, dict] = {}
-    for part, loc, lot, cured, until, n in session.exec(q):
-        n = int(n)
-        if n <= 0:
-            continue
-        a = acc.setdefault(part, {"n": 0, "loc": {}, "past": 0, "lots": []})
-        a["n"] += n
-        a["loc"][loc] = a["loc"].get(loc, 0) + n
-        spec = specs.get(part)
-        if spec and lot_past_storage(cured, spec.material, on, extended_until=until):
-            a["past"] += n
-            a["lots"].append(lot)
-    return {
-        code: StockInfo(a["n"], tuple(sorted(a["loc"].items(), key=lambda kv: (-kv[1], kv[0]))),
-                        a["past"], tuple(dict.fromkeys(a["lots"])))
-        for code, a in acc.items()
-    }
+    from sqlalchemy import text
+
+    from inventory.core.sqlread import expand
+
+    if codes is None:
+        sql, params = STOCK_SQL.format(where=""), {}
+    else:
+        sql, params = expand(STOCK_SQL.format(where="WHERE p.code IN :codes"),
+                             {"codes": list(codes)})
+    return collect_stock(session.execute(text(sql), params), specs, on)
 
 
 def stock_by_part(session: Session, specs: dict[str, PartSpec], *,

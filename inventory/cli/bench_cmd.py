@@ -15,7 +15,7 @@ from typing import TYPE_CHECKING
 import typer
 from rich.table import Table
 
-from inventory.cli.common import console, print_json, print_table, reading, say
+from inventory.cli.common import console, plain_reading, print_json, print_table, reading, say
 from inventory.core.errors import InventoryError
 from inventory.core.units import format_length
 
@@ -214,27 +214,19 @@ def match(ctx: typer.Context,
     """Rank the shop's parts and the standard sizes against caliper readings; with --fork
     and --seat, give each a fit verdict (no dimensions: every part that fits the seat)."""
     from inventory.bench import service as svc
-    from inventory.bench.fit import FitRules
-    from inventory.bench.matching import MatchQuery
-    from inventory.core.model import PartKind
 
     unit = _unit(unit)
     if limit is not None and limit < 1:
         raise InventoryError(f"--limit must be 1 or more, got {limit}")
-    with reading(ctx) as s:
-        seat_spec = svc.find_seat(s, fork, seat)
-        wanted = svc.parse_kind(kind) or (PartKind(seat_spec.part_kind) if seat_spec else None)
-        query = MatchQuery(
-            id_mm=svc.parse_dim(id_, "id", wanted, unit=unit),
-            od_mm=svc.parse_dim(od, "od", wanted, unit=unit),
-            height_mm=svc.parse_dim(height, "height", wanted, unit=unit),
-            cs_mm=svc.parse_dim(cs, "cs", wanted, unit=unit),
-            kind=wanted, material=svc.parse_material(material))
-        rules = svc.hardness_rules(FitRules(), hardness_tol)
-        request = svc.MatchRequest(query, svc.parse_tolerance(tol, unit=unit), limit,
-                                   seat_spec, svc.check_hardness(hardness), rules,
-                                   standard=not no_standard)
-        result = svc.run_match(svc.load_shop(s), request)
+    form = svc.MatchForm(id_=id_, od=od, height=height, cs=cs, kind=kind, material=material,
+                         tol=tol, hardness=hardness, hardness_tol=hardness_tol, fork=fork,
+                         seat=seat, limit=limit, standard=not no_standard, unit=unit)
+    if form.has_seat:  # the seat's verdicts come from the fit rules, over the arrays
+        with reading(ctx) as s:
+            result = svc.match_parts(s, form)
+    else:  # readings only: the database finds the candidates (no ORM, no numpy)
+        with plain_reading(ctx) as reader:
+            result = svc.match_readings(reader, form)
     if as_json:
         print_json(result.to_dict())
         return

@@ -9,7 +9,7 @@ import typer
 
 from inventory.cli import options
 from inventory.cli.common import print_json, print_table, reading, say, unit_of_work
-from inventory.stock import service
+from inventory.core.names import DEFAULT_LOCATION
 
 SIGNED = {"ignore_unknown_options": True}  # lets "-2" through as a quantity
 
@@ -45,7 +45,7 @@ def receive(ctx: typer.Context,
             cost: str = typer.Option(None, "--cost", help="Unit cost; defaults to the last lot's."),
             lot: str = typer.Option(None, "--lot", help="Lot code; an existing lot is topped up."),
             cured: str = typer.Option(None, "--cured", help="Cure quarter, e.g. 2026Q3 or 3/26."),
-            location: str = typer.Option(service.DEFAULT_LOCATION, "--location", help="Location code."),
+            location: str = typer.Option(DEFAULT_LOCATION, "--location", help="Location code."),
             order: str = typer.Option(None, "--order", help="Purchase order reference: receives "
                                       "against its line and closes it when complete."),
             tolerance: float = typer.Option(0.05, "--tolerance",
@@ -55,6 +55,8 @@ def receive(ctx: typer.Context,
             cost_ok: bool = typer.Option(False, "--cost-ok", help=COST_OK_HELP),
             ) -> None:
     """Book a delivery into stock."""
+    from inventory.stock import service
+
     qty = options.quantity(qty, "QTY")
     unit_cost, ts = _money(cost, cost_ok), when(day)
     lot = options.code(lot, "--lot", "lot")
@@ -89,6 +91,8 @@ def issue(ctx: typer.Context,
           ) -> None:
     """Take stock out, oldest cure quarter first, from what was on hand on the booking date;
     lots past their storage limit are skipped unless --inspected."""
+    from inventory.stock import service
+
     qty, job = options.quantity(qty, "QTY"), options.code(job, "--job", "job")
     with unit_of_work(ctx) as s:
         moves, notes = service.book_issue(s, service.Issue(part, qty, location=location,
@@ -113,6 +117,8 @@ def reverse(ctx: typer.Context,
             day: str = typer.Option(None, "--date", help="Booking date (default today)."),
             ) -> None:
     """Reverse a movement booked by mistake with a new movement that points at it."""
+    from inventory.stock import service
+
     with unit_of_work(ctx) as s:
         mv = service.reverse(s, movement, reason=reason, ts=when(day))
     say(f"reversed movement {movement}: {mv.qty:+d} booked as movement {mv.id}")
@@ -126,6 +132,8 @@ def return_(ctx: typer.Context,
             day: str = typer.Option(None, "--date", help="Booking date (default today)."),
             ) -> None:
     """Put unused parts from a job back into the lots they came from (net usage drops)."""
+    from inventory.stock import service
+
     qty, job = options.quantity(qty, "QTY"), options.code(job, "--job", "job")
     with unit_of_work(ctx) as s:
         got = service.return_from_job(s, job, part, qty, ts=when(day))
@@ -141,6 +149,8 @@ def void_job(ctx: typer.Context,
              day: str = typer.Option(None, "--date", help="Booking date (default today)."),
              ) -> None:
     """Void a job: everything it took (less returns) goes back with new movements."""
+    from inventory.stock import service
+
     job = options.code(job, "JOB", "job")
     with unit_of_work(ctx) as s:
         got = service.void_job(s, job, reason=reason, ts=when(day))
@@ -155,12 +165,14 @@ def adjust(ctx: typer.Context,
            part: str = typer.Argument(...),
            qty: int = typer.Argument(..., help="Signed correction, e.g. -2 or 3."),
            reason: str = typer.Option(..., "--reason", help="Why (damaged, found, ...)."),
-           location: str = typer.Option(service.DEFAULT_LOCATION, "--location", help="Location code."),
+           location: str = typer.Option(DEFAULT_LOCATION, "--location", help="Location code."),
            cost: str = typer.Option(None, "--cost", help="Unit cost of units added."),
            day: str = typer.Option(None, "--date", help="Booking date (default today)."),
            cost_ok: bool = typer.Option(False, "--cost-ok", help=COST_OK_HELP),
            ) -> None:
     """Correct stock with a reason (a new movement; nothing is edited)."""
+    from inventory.stock import service
+
     qty = options.quantity(qty, "QTY", signed=True)
     reason = options.code(reason, "--reason", "reason")
     unit_cost, ts = _money(cost, cost_ok), when(day)
@@ -174,10 +186,12 @@ def adjust(ctx: typer.Context,
 def count(ctx: typer.Context,
           part: str = typer.Argument(...),
           counted: int = typer.Argument(..., help="Units on the shelf."),
-          location: str = typer.Option(service.DEFAULT_LOCATION, "--location", help="Location code."),
+          location: str = typer.Option(DEFAULT_LOCATION, "--location", help="Location code."),
           day: str = typer.Option(None, "--date", help="Booking date (default today)."),
           ) -> None:
     """Record a shelf count; the variance is booked as a movement."""
+    from inventory.stock import service
+
     counted = options.quantity(counted, "COUNTED", zero=True)
     with unit_of_work(ctx) as s:
         moves = service.book_count(s, service.Count(part, counted, location=location,
@@ -197,6 +211,8 @@ def move(ctx: typer.Context,
          day: str = typer.Option(None, "--date", help="Booking date (default today)."),
          ) -> None:
     """Move stock between locations; lots keep their identity."""
+    from inventory.stock import service
+
     qty = options.quantity(qty, "QTY")
     with unit_of_work(ctx) as s:
         moves = service.book_move(s, part, qty, from_location=from_, to_location=to, ts=when(day))
@@ -212,6 +228,8 @@ def on_hand(ctx: typer.Context,
             as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
             ) -> None:
     """Stock on hand, summed from the ledger."""
+    from inventory.stock import service
+
     with reading(ctx) as s:
         lines = service.on_hand(s, part=part, location=location, by_lot=by_lot)
     if as_json:

@@ -28,10 +28,11 @@ class Part(SQLModel, table=True):
     code: str = Field(index=True, unique=True, max_length=64)
     kind: str = Field(max_length=32, index=True)
     description: str = Field(default="", max_length=200)
-    id_mm: float | None = None
-    od_mm: float | None = None
-    height_mm: float | None = None
-    cs_mm: float | None = None
+    # indexed: the bench asks for the parts near a reading (migration 0006)
+    id_mm: float | None = Field(default=None, index=True)
+    od_mm: float | None = Field(default=None, index=True)
+    height_mm: float | None = Field(default=None, index=True)
+    cs_mm: float | None = Field(default=None, index=True)
     material: str | None = Field(default=None, max_length=16)
     hardness: int | None = None
     volume_cm3: float | None = None

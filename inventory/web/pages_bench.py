@@ -53,13 +53,13 @@ def run_match(web: Web, s, q) -> dict:
         limit_n = int(limit) if limit not in (None, "") else None
     except ValueError:
         raise InventoryError(f"--limit must be a whole number, got {limit!r}") from None
-    req = bench.match_request(
-        s, kind=blank(q.get("kind")), id_=blank(q.get("id")), od=blank(q.get("od")),
+    req = bench.match_request(s, bench.MatchForm(
+        kind=blank(q.get("kind")), id_=blank(q.get("id")), od=blank(q.get("od")),
         height=blank(q.get("height")), cs=blank(q.get("cs")), tol=blank(q.get("tol")),
         material=blank(q.get("material")), fork=blank(q.get("fork")),
         seat=blank(q.get("seat")), limit=limit_n,
         standard=str(q.get("no_standard", "")).lower() not in ("1", "true", "on", "yes"),
-        unit=unit)
+        unit=unit))
     return web.shop_cache.match(s, req).to_dict()
 
 
@@ -131,7 +131,7 @@ async def bench_use(request: Request) -> Response:
         back = "/bench"
 
     def go(s):
-        from inventory.history.jobs import JobItem, record_job
+        from inventory.history.jobs import JobItem, JobSpec, record_job
         from inventory.history.service import new_job_ref
 
         qty = int_field(form, "qty", minimum=1)
@@ -143,8 +143,7 @@ async def bench_use(request: Request) -> Response:
             raise FormError("service", f"pick a service level ({', '.join(SERVICE_LEVELS)})")
         today = date.today()
         ref = text_field(form, "job") or new_job_ref(s, today)
-        record_job(s, ref=ref, day=today, fork=fork, service=level,
-                   items=[JobItem(part, qty)])
+        record_job(s, JobSpec(ref, today, fork, level, (JobItem(part, qty),)))
         return ref
     try:
         ref = await web.write(go, who)
