@@ -317,6 +317,39 @@ def test_job_return_and_void_book_new_movements(web):
     assert movements(web.store) == n + 2
 
 
+def test_job_page_adds_a_part_to_an_existing_job(web):
+    sam = web("sam")
+    page = sam.get("/bench?id=24.99&cs=3.53")
+    r = sam.post("/bench/use", data={"csrf": csrf(page), "part": "OR-214", "qty": "2",
+                                     "fork": "XC-32", "service": "lower_leg"})
+    ref = re.search(r"booked=([^%&]+)", r.headers["location"]).group(1)
+    job = sam.get(f"/jobs/{ref}")
+    assert f'action="/jobs/{ref}/add"' in job.text
+    tok = csrf(job)
+    n = movements(web.store)
+    # refused, nothing written: no CSRF, an unknown part, more than is on hand, a bad number
+    assert sam.post(f"/jobs/{ref}/add", data={"part": "OR-214", "qty": "1"}).status_code == 403
+    r = sam.post(f"/jobs/{ref}/add", data={"csrf": tok, "part": "OR-999", "qty": "1"})
+    assert r.status_code == 400 and "OR-999" in error_at(r.text, "add-part")
+    r = sam.post(f"/jobs/{ref}/add", data={"csrf": tok, "part": "OR-214", "qty": "2"})
+    assert r.status_code == 400 and error_at(r.text, "add-qty")
+    r = sam.post(f"/jobs/{ref}/add", data={"csrf": tok, "part": "OR-214", "qty": "1e30"})
+    assert r.status_code == 400 and error_at(r.text, "add-qty")
+    assert movements(web.store) == n
+    r = sam.post(f"/jobs/{ref}/add", data={"csrf": tok, "part": "OR-214", "qty": "1"})
+    assert r.status_code == 303 and r.headers["location"].startswith(f"/jobs/{ref}?done=")
+    # the stock-flow identity (on hand = received - issued + returned): 3 received, 2 + 1
+    # issued to the job, nothing left; the job's line holds the 3 it used
+    assert sum(ln["on_hand"] for ln in sam.get("/api/stock?part=OR-214").json()) == 0
+    assert movements(web.store) == n + 1
+    lines = {j["ref"]: j["lines"] for j in sam.get("/api/jobs").json()}[ref]
+    assert lines == [{"part": "OR-214", "qty": 3}]
+    # the added unit is the job's like the others: all three can come back
+    r = sam.post(f"/jobs/{ref}/return", data={"csrf": tok, "part": "OR-214", "qty": "3"})
+    assert r.status_code == 303
+    assert sam.get("/api/stock?part=OR-214").json()[0]["on_hand"] == 3
+
+
 def test_forecast_charts_are_guarded(web):
     assert web().get("/plan/charts").status_code == 303
     assert web("sam").get("/plan/charts").status_code == 403

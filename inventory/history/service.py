@@ -8,7 +8,7 @@ face can import this module at start-up for free.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from dataclasses import dataclass
 from datetime import date
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -23,8 +23,8 @@ if TYPE_CHECKING:
 #: What ``export`` can write (inventory.history.exports uses this list).
 TABLES = ("parts", "stock", "lots", "movements", "jobs")
 
-__all__ = ["KINDS", "TABLES", "add_job", "export_table", "import_file", "job_detail", "list_jobs",
-           "resolve_fork", "service_level", "write_template"]
+__all__ = ["KINDS", "TABLES", "JobEntry", "add_job", "add_to_job", "export_table", "import_file",
+           "job_detail", "list_jobs", "resolve_fork", "service_level", "write_template"]
 
 
 def import_file(session: Session, file: str | Path, *, kind: str, apply: bool,
@@ -63,8 +63,7 @@ def resolve_fork(session: Session, text: str) -> str:
         return lookup.fork(session, text).code
     except InventoryError:
         pass
-    choices, remembered, codes = fork_choices(session)
-    code, _, _, cands = resolve_fork_text(text, choices, remembered, codes)
+    code, _, _, cands = resolve_fork_text(text, fork_choices(session))
     if code:
         return code
     best = ", ".join(f"{c.code} ({c.score:.0f})" for c in cands[:3])
@@ -76,19 +75,65 @@ def resolve_fork(session: Session, text: str) -> str:
 # -- service jobs ------------------------------------------------------------------------------
 
 
-def add_job(session: Session, *, fork: str, day: date, service: str,
-            items: Sequence[tuple[str, int]], ref: str | None = None, hours: int | None = None,
-            fork_ref: str | None = None) -> tuple[Any, list[Any]]:
-    """Record a job (fork family by code or free text, ``items`` as (part or kit code,
-    quantity)) and take its parts from stock, all or nothing; returns the job row and the
-    movements booked, as :func:`job_detail`."""
-    from inventory.history.jobs import JobItem, job_detail, next_ref, record_job
+@dataclass(frozen=True)
+class JobEntry:
+    """A job as a person enters it: the fork family by code or free text, the day, the
+    service level and ``items`` as (part or kit code, quantity); optionally its reference
+    (a fresh one for the day otherwise), the ride hours and the customer's fork reference."""
 
-    code = resolve_fork(session, fork)
-    job_ref = ref or next_ref(session, day)
-    record_job(session, ref=job_ref, day=day, fork=code, service=service,
-               items=[JobItem(c, n) for c, n in items], hours=hours, fork_ref=fork_ref)
+    fork: str
+    day: date
+    service: str
+    items: tuple[tuple[str, int], ...]
+    ref: str | None = None
+    hours: int | None = None
+    fork_ref: str | None = None
+
+
+def add_job(session: Session, entry: JobEntry) -> tuple[Any, list[Any]]:
+    """Record a job and take its parts from stock, all or nothing; returns the job row and
+    the movements booked, as :func:`job_detail`."""
+    from inventory.history.jobs import JobItem, JobSpec, job_detail, next_ref, record_job
+
+    code = resolve_fork(session, entry.fork)
+    job_ref = entry.ref or next_ref(session, entry.day)
+    record_job(session, JobSpec(job_ref, entry.day, code, entry.service,
+                                tuple(JobItem(c, n) for c, n in entry.items),
+                                hours=entry.hours, fork_ref=entry.fork_ref))
     return job_detail(session, job_ref)
+
+
+def add_to_job(session: Session, ref: str, part: str, qty: int) -> int:
+    """Take ``qty`` more of a part for an existing job: an issue booked now through the
+    stock service with the job's reference, and the part added to the job's lines; refused
+    when the job's month is in the closed books. Returns the units taken."""
+    from sqlmodel import select
+
+    from inventory.core import lookup
+    from inventory.core.errors import InventoryError
+    from inventory.core.tables import JobLine, ServiceJob
+    from inventory.stock import months
+    from inventory.stock import service as stock
+
+    job = session.exec(select(ServiceJob).where(ServiceJob.ref == ref)).first()
+    if job is None:
+        job_detail(session, ref)  # raises "unknown job" with its did-you-mean hint
+        raise InventoryError(f"unknown job {ref!r}", kind="unknown")
+    if months.is_closed(session, months.label(job.day)):
+        raise InventoryError(f"job {ref} ({job.day.isoformat()}) is in closed books: "
+                             "record the part on a new job", kind="conflict")
+    code = lookup.part(session, part).code
+    taken = stock.issue(session, code, qty, reference=ref)
+    part_id = lookup.part(session, code).id
+    assert job.id is not None and part_id is not None  # both read from the database
+    line = session.exec(select(JobLine).where(JobLine.job_id == job.id,
+                                              JobLine.part_id == part_id)).first()
+    if line is None:
+        line = JobLine(job_id=job.id, part_id=part_id, qty=0)
+    line.qty += taken
+    session.add(line)
+    session.flush()
+    return taken
 
 
 def list_jobs(session: Session, **filters: Any) -> list[Any]:

@@ -25,7 +25,7 @@ from inventory.web import auth
 from inventory.web.api import api_fit, api_jobs, api_match, api_me, api_openapi, api_plan, api_stock
 from inventory.web.pages_bench import bench_page, bench_use, part_page
 from inventory.web.pages_imports import imports_apply, imports_page, imports_preview
-from inventory.web.pages_jobs import job_page, job_undo, jobs_add, jobs_page
+from inventory.web.pages_jobs import job_add_part, job_page, job_undo, jobs_add, jobs_page
 from inventory.web.pages_login import home, login, login_form, logout
 from inventory.web.pages_monthend import month_close, month_page, month_report, month_xlsx
 from inventory.web.pages_plan import (
@@ -113,6 +113,7 @@ def create_app(url: str | None = None, *, secret: str | None = None,
         Route("/jobs", jobs_page),
         Route("/jobs", jobs_add, methods=["POST"]),
         Route("/jobs/{ref}", job_page),
+        Route("/jobs/{ref}/add", job_add_part, methods=["POST"]),
         Route("/jobs/{ref}/{what}", job_undo, methods=["POST"]),
         Route("/plan", plan_page),
         Route("/plan/orders", plan_orders, methods=["POST"]),

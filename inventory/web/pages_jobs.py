@@ -62,7 +62,7 @@ async def jobs_add(request: Request) -> Response:
     auth.check_csrf(request, form)
 
     def go(s):
-        from inventory.history.jobs import record_job
+        from inventory.history.jobs import JobSpec, record_job
         from inventory.history.service import new_job_ref
 
         fork = text_field(form, "fork")
@@ -77,7 +77,7 @@ async def jobs_add(request: Request) -> Response:
         items = _job_items(form)
         hours = int_field(form, "hours", minimum=0) if text_field(form, "hours") else None
         ref = new_job_ref(s, day)
-        record_job(s, ref=ref, day=day, fork=fork, service=level, items=items, hours=hours)
+        record_job(s, JobSpec(ref, day, fork, level, tuple(items), hours=hours))
         return ref
     values = {k: v for k, v in form.items() if k != "csrf"}
     try:
@@ -89,6 +89,37 @@ async def jobs_add(request: Request) -> Response:
                                                                  "part": "part1"}):
                                          message_of(exc)}, values, 400)
     return RedirectResponse(f"/jobs/{ref}", 303)
+
+
+async def job_add_part(request: Request) -> Response:
+    """Take one more part (or kit) from stock for an existing job: booked now with the
+    job's reference and added to its lines, through the history service."""
+    who = auth.require(request, "jobs")
+    web: Web = request.app.state.web
+    ref = request.path_params["ref"]
+    form = await request.form()
+    auth.check_csrf(request, form)
+
+    def go(s):
+        from inventory.history.service import add_to_job
+
+        part = text_field(form, "part")
+        if not part:
+            raise FormError("add-part", "give the part or kit code")
+        qty = int_field(form, "qty", minimum=1)
+        return f"took {add_to_job(s, ref, part, qty)} x {part} for this job"
+    values = {"add-part": form.get("part"), "add-qty": form.get("qty")}
+    try:
+        done = await web.write(go, who)
+    except FormError as exc:
+        key = exc.field if exc.field.startswith("add-") else f"add-{exc.field}"
+        return await job_page(request, {key: exc.message}, 400, values)
+    except InventoryError as exc:
+        field = "add-" + field_of(exc, "part", {"part": "part", "qty": "qty"})
+        return await job_page(request, {field: message_of(exc)}, 400, values)
+    from urllib.parse import quote
+
+    return RedirectResponse(f"/jobs/{ref}?done={quote(done)}", 303)
 
 
 async def job_undo(request: Request) -> Response:
@@ -128,7 +159,7 @@ async def job_undo(request: Request) -> Response:
 
 
 async def job_page(request: Request, errors: dict | None = None,
-                   status: int = 200) -> Response:
+                   status: int = 200, values: dict | None = None) -> Response:
     who = auth.require(request, "jobs")
     web: Web = request.app.state.web
     ref = request.path_params["ref"]
@@ -145,4 +176,5 @@ async def job_page(request: Request, errors: dict | None = None,
         raise HTTPException(404)
     row, moves = found
     return page(request, "job.html", who, status=status, job=row, moves=moves,
-                errors=errors or {}, done=request.query_params.get("done"))
+                errors=errors or {}, values=values or {},
+                done=request.query_params.get("done"))
