@@ -248,3 +248,121 @@ def test_derived_ring_outside_diameter_is_matchable():
                                                         id_mm=30.0, cs_mm=2.0)])
     best = match(MatchQuery(od_mm=32.05), arrays, limit=1)[0]
     assert best.code == "A" and best.od_mm == pytest.approx(32.05)
+
+
+# ------------------------------------------------- the database-filtered search (CLI)
+
+def _catalog_db(store, n: int = 3_000):
+    """The tiny catalog plus ``n`` synthetic parts (every kind, missing dimensions, some
+    rings naming a standard size), a consumable, stock with an old and a new lot."""
+    from datetime import date
+
+    from sqlalchemy import text
+
+    from inventory.core.db import transaction
+    from inventory.stock import ledger
+
+    parts = synthetic_parts(n, seed=11, scale=25.0)
+    rows = [dict(code=p.code, kind=str(p.kind), description="", id_mm=p.id_mm,
+                 od_mm=p.od_mm, height_mm=p.height_mm, cs_mm=p.cs_mm, material=p.material,
+                 hardness=p.hardness_shore_a, volume_cm3=p.volume_cm3, unit="each",
+                 standard=("as568 214" if p.standard and i % 3 == 0 else p.standard),
+                 notes="") for i, p in enumerate(parts)]
+    rows.append(dict(code="OIL-Y", kind="oil", description="oil", id_mm=24.99, od_mm=None,
+                     height_mm=None, cs_mm=3.53, material=None, hardness=None,
+                     volume_cm3=None, unit="ml", standard="AS568-214", notes=""))
+    with store.begin() as con:
+        con.execute(text(
+            "INSERT INTO part (code, kind, description, id_mm, od_mm, height_mm, cs_mm, "
+            "material, hardness, volume_cm3, unit, standard, notes) VALUES (:code, :kind, "
+            ":description, :id_mm, :od_mm, :height_mm, :cs_mm, :material, :hardness, "
+            ":volume_cm3, :unit, :standard, :notes)"), rows)
+    with transaction(store) as s:
+        ledger.receive(s, ledger.Receipt("OR-214", 7, "0.25", lot="OLD", cured="2001Q1",
+                                         received=date(2002, 5, 1)))
+        ledger.receive(s, ledger.Receipt("OR-214", 3, "0.25", lot="NEW", cured="2025Q1",
+                                         received=date(2025, 5, 1)))
+        for p in parts[::97]:
+            ledger.receive(s, ledger.Receipt(p.code, 2, "0.30", cured="2024Q4",
+                                             received=date(2025, 1, 2)))
+    return parts
+
+
+def _random_requests(parts, count: int, seed: int):
+    from inventory.bench.match_rows import MatchRequest
+
+    rng = np.random.default_rng(seed)
+    out = []
+    while len(out) < count:
+        p = parts[int(rng.integers(len(parts)))]
+        dims = {f"{d}_mm": round(float(v) * float(rng.uniform(0.96, 1.04)), 2)
+                for d in ("id", "od", "height", "cs")
+                if (v := getattr(p, f"{d}_mm")) is not None and rng.random() < 0.6}
+        if not dims:
+            continue
+        kind = [None, None, p.kind, PartKind.X_RING][int(rng.integers(4))]
+        material = [None, None, "NBR", "FKM", "HNBR", "XYZ"][int(rng.integers(6))]
+        tol = [MatchTolerance(), MatchTolerance(0.05, 0.0)][int(rng.integers(2))]
+        limit = [None, 1, 3, 10][int(rng.integers(4))]
+        out.append(MatchRequest(MatchQuery(**dims, kind=kind, material=material), tol, limit,
+                                None, [None, 70.0][int(rng.integers(2))],
+                                standard=bool(rng.random() < 0.7)))
+    # far from every part: the window must widen to the whole catalog
+    out.append(MatchRequest(MatchQuery(id_mm=400.0, cs_mm=14.0)))
+    out.append(MatchRequest(MatchQuery(height_mm=0.6, kind=PartKind.DUST_WIPER), limit=4))
+    return out
+
+
+def test_database_filtered_match_gives_the_array_search_rows(store):
+    """The oracle is the array search (every part scored by numpy, the path the web app
+    uses): the database-filtered search must give the same rows in the same order, stock
+    and "stocked as" included, on SQLite and PostgreSQL."""
+    from datetime import date
+
+    from inventory.bench.match_run import load_shop, run_match
+    from inventory.bench.match_sql import match_by_sql
+    from inventory.core.db import read_transaction
+    from inventory.core.sqlread import open_reader
+
+    parts = _catalog_db(store)
+    url = store.url.render_as_string(hide_password=False)
+    on = date(2026, 1, 15)
+    with read_transaction(store) as s, open_reader(url) as reader:
+        shop = load_shop(s, on=on)
+        for req in _random_requests(parts, 120, seed=3):
+            expected = run_match(shop, req).to_dict()
+            assert match_by_sql(reader, req, on=on).to_dict() == expected, req
+        # the old lot of OR-214 is past its ISO 2230 period; AS568-214 is 24.99 x 3.53 mm
+        # (AS568 table, REFERENCE.md 1.2) and parts name it in other spellings
+        from inventory.bench.match_rows import MatchRequest
+
+        rows = match_by_sql(reader, MatchRequest(MatchQuery(id_mm=24.99, cs_mm=3.53)),
+                            on=on).rows
+    std = [r for r in rows if r["source"] == "standard"]
+    assert std[0]["designation"] == "AS568-214" and std[0]["score"] < 0.05  # 0.984 in id
+    assert "OIL-Y" not in std[0]["stocked_as"] and len(std[0]["stocked_as"]) > 1
+    ring = next(r for r in rows if r.get("part") == "OR-214")
+    assert (ring["on_hand"], ring["past_storage_units"]) == (10, 7)
+
+
+def test_database_filter_reads_only_the_parts_near_the_readings(store, monkeypatch):
+    from inventory.bench.match_rows import MatchRequest
+    from inventory.bench.match_sql import match_by_sql
+    from inventory.core.sqlread import Reader, open_reader
+
+    n = 3_000
+    _catalog_db(store, n)
+    returned: list[int] = []
+    rows = Reader.rows
+
+    def counting(self, sql, **params):
+        out = rows(self, sql, **params)
+        if "FROM part WHERE kind NOT IN" in sql:
+            returned.append(len(out))
+        return out
+
+    monkeypatch.setattr(Reader, "rows", counting)
+    with open_reader(store.url.render_as_string(hide_password=False)) as reader:
+        result = match_by_sql(reader, MatchRequest(MatchQuery(id_mm=24.99, cs_mm=3.53)))
+    assert len(result.rows) == 12  # 6 shop parts, 6 standard sizes
+    assert returned and sum(returned) < n / 20, returned  # one window, a few dozen rows
