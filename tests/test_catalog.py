@@ -6,7 +6,8 @@ from __future__ import annotations
 import pytest
 from sqlmodel import Session, select
 
-from inventory.catalog.load import catalog_records, export_catalog, load_catalog
+from inventory.catalog.export import catalog_records, export_catalog
+from inventory.catalog.load import load_catalog
 from inventory.core import migrate
 from inventory.core.db import make_engine, transaction
 from inventory.core.errors import InventoryError

@@ -17,17 +17,12 @@ from typing import Any
 from sqlalchemy import func
 from sqlmodel import Session, select
 
-from inventory.catalog.service import TABLES
+from inventory.catalog.schemas import ORDER, SCHEMAS
 from inventory.core.errors import InventoryError, Problem, Source
 from inventory.core.fits import fit_class_problems, seat_problems
 from inventory.core.model import (
-    Gland,
-    Medium,
-    Motion,
     PartKind,
     SeatSpec,
-    ServiceLevel,
-    SpringLayout,
 )
 from inventory.core.tables import (
     ForkFamily,
@@ -41,91 +36,8 @@ from inventory.core.tables import (
     Supplier,
     SupplierItem,
 )
-from inventory.sheets import cells
-from inventory.sheets.columns import Column, Parsed, Schema, parse_table, to_cells
+from inventory.sheets.columns import Parsed, parse_table
 from inventory.sheets.read import read_tables
-from inventory.sheets.write import SheetSpec, write_csv, write_workbook
-
-C = Column
-MM = cells.positive_number
-OPT_TEXT = dict(default="")
-
-SCHEMAS: dict[str, Schema] = {
-    "locations": Schema("locations", (
-        C("code", cells.code, required=True, example="MAIN"),
-        C("description", **OPT_TEXT, example="Store room"),
-    ), key=("code",)),
-    "parts": Schema("parts", (
-        C("code", cells.code, required=True, aliases=("part", "part code", "sku"), example="OR-214-N70"),
-        C("kind", cells.choice(*PartKind), required=True, aliases=("type",), example="o_ring"),
-        C("description", aliases=("desc", "name"), **OPT_TEXT, example="O-ring 24.99 x 3.53 NBR 70"),
-        C("id_mm", MM, aliases=("id", "inner diameter", "inside diameter")),
-        C("od_mm", MM, aliases=("od", "outer diameter", "outside diameter")),
-        C("height_mm", MM, aliases=("height", "width", "axial width")),
-        C("cs_mm", MM, aliases=("cs", "cross section", "cross-section")),
-        C("material", cells.text, aliases=("polymer", "compound")),
-        C("hardness", cells.positive_int, aliases=("shore a", "shore")),
-        C("volume_cm3", MM, aliases=("volume",)),
-        C("unit", cells.choice("each", "ml"), default="each"),
-        C("standard", cells.text, aliases=("designation",)),
-        C("notes", **OPT_TEXT),
-    ), key=("code",)),
-    "suppliers": Schema("suppliers", (
-        C("code", cells.code, required=True, aliases=("supplier",)),
-        C("name", cells.text, required=True),
-        C("lead_time_days", cells.nonneg_int, required=True, aliases=("lead time",)),
-        C("lead_time_sd_days", cells.nonneg_number, default=0.0),
-        C("min_order_value", cells.money, aliases=("minimum order",), default=None),
-        C("order_cycle_days", cells.positive_int, default=7),
-        C("currency", cells.text, default="EUR"),
-    ), key=("code",)),
-    "supplier_items": Schema("supplier_items", (
-        C("supplier", cells.code, required=True),
-        C("part", cells.code, required=True),
-        C("supplier_code", **OPT_TEXT),
-        C("unit_cost", cells.money, required=True, aliases=("cost", "price")),
-        C("pack_size", cells.positive_int, default=1, aliases=("pack",)),
-        C("min_order_qty", cells.nonneg_int, default=1, aliases=("moq",)),
-        C("lead_time_days", cells.nonneg_int),
-    ), key=("supplier", "part")),
-    "fork_families": Schema("fork_families", (
-        C("code", cells.code, required=True, aliases=("fork",)),
-        C("description", **OPT_TEXT),
-        C("stanchion_mm", MM, required=True, aliases=("stanchion",)),
-        C("travel_min_mm", cells.positive_int, required=True),
-        C("travel_max_mm", cells.positive_int, required=True),
-        C("spring", cells.choice(*SpringLayout), required=True),
-        C("year_from", cells.positive_int, required=True),
-        C("year_to", cells.positive_int),
-    ), key=("code",)),
-    "seats": Schema("seats", (
-        C("fork", cells.code, required=True),
-        C("seat", cells.code, required=True),
-        C("position", cells.text, required=True),
-        C("part_kind", cells.choice(*PartKind), required=True),
-        C("gland", cells.choice(*Gland), required=True),
-        C("motion", cells.choice(*Motion), default="static"),
-        C("medium", cells.choice(*Medium), default="oil"),
-        C("qty_per_fork", cells.positive_int, default=1),
-        C("rod_mm", MM), C("bore_mm", MM), C("groove_mm", MM), C("groove_width_mm", MM),
-        C("housing_depth_mm", MM), C("rod_fit", cells.text), C("bore_fit", cells.text),
-        C("chamber_volume_cm3", MM), C("piston_mm", MM), C("travel_mm", MM),
-        C("set_pressure_bar", cells.nonneg_number),
-        C("notes", **OPT_TEXT),
-    ), key=("fork", "seat")),
-    "kits": Schema("kits", (
-        C("kit", cells.code, required=True),
-        C("fork", cells.code, required=True),
-        C("service_level", cells.choice(*ServiceLevel), required=True, aliases=("service",)),
-        C("description", **OPT_TEXT),
-    ), key=("kit",)),
-    "kit_lines": Schema("kit_lines", (
-        C("kit", cells.code, required=True),
-        C("part", cells.code, required=True),
-        C("qty", cells.positive_int, required=True),
-    ), key=("kit", "part")),
-}
-ORDER = list(TABLES)
 
 
 @dataclass
@@ -387,60 +299,3 @@ def _apply_kit_line(s, r):
 _APPLY = {"locations": _apply_location, "parts": _apply_part, "suppliers": _apply_supplier,
           "supplier_items": _apply_supplier_item, "fork_families": _apply_fork,
           "seats": _apply_seat, "kits": _apply_kit, "kit_lines": _apply_kit_line}
-
-
-def catalog_records(session: Session) -> dict[str, list[dict[str, Any]]]:
-    """Every catalog table as records in our column names (what an export writes)."""
-    out: dict[str, list[dict[str, Any]]] = {}
-    out["locations"] = [{"code": r.code, "description": r.description}
-                        for r in session.exec(select(Location).order_by(Location.code))]
-    out["parts"] = [r.model_dump(exclude={"id"})
-                    for r in session.exec(select(Part).order_by(Part.code))]
-    out["suppliers"] = [r.model_dump(exclude={"id"})
-                        for r in session.exec(select(Supplier).order_by(Supplier.code))]
-    out["supplier_items"] = [
-        {"supplier": sup, "part": part, **si.model_dump(exclude={"id", "supplier_id", "part_id"})}
-        for si, sup, part in session.exec(
-            select(SupplierItem, Supplier.code, Part.code)
-            .join(Supplier, Supplier.id == SupplierItem.supplier_id)
-            .join(Part, Part.id == SupplierItem.part_id)
-            .order_by(Supplier.code, Part.code))
-    ]
-    out["fork_families"] = [r.model_dump(exclude={"id"})
-                            for r in session.exec(select(ForkFamily).order_by(ForkFamily.code))]
-    out["seats"] = [
-        {"fork": fam, "seat": seat.code, **seat.model_dump(exclude={"id", "fork_family_id", "code"})}
-        for seat, fam in session.exec(
-            select(Seat, ForkFamily.code).join(ForkFamily, ForkFamily.id == Seat.fork_family_id)
-            .order_by(ForkFamily.code, Seat.code))
-    ]
-    out["kits"] = [
-        {"kit": code, "fork": fam, "service_level": kit.service_level,
-         "description": kit.description}
-        for kit, code, fam in session.exec(
-            select(Kit, Part.code, ForkFamily.code).join(Part, Part.id == Kit.part_id)
-            .join(ForkFamily, ForkFamily.id == Kit.fork_family_id).order_by(Part.code))
-    ]
-    kit_part = Part.__table__.alias("kit_part")
-    out["kit_lines"] = [
-        {"kit": kcode, "part": pcode, "qty": qty}
-        for kcode, pcode, qty in session.exec(
-            select(kit_part.c.code, Part.code, KitLine.qty)
-            .join(Kit, Kit.id == KitLine.kit_id)
-            .join(kit_part, kit_part.c.id == Kit.part_id)
-            .join(Part, Part.id == KitLine.part_id)
-            .order_by(kit_part.c.code, Part.code))
-    ]
-    return out
-
-
-def export_catalog(session: Session, target: str | Path) -> list[Path]:
-    """Write the catalog to a folder of csv files or to one ``.xlsx`` workbook."""
-    target = Path(target)
-    records = catalog_records(session)
-    if target.suffix.lower() == ".xlsx":
-        sheets = [SheetSpec(t, SCHEMAS[t].header, to_cells(SCHEMAS[t], records[t])) for t in ORDER]
-        return [write_workbook(target, sheets)]
-    target.mkdir(parents=True, exist_ok=True)
-    return [write_csv(target / f"{t}.csv", SCHEMAS[t].header, to_cells(SCHEMAS[t], records[t]))
-            for t in ORDER]

@@ -29,6 +29,6 @@ def load(session: Session, path: str | Path) -> LoadReport:
 
 def export(session: Session, target: str | Path) -> list[Path]:
     """Write the catalog to a folder of csv files or to one ``.xlsx`` workbook."""
-    from inventory.catalog.load import export_catalog
+    from inventory.catalog.export import export_catalog
 
     return export_catalog(session, target)

@@ -17,7 +17,7 @@ from typing import Any
 from sqlalchemy import func
 from sqlmodel import Session, select
 
-from inventory.catalog.load import SCHEMAS as CATALOG_SCHEMAS
+from inventory.catalog.schemas import SCHEMAS as CATALOG_SCHEMAS
 from inventory.core.errors import InventoryError
 from inventory.core.model import PartKind, ServiceLevel
 from inventory.core.tables import (
