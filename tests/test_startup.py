@@ -19,11 +19,26 @@ import pytest
 from tests.conftest import write_catalog
 
 HEAVY = ("scipy", "matplotlib", "openpyxl", "alembic", "pandas")
+#: What each command may not load besides HEAVY (issue 10, "Fast start"; module names are
+#: matched as they are or as the package they start): help loads no database library, no
+#: numpy and no service; match with readings only reads SQLite by the standard library's
+#: driver (no SQLAlchemy at all), no ORM tables, no numpy.
+STRICTER = {
+    "help": ("sqlalchemy", "sqlmodel", "numpy", "inventory.core.tables",
+             "inventory.bench.service", "inventory.catalog.service",
+             "inventory.stock.service", "inventory.history.service",
+             "inventory.people.service", "inventory.monthend.service",
+             "inventory.forecast.service", "inventory.ordering.service"),
+    "match": ("sqlmodel", "sqlalchemy", "numpy", "inventory.core.tables"),
+    "on-hand": ("numpy", "inventory.bench.service"),
+}
 
 WRAPPER = """
 import atexit, json, sys
 def report():
-    loaded = sorted({m.split('.')[0] for m in sys.modules} & set(HEAVY))
+    names = set(sys.modules)
+    loaded = sorted({m.split('.')[0] for m in names} & set(HEAVY))
+    loaded += sorted(w for w in WATCH if w in names)
     with open(OUT, 'w') as f:
         json.dump(loaded, f)
 atexit.register(report)
@@ -33,8 +48,10 @@ run()
 """
 
 
-def loaded_by(args: list[str], cwd, out) -> tuple[int, list[str], str]:
-    code = (f"HEAVY = {HEAVY!r}\nOUT = {str(out)!r}\nARGS = {args!r}\n" + WRAPPER)
+def loaded_by(args: list[str], cwd, out, watch: tuple[str, ...] = ()
+              ) -> tuple[int, list[str], str]:
+    code = (f"HEAVY = {HEAVY!r}\nWATCH = {watch!r}\nOUT = {str(out)!r}\nARGS = {args!r}\n"
+            + WRAPPER)
     env = {k: v for k, v in os.environ.items() if k != "INVENTORY_DB"}
     proc = subprocess.run([sys.executable, "-c", code], cwd=cwd, env=env, capture_output=True,
                           text=True, timeout=300)
@@ -54,17 +71,40 @@ def shop(tmp_path_factory):
     return folder, db
 
 
-@pytest.mark.parametrize("args", [
-    ["--help"],
-    ["match", "--id", "24.99", "--cs", "3.53"],  # AS568-214: 24.99 x 3.53 mm (AS568 table)
-    ["stock", "on-hand"],
+@pytest.mark.parametrize("args, watch", [
+    (["--help"], "help"),
+    (["stock", "--help"], "help"),
+    (["match", "--help"], "help"),
+    (["match", "--id", "24.99", "--cs", "3.53"], "match"),  # AS568-214: 24.99 x 3.53 mm
+    (["stock", "on-hand"], "on-hand"),
 ])
-def test_everyday_commands_import_no_heavy_library(shop, tmp_path, args):
+def test_everyday_commands_import_no_heavy_library(shop, tmp_path, args, watch):
     folder, db = shop
-    full = args if args == ["--help"] else ["--db", db, *args]
-    code, loaded, err = loaded_by(full, folder, tmp_path / "modules.json")
+    full = args if "--help" in args else ["--db", db, *args]
+    code, loaded, err = loaded_by(full, folder, tmp_path / "modules.json", STRICTER[watch])
     assert code == 0, err
     assert loaded == [], f"`inventory {' '.join(args)}` imported {loaded}"
+
+
+def test_the_strict_check_does_see_the_database_libraries(shop, tmp_path):
+    # match with a seat scores the parts as arrays through the ORM's engine: it must show up
+    folder, db = shop
+    code, loaded, err = loaded_by(["--db", db, "match", "--fork", "nope", "--seat", "x"],
+                                  folder, tmp_path / "modules.json", STRICTER["match"])
+    assert code == 1 and "sqlalchemy" in loaded, (loaded, err)
+
+
+def test_option_defaults_and_help_choices_are_the_services(tmp_path):
+    # the command line names them without importing the services (inventory.core.names)
+    from inventory.catalog import service as catalog
+    from inventory.core import names
+    from inventory.history import service as history
+    from inventory.stock import service as stock
+
+    assert names.DEFAULT_LOCATION == stock.DEFAULT_LOCATION
+    assert names.CATALOG_TABLES == catalog.TABLES
+    assert names.EXPORT_TABLES == history.TABLES
+    assert names.IMPORT_KINDS == tuple(history.KINDS)
 
 
 def test_the_wrapper_does_see_a_heavy_import(shop, tmp_path):
