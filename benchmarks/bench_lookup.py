@@ -32,6 +32,7 @@ sys.path.insert(0, str(ROOT))
 
 from inventory.bench.fit import kind_applies  # noqa: E402
 from inventory.bench.matching import (  # noqa: E402
+    MatchOptions,
     MatchQuery,
     MatchTolerance,
     PartArrays,
@@ -225,9 +226,10 @@ def main(argv: list[str] | None = None) -> int:
 
     tol = MatchTolerance()
     for q in queries[:20]:  # warm both paths (column caches, SQLite page cache)
-        match(q, arrays, tolerance=tol, limit=LIMIT)
+        match(q, arrays, limit=LIMIT, options=MatchOptions(tolerance=tol))
         sql_match(con, q, tol)
-    ours_t, ours = timed(lambda q: match(q, arrays, tolerance=tol, limit=LIMIT), queries)
+    opts = MatchOptions(tolerance=tol)
+    ours_t, ours = timed(lambda q: match(q, arrays, limit=LIMIT, options=opts), queries)
     sql_t, sql = timed(lambda q: sql_match(con, q, tol), queries)
     agree, comparable = agreement(queries, ours, sql, arrays)
 

@@ -16,6 +16,7 @@ import pytest
 
 from inventory.bench.fit import Verdict, fit, kind_applies
 from inventory.bench.matching import (
+    MatchOptions,
     MatchQuery,
     MatchTolerance,
     MatchWeights,
@@ -120,7 +121,7 @@ def test_vectorised_ranking_equals_brute_force(seed):
             kind=KINDS[rng.integers(len(KINDS))] if rng.random() < 0.5 else None,
             material=["NBR", "AU", "FKM", None][rng.integers(4)],
         )
-        got = match(q, arrays, tolerance=tol, weights=w, limit=15)
+        got = match(q, arrays, limit=15, options=MatchOptions(tolerance=tol, weights=w))
         expected = sorted(_brute_force_scores(q, parts, tol, w))[:15]
         assert [c.score for c in got] == pytest.approx(expected, abs=1e-9)
         for c in got:
@@ -153,7 +154,7 @@ def test_match_input_errors_and_limits():
     with pytest.raises(ValueError, match="positive"):
         match(MatchQuery(id_mm=-3.0), arrays)
     assert len(match(MatchQuery(id_mm=30.0), arrays, limit=100)) == 50
-    assert match(MatchQuery(id_mm=30.0), arrays, max_score=-1.0) == []
+    assert match(MatchQuery(id_mm=30.0), arrays, options=MatchOptions(max_score=-1.0)) == []
     assert match(MatchQuery(id_mm=30.0), PartArrays.from_specs([])) == []
 
 

@@ -24,7 +24,13 @@ from inventory.bench.match_rows import (
     candidate_row,
     ranked_rows,
 )
-from inventory.bench.matching import PartArrays, match, parts_fitting, standard_part_arrays
+from inventory.bench.matching import (
+    MatchOptions,
+    PartArrays,
+    match,
+    parts_fitting,
+    standard_part_arrays,
+)
 from inventory.bench.sizes import normalise_designation
 from inventory.bench.stock_read import StockInfo, StockOnDemand
 from inventory.core.errors import InventoryError
@@ -116,9 +122,9 @@ def run_match(shop: Shop, req: MatchRequest) -> MatchResult:
     found: list[Found] = []
     for arrays in _sources(shop, req, kind):
         try:
-            best = match(req.query, arrays, tolerance=req.tolerance, limit=limit,
-                         seat=req.seat, rules=req.rules,
-                         reference_shore_a=req.reference_shore_a)
+            best = match(req.query, arrays, limit=limit, seat=req.seat, options=MatchOptions(
+                tolerance=req.tolerance, rules=req.rules,
+                reference_shore_a=req.reference_shore_a))
         except ValueError as exc:
             raise InventoryError(str(exc)) from None
         found += [Found(arrays.spec(c.index), arrays.source, c,

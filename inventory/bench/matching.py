@@ -176,20 +176,34 @@ def _value(x: float) -> float | None:
     return None if math.isnan(x) else float(x)
 
 
-def match(query: MatchQuery, candidates: PartArrays, *,
-          tolerance: MatchTolerance = MatchTolerance(), weights: MatchWeights = MatchWeights(),
-          limit: int = 10, max_score: float | None = None, seat: SeatSpec | None = None,
-          rules: FitRules = FitRules(),
-          reference_shore_a: float | None = None) -> list[Candidate]:
+@dataclass(frozen=True, slots=True)
+class MatchOptions:
+    """How :func:`match` scores and checks: the tolerance per reading, the score weights, a
+    score ceiling (``max_score``: candidates above it are dropped) and, with a seat, the fit
+    rules and the reference hardness of the hardness check."""
+
+    tolerance: MatchTolerance = MatchTolerance()
+    weights: MatchWeights = MatchWeights()
+    max_score: float | None = None
+    rules: FitRules = FitRules()
+    reference_shore_a: float | None = None
+
+
+def match(query: MatchQuery, candidates: PartArrays, *, limit: int = 10,
+          seat: SeatSpec | None = None, options: MatchOptions = MatchOptions()
+          ) -> list[Candidate]:
     """The ``limit`` best candidates for the measured dimensions, best first.
 
-    ``max_score`` drops candidates scoring above it. With a ``seat`` each candidate also
-    gets the fit verdict of :func:`inventory.bench.fit.fit` (computed on the same rules,
-    with the hardness check when ``reference_shore_a`` is given), and the candidates rank
+    ``options.max_score`` drops candidates scoring above it. With a ``seat`` each candidate
+    also gets the fit verdict of :func:`inventory.bench.fit.fit` (computed on the same
+    rules, with the hardness check when ``options.reference_shore_a`` is given), and the
+    candidates rank
     pass before marginal before fail (before a kind that does not go there), then by
     score, among the ``limit + 16`` closest by score. Raises ``ValueError`` when no
     dimension is given.
     """
+    tolerance, weights, max_score = options.tolerance, options.weights, options.max_score
+    rules, reference_shore_a = options.rules, options.reference_shore_a
     dims = query.dims()
     if not dims:
         raise ValueError("give at least one dimension to match (id, od, height or cs)")
