@@ -41,8 +41,9 @@ def month(ctx: typer.Context,
 
     day = _today(today)
     with reading(ctx) as s:
-        files = service.month_end(s, month, today=day, xlsx=xlsx, html=html,
-                                  default_workbook=not as_json, method=method.value, plan=plan)
+        files = service.month_end(s, month, today=day,
+                                  outputs=service.Outputs(xlsx, html, default_workbook=not as_json),
+                                  method=method.value, plan=plan)
     if as_json:
         print_json(service.report_json(files))
         return

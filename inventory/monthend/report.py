@@ -14,7 +14,6 @@ The reorder list takes its reorder points and suggested quantities from a
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
 from datetime import date
 from decimal import Decimal
 from typing import Protocol
@@ -26,14 +25,19 @@ from inventory.bench.seals import storage_limit
 from inventory.core.errors import InventoryError, Problem
 from inventory.monthend.aggregates import load_month
 from inventory.monthend.records import (
-    METHODS,
     ZERO,
-    ForkUsage,
-    LotOnHand,
     Month,
     MonthData,
     PartMonth,
     parse_month,
+)
+from inventory.monthend.report_records import (
+    BelowReorder,
+    ExpiringLot,
+    MonthReport,
+    PartLine,
+    ReportSettings,
+    Totals,
 )
 from inventory.ordering.model import ReorderAdvice  # defined below the report (ordering < monthend)
 from inventory.stock import valuation as val
@@ -44,110 +48,6 @@ class ReorderSource(Protocol):
     suggested quantity, as of a day. Parts it leaves out get the fallback rule."""
 
     def __call__(self, session: Session, as_of: date) -> Mapping[str, ReorderAdvice]: ...
-
-
-@dataclass(frozen=True, slots=True)
-class PartLine:
-    """A part's month with the derived figures."""
-
-    data: PartMonth
-    turns: float | None  # the month's, annualised
-    turns_12m: float | None
-    days_of_supply: float | None
-    annual_usage_value: Decimal
-    abc: str
-    xyz: str
-    cv: float | None
-    status: str | None  # "slow", "dead" or None
-
-    def __getattr__(self, name):  # plain access to the month's fields
-        return getattr(self.data, name)
-
-
-@dataclass(frozen=True, slots=True)
-class ExpiringLot:
-    lot: LotOnHand
-    limit: date
-    status: str  # "past" or "soon"
-
-
-@dataclass(frozen=True, slots=True)
-class BelowReorder:
-    part: str
-    description: str
-    on_hand: int
-    on_order: int
-    reorder_point: int
-    suggested_qty: int
-    unit_cost: Decimal | None
-    basis: str
-
-
-@dataclass(frozen=True, slots=True)
-class Totals:
-    opening_value: Decimal
-    receipts_value: Decimal
-    job_issues_value: Decimal
-    other_issues_value: Decimal
-    adjust_value: Decimal
-    count_value: Decimal
-    closing_value: Decimal
-    turns: float | None
-    turns_12m: float | None
-    days_of_supply: float | None
-    slow_value: Decimal
-    dead_value: Decimal
-    expired_value: Decimal
-    expiring_soon_value: Decimal
-    count_loss_value: Decimal
-    count_gain_value: Decimal
-    parts_on_hand: int
-    jobs: int
-
-    @property
-    def issues_value(self) -> Decimal:
-        return self.job_issues_value + self.other_issues_value
-
-    @property
-    def adjustments_value(self) -> Decimal:
-        """Adjustments plus count variances (plus the zero net of transfers)."""
-        return self.closing_value - self.opening_value - self.receipts_value + self.issues_value
-
-
-@dataclass(frozen=True, slots=True)
-class MonthReport:
-    month: Month
-    method: str
-    today: date
-    totals: Totals
-    parts: tuple[PartLine, ...]
-    history: tuple[Month, ...]
-    job_usage_value: tuple[Decimal, ...]
-    other_usage_value: tuple[Decimal, ...]
-    stock_value: tuple[Decimal, ...]  # month-end stock value for each history month
-    fork_usage: tuple[ForkUsage, ...]
-    expiring_lots: tuple[ExpiringLot, ...]
-    below_reorder: tuple[BelowReorder, ...]
-    settings: Mapping[str, object] = field(default_factory=dict)
-
-    @property
-    def method_label(self) -> str:
-        return METHODS[self.method]
-
-    @property
-    def stock_problems(self) -> tuple[PartLine, ...]:
-        """Dead stock, then slow stock, each highest value first."""
-        rows = [p for p in self.parts if p.status]
-        return tuple(sorted(rows, key=lambda p: (p.status != "dead", -p.closing_value, p.part)))
-
-    @property
-    def count_variances(self) -> tuple[PartLine, ...]:
-        rows = [p for p in self.parts if p.count_qty]
-        return tuple(sorted(rows, key=lambda p: (p.count_value, p.part)))
-
-    @property
-    def abc_order(self) -> tuple[PartLine, ...]:
-        return tuple(sorted(self.parts, key=lambda p: (-p.annual_usage_value, p.part)))
 
 
 def reconcile(parts: Sequence[PartMonth], *, method: str = "fifo",
@@ -196,12 +96,9 @@ def _days(a: Month, b: Month) -> int:
 
 
 def assemble(data: MonthData, *, today: date, reorder: Mapping[str, ReorderAdvice] | None = None,
-             slow_months: int = 6, dead_months: int = 12, expiry_warn_months: int = 6,
-             abc_cuts: tuple[float, float] = (0.80, 0.95),
-             xyz_cuts: tuple[float, float] = (0.5, 1.0), cover_days: float = 30.0,
-             max_listed: int = 20) -> MonthReport:
+             settings: ReportSettings = ReportSettings()) -> MonthReport:
     """The report from the month's data (pure). Refuses, naming the parts (the first
-    ``max_listed`` of them), when the ledger does not reconcile.
+    ``settings.max_listed`` of them), when the ledger does not reconcile.
 
     Turns: the month's cost of issues over its average stock ((opening + closing) / 2),
     annualised by 365 / days in the month; ``turns_12m`` over the twelve months, against the
@@ -214,10 +111,10 @@ def assemble(data: MonthData, *, today: date, reorder: Mapping[str, ReorderAdvic
     (closing on hand plus open orders) at or below the reorder point, from ``reorder`` (the
     plan) where it has the part, else :func:`inventory.stock.valuation.fallback_reorder`.
     """
-    month = data.month
+    month, st = data.month, settings
     problems = reconcile(data.parts, method=data.method, broken=data.broken)
     if problems:
-        listed = problems[:max_listed]
+        listed = problems[:st.max_listed]
         more = len(problems) - len(listed)
         head = Problem(f"the ledger does not reconcile for {month} in {len(problems)} "
                        "part(s); the report is not written", kind="reconcile")
@@ -230,9 +127,9 @@ def assemble(data: MonthData, *, today: date, reorder: Mapping[str, ReorderAdvic
     n_hist = len(data.history)
     hist_days = _days(data.history[0], month)
     annual = [sum(p.usage_value, ZERO) for p in parts]
-    abc = val.abc_classes(annual, a_share=abc_cuts[0], b_share=abc_cuts[1])
+    abc = val.abc_classes(annual, a_share=st.abc_cuts[0], b_share=st.abc_cuts[1])
     demand = np.array([p.usage_qty for p in parts], dtype=float).reshape(len(parts), n_hist)
-    xyz, cv = val.xyz_classes(demand, x_max=xyz_cuts[0], y_max=xyz_cuts[1])
+    xyz, cv = val.xyz_classes(demand, x_max=st.xyz_cuts[0], y_max=st.xyz_cuts[1])
     lines = []
     for i, p in enumerate(parts):
         avg = (p.opening_value + p.closing_value) / 2
@@ -246,7 +143,8 @@ def assemble(data: MonthData, *, today: date, reorder: Mapping[str, ReorderAdvic
             annual_usage_value=annual[i], abc=abc[i], xyz=xyz[i],
             cv=None if np.isnan(cv[i]) else float(cv[i]),
             status=val.stock_status(p.closing_qty, p.last_issue, p.first_in, as_of,
-                                    slow_months=slow_months, dead_months=dead_months),
+                                    slow_months=st.slow_months,
+                                    dead_months=st.dead_months),
         ))
     expiring = []
     for lot in data.lots:
@@ -254,12 +152,12 @@ def assemble(data: MonthData, *, today: date, reorder: Mapping[str, ReorderAdvic
             limit = lot.extended_until or storage_limit(lot.cured, lot.material or "")
         except ValueError:
             continue  # no material or not an ISO 2230 polymer: nothing to judge
-        status = val.shelf_status(limit, as_of, warn_months=expiry_warn_months)
+        status = val.shelf_status(limit, as_of, warn_months=st.expiry_warn_months)
         if status:
             expiring.append(ExpiringLot(lot, limit, status))
     expiring.sort(key=lambda e: (e.limit, e.lot.part, e.lot.lot))
     below = _below_reorder(lines, data, reorder or {}, hist_days=hist_days,
-                           cover_days=cover_days)
+                           cover_days=st.cover_days)
 
     def total(attr: str) -> Decimal:
         return sum((getattr(p, attr) for p in parts), ZERO)
@@ -292,9 +190,9 @@ def assemble(data: MonthData, *, today: date, reorder: Mapping[str, ReorderAdvic
         history=data.history, job_usage_value=data.job_usage_value,
         other_usage_value=data.other_usage_value, stock_value=stock_value,
         fork_usage=data.fork_usage, expiring_lots=tuple(expiring), below_reorder=below,
-        settings={"slow_months": slow_months, "dead_months": dead_months,
-                  "expiry_warn_months": expiry_warn_months, "abc_cuts": list(abc_cuts),
-                  "xyz_cuts": list(xyz_cuts), "cover_days": cover_days},
+        settings={"slow_months": st.slow_months, "dead_months": st.dead_months,
+                  "expiry_warn_months": st.expiry_warn_months, "abc_cuts": list(st.abc_cuts),
+                  "xyz_cuts": list(st.xyz_cuts), "cover_days": st.cover_days},
     )
 
 
@@ -326,15 +224,14 @@ def _below_reorder(lines: Sequence[PartLine], data: MonthData,
 
 
 def month_report(session: Session, month: str | Month, *, today: date, method: str = "fifo",
-                 reorder: ReorderSource | None = None, **options) -> MonthReport:
-    """Load, check and assemble the month-end report (``options`` go to :func:`assemble`)."""
+                 reorder: ReorderSource | None = None,
+                 settings: ReportSettings = ReportSettings()) -> MonthReport:
+    """Load, check and assemble the month-end report (see :func:`assemble`)."""
     if not isinstance(month, Month):
         month = parse_month(month, today=today)
     data = load_month(session, month, method=method)
     plan = reorder(session, month.last_day) if reorder is not None else None
-    return assemble(data, today=today, reorder=plan, **options)
-
-
+    return assemble(data, today=today, reorder=plan, settings=settings)
 # ---------------------------------------------------------------------------- JSON
 
 

@@ -36,16 +36,14 @@ def default_xlsx(month: Month, reports: str | Path = "reports") -> Path:
 
 def write_month_end(session: Session, month: str | Month, *, today: date,
                     xlsx: str | Path | None = None, html: str | Path | None = None,
-                    method: str = "fifo", reorder: ReorderSource | None = None,
-                    **options) -> MonthEndFiles:
+                    method: str = "fifo", reorder: ReorderSource | None = None) -> MonthEndFiles:
     """Build the report (refusing if the ledger does not reconcile) and write the files
     asked for; nothing is written when the report cannot be built."""
     from inventory.monthend.html import write_month_html
     from inventory.monthend.report import month_report
     from inventory.monthend.workbook import write_month_workbook
 
-    report = month_report(session, month, today=today, method=method, reorder=reorder,
-                          **options)
+    report = month_report(session, month, today=today, method=method, reorder=reorder)
     if method == "fifo":  # a closed month's ledger totals are those stored at its close
         from inventory.monthend.closing import verify
 
@@ -65,20 +63,29 @@ def latest_complete_month(session: Session, today: date) -> Month:
     return min(Month.of(day), done)
 
 
-def month_end(session: Session, month: str, *, today: date, xlsx: str | Path | None = None,
-              html: str | Path | None = None, default_workbook: bool = True,
+@dataclass(frozen=True, slots=True)
+class Outputs:
+    """The files a month end writes: the workbook (``reports/stock-YYYY-MM.xlsx`` unless
+    given, when ``default_workbook``) and the HTML page if given."""
+
+    xlsx: str | Path | None = None
+    html: str | Path | None = None
+    default_workbook: bool = True
+
+
+def month_end(session: Session, month: str, *, today: date, outputs: Outputs = Outputs(),
               method: str = "fifo", plan: bool = True) -> MonthEndFiles:
     """``report month`` for the faces: parse the month (a complete one, as of ``today``),
     take the reorder list from the order planner when ``plan`` (else the usage rule), and
-    write the workbook (``reports/stock-YYYY-MM.xlsx`` unless given, when
-    ``default_workbook``) and the HTML page if asked."""
+    write the ``outputs``."""
     from inventory.monthend.records import parse_month
     from inventory.ordering.service import reorder_source
 
     m = parse_month(month, today=today)
-    if xlsx is None and default_workbook:
+    xlsx = outputs.xlsx
+    if xlsx is None and outputs.default_workbook:
         xlsx = default_xlsx(m)
-    return write_month_end(session, m, today=today, xlsx=xlsx, html=html, method=method,
+    return write_month_end(session, m, today=today, xlsx=xlsx, html=outputs.html, method=method,
                            reorder=reorder_source() if plan else None)
 
 
