@@ -183,6 +183,27 @@ def test_calibration_inverts_a_known_curve() -> None:
     assert noisy.ask(0.9) <= noisy.ask(0.92)
 
 
+def test_shrunk_calibration_is_the_weighted_log_odds_offset() -> None:
+    """Shrinkage toward no correction: in log-odds (scipy.special.logit / expit, the outside
+    reference), the rate asked is the promise plus ``weight`` times the offset of the
+    inverted curve; weight 0 asks the promise itself, weight 1 the full inversion."""
+    from scipy.special import expit, logit
+
+    from inventory.ordering.calibration import curve
+
+    grid = np.linspace(0.80, 0.999, 60)
+    full = curve(grid, grid**2)
+    for w in (0.0, 0.35, 0.6, 1.0):
+        cal = curve(grid, grid**2, weight=w)
+        for p in (0.9, 0.95, 0.98):
+            offset = logit(full.ask(p)) - logit(p)
+            assert cal.ask(p) == pytest.approx(float(expit(logit(p) + w * offset)), rel=1e-9)
+    # asked = sqrt(achieved) at the grid's own points: the full offset there is exact
+    p = float(grid[30] ** 2)
+    assert logit(full.ask(p)) - logit(p) == pytest.approx(logit(grid[30]) - logit(p), abs=1e-6)
+    assert curve(grid, grid**2, weight=0.0).ask(0.93) == pytest.approx(0.93, abs=1e-12)
+
+
 def test_calibration_repairs_a_too_thin_model() -> None:
     """Demand is negative binomial with a variance-to-mean ratio of 2 (drawn with numpy's
     sampler, the oracle), the model believes Poisson: its levels fall short of the asked
@@ -201,9 +222,11 @@ def test_calibration_repairs_a_too_thin_model() -> None:
     def fit(history: np.ndarray, end: int):
         return poisson(history.mean(axis=1))
 
+    # stationary demand: the full inversion (weight 1) is the right correction here
     cal = learn_fill_calibration(train, fit, bt.BacktestSetup(horizon=6, lead_time=1,
                                                               review_period=1,
-                                                              allocation="uniform"))
+                                                              allocation="uniform",
+                                                              calibration_weight=1.0))
     assert cal.origins == (18,)
     dist = fit(train, 24)
 
@@ -216,6 +239,10 @@ def test_calibration_repairs_a_too_thin_model() -> None:
     assert plain < 0.90  # the thin model runs short
     assert cal.ask(0.95) > 0.95
     assert achieved(cal.ask(0.95)) == pytest.approx(0.95, abs=0.01)
+    # the default shrinkage asks for less than the full inversion and more than the promise
+    half = learn_fill_calibration(train, fit, bt.BacktestSetup(allocation="uniform"))
+    assert half.weight == 0.5 and 0.95 < half.ask(0.95) < cal.ask(0.95)
+    assert plain < achieved(half.ask(0.95)) <= achieved(cal.ask(0.95))
 
 
 def test_rewriting_the_scored_months_changes_no_level() -> None:

@@ -31,7 +31,8 @@ class BacktestSetup:
     ``lead_time`` and ``review_period`` in periods, the ``allocation`` of levels
     (:func:`policy_levels`), the forecast ``options`` (None: the defaults for the
     horizon), and whether to ``calibrate`` the fill on ``calibration_origins`` inner
-    origins inside the training months (:mod:`inventory.ordering.calibration`)."""
+    origins inside the training months, its correction shrunk toward none by
+    ``calibration_weight`` (:mod:`inventory.ordering.calibration`)."""
 
     horizon: int = 6
     lead_time: int = 1
@@ -40,6 +41,7 @@ class BacktestSetup:
     options: FitOptions | None = None
     calibrate: bool = True
     calibration_origins: int = 1
+    calibration_weight: float = 0.5  # chosen by cross-validation: calibration.py
 
     @property
     def cover(self) -> int:
