@@ -29,7 +29,7 @@ from inventory.core.errors import InventoryError
 from inventory.core.tables import JobLine, Lot, Movement
 from inventory.forecast.queries import item_demand
 from inventory.history.imports import ImportSettings, run_import
-from inventory.history.jobs import JobItem, noon, record_job
+from inventory.history.jobs import JobItem, JobSpec, noon, record_job
 from inventory.monthend.closing import close_month, reopen_month, totals_of, verify_closed
 from inventory.monthend.report import month_report
 from inventory.stock import check, ledger, returns
@@ -403,8 +403,8 @@ def test_backup_of_postgresql_names_pg_dump(pg_url, tmp_path):
 def test_void_and_return_refuse_closed_books_dates(store):
     with transaction(store) as s:
         ledger.receive(s, ledger.Receipt("WP-32", 3, "6.50", lot="W", ts=noon(date(2026, 9, 1))))
-        record_job(s, ref="J-9", day=date(2026, 10, 2), fork="XC-32", service="damper",
-                   items=[JobItem("WP-32", 2)])
+        record_job(s, JobSpec("J-9", date(2026, 10, 2), "XC-32", "damper",
+                              (JobItem("WP-32", 2),)))
     with transaction(store) as s:
         close_month(s, "2026-10", today=TODAY)
     with transaction(store) as s, pytest.raises(InventoryError) as info:

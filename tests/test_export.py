@@ -18,7 +18,7 @@ from inventory.core import migrate
 from inventory.core.db import make_engine, transaction
 from inventory.history.exports import TABLES, export_table, write_template
 from inventory.history.imports import KINDS, ImportSettings, run_import
-from inventory.history.jobs import JobItem, list_jobs, record_job
+from inventory.history.jobs import JobItem, JobSpec, list_jobs, record_job
 from inventory.stock import ledger
 from tests.conftest import write_catalog
 from tests.test_import_support import cli
@@ -32,10 +32,11 @@ def activity(engine) -> None:
                        ts=at))
         ledger.receive(s, ledger.Receipt("WP-32", 10, "6.50", lot="W", received=date(2025, 5, 2), ts=at))
         ledger.receive(s, ledger.Receipt("OIL-5", 1000, "0.02", lot="O", received=date(2025, 5, 2), ts=at))
-        record_job(s, ref="J-1", day=date(2025, 6, 1), fork="XC-32", service="lower_leg",
-                   items=[JobItem("K-TST", 1), JobItem("OIL-5", 120)], hours=40, fork_ref="F-9")
-        record_job(s, ref="=J-2", day=date(2025, 6, 2), fork="XC-32", service="damper",
-                   items=[JobItem("OR-214", 3)])
+        record_job(s, JobSpec("J-1", date(2025, 6, 1), "XC-32", "lower_leg",
+                              (JobItem("K-TST", 1), JobItem("OIL-5", 120)), hours=40,
+                              fork_ref="F-9"))
+        record_job(s, JobSpec("=J-2", date(2025, 6, 2), "XC-32", "damper",
+                              (JobItem("OR-214", 3),)))
         ledger.adjust(s, ledger.Adjustment("OR-214", -1, reason="=cmd|' /C calc'!A0 (dropped)",
                       ts=datetime(2025, 6, 3, 17, 5, 30, tzinfo=UTC)))
 

@@ -158,8 +158,7 @@ def test_bulk_path_takes_what_the_ledger_path_takes(store, lots, jobs):
 
         def one_by_one():
             for j in specs:
-                record_job(s, ref=j.ref, day=j.day, fork=j.fork, service=j.service,
-                           items=list(j.items))
+                record_job(s, j)
 
         reference = run(one_by_one)
         bulk = run(lambda: record_jobs(s, specs))

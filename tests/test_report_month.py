@@ -17,7 +17,7 @@ from sqlmodel import Session, select
 from inventory.core.db import transaction
 from inventory.core.errors import InventoryError
 from inventory.core.tables import JobLine, Lot, Movement, ServiceJob, StockBalance
-from inventory.history.jobs import JobItem, record_job
+from inventory.history.jobs import JobItem, JobSpec, record_job
 from inventory.monthend.aggregates import load_month
 from inventory.monthend.records import Month, parse_month
 from inventory.monthend.report import ReorderAdvice, assemble, month_report, report_dict
@@ -302,12 +302,12 @@ def test_usage_by_fork_family_and_service_level(store):
     with transaction(store) as s:
         ledger.receive(s, ledger.Receipt("WP-32", 20, "6.50", lot="W", cured="2026Q1", ts=ts(2026, 10, 1)))
         ledger.receive(s, ledger.Receipt("OR-214", 20, "0.25", lot="O", cured="2026Q1", ts=ts(2026, 10, 1)))
-        record_job(s, ref="J-1", day=date(2026, 11, 3), fork="XC-32", service="lower_leg",
-                   items=[JobItem("K-TST", 2)])  # kit not on hand: 4 wipers, 2 O-rings
-        record_job(s, ref="J-2", day=date(2026, 11, 4), fork="XC-32", service="air_spring",
-                   items=[JobItem("OR-214", 3)])
-        record_job(s, ref="J-3", day=date(2026, 10, 4), fork="XC-32", service="air_spring",
-                   items=[JobItem("OR-214", 1)])  # October: not in November's usage
+        record_job(s, JobSpec("J-1", date(2026, 11, 3), "XC-32", "lower_leg",
+                              (JobItem("K-TST", 2),)))  # kit not on hand: 4 wipers, 2 O-rings
+        record_job(s, JobSpec("J-2", date(2026, 11, 4), "XC-32", "air_spring",
+                              (JobItem("OR-214", 3),)))
+        record_job(s, JobSpec("J-3", date(2026, 10, 4), "XC-32", "air_spring",
+                              (JobItem("OR-214", 1),)))  # October: not in November's usage
     r = report(store, "2026-11")
     rows = {(u.fork_family, u.service_level): (u.jobs, u.units, u.value) for u in r.fork_usage}
     assert rows == {("XC-32", "lower_leg"): (1, 6, D("26.50")),

@@ -20,7 +20,7 @@ from sqlmodel import Session
 from inventory.catalog.load import load_catalog
 from inventory.core import migrate
 from inventory.core.db import make_engine, transaction
-from inventory.history.jobs import JobItem, record_job
+from inventory.history.jobs import JobItem, JobSpec, record_job
 from inventory.monthend.html import render_html, write_month_html
 from inventory.monthend.report import month_report
 from inventory.monthend.workbook import RED, SHEETS, key_figures, write_month_workbook
@@ -53,8 +53,8 @@ def report(tmp_path_factory):
         ledger.receive(s, ledger.Receipt("OIL-5", 5000, "0.02", lot="OIL1", ts=ts(2025, 11, 3)))
         for m in range(12):
             y, mo = (2025, 12) if m == 0 else (2026, m)
-            record_job(s, ref=f"J-{m}", day=date(y, mo, 8), fork="XC-32", service="lower_leg",
-                       items=[JobItem("K-TST", 1 + m % 3)])
+            record_job(s, JobSpec(f"J-{m}", date(y, mo, 8), "XC-32", "lower_leg",
+                                  (JobItem("K-TST", 1 + m % 3),)))
         ledger.receive(s, ledger.Receipt("WP-32", 10, "7.00", lot="W2", cured="2026Q3", ts=ts(2026, 11, 9)))
         ledger.count(s, ledger.Count("WP-32", 20, ts=ts(2026, 11, 27)))
     with Session(engine) as s:

@@ -71,8 +71,8 @@ def add(ctx: typer.Context,
         raise InventoryError("a job needs at least one --kit or --part",
                              hint="e.g. --kit K-TR34-LL or --part OR-214=2")
     with unit_of_work(ctx) as s:
-        row, moves = history.add_job(s, fork=fork, day=d, service=level, items=items, ref=ref,
-                                     hours=hours, fork_ref=fork_ref)
+        row, moves = history.add_job(s, history.JobEntry(fork, d, level, tuple(items), ref=ref,
+                                                         hours=hours, fork_ref=fork_ref))
     if as_json:
         print_json(row.to_dict() | {"movements": [m.to_dict() for m in moves]})
         return

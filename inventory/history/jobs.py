@@ -20,7 +20,6 @@ Two paths book jobs, with the same rules:
 
 from __future__ import annotations
 
-from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import UTC, date, datetime, time
 
@@ -82,10 +81,12 @@ def bill_of_materials(session: Session, kit_part: Part) -> list[tuple[Part, int]
     return list(rows)
 
 
-def record_job(session: Session, *, ref: str, day: date, fork: str, service: str,
-               items: list[JobItem], hours: int | None = None, fork_ref: str | None = None,
-               explode_kits: bool = False, batch_id: int | None = None) -> ServiceJob:
-    """Book a job and issue its parts; raises (and so writes nothing) on any shortage."""
+def record_job(session: Session, spec: JobSpec, *, explode_kits: bool = False,
+               batch_id: int | None = None) -> ServiceJob:
+    """Book the job ``spec`` and issue its parts; raises (and so writes nothing) on any
+    shortage. ``explode_kits``: kits are taken from loose seals even when one is on hand."""
+    ref, day, fork, service, items = spec.ref, spec.day, spec.fork, spec.service, spec.items
+    hours, fork_ref = spec.hours, spec.fork_ref
     if session.exec(select(ServiceJob.id).where(ServiceJob.ref == ref)).first() is not None:
         raise InventoryError(f"job {ref} is already recorded", kind="conflict")
     if not items:
@@ -147,9 +148,19 @@ def fork_key(text: str) -> str:
     return " ".join(words(text).split())[:200]
 
 
-def fork_choices(session: Session) -> tuple[list[Choice], dict[str, str], dict[str, str]]:
-    """The fork families as choices for :func:`rank`, remembered aliases (text -> code) and
-    the codes by their letters-and-digits form."""
+@dataclass(frozen=True)
+class ForkChoices:
+    """What a free fork text is matched against: the fork families as choices for
+    :func:`rank`, remembered aliases (text -> code) and the codes by their
+    letters-and-digits form."""
+
+    choices: list[Choice]
+    remembered: dict[str, str]
+    codes: dict[str, str]
+
+
+def fork_choices(session: Session) -> ForkChoices:
+    """The fork families, their remembered aliases and codes (see :class:`ForkChoices`)."""
     aliases: dict[int, list[str]] = {}
     remembered: dict[str, str] = {}
     fams = list(session.exec(select(ForkFamily).order_by(ForkFamily.code)))
@@ -163,23 +174,22 @@ def fork_choices(session: Session) -> tuple[list[Choice], dict[str, str], dict[s
                       (f.year_from, f.year_to or 9999))
                for f in fams]
     codes = {normalise(f.code): f.code for f in fams}
-    return choices, remembered, codes
+    return ForkChoices(choices, remembered, codes)
 
 
-def resolve_fork_text(text: str, choices: Sequence[Choice], remembered: dict[str, str],
-                      codes: dict[str, str], *, accept_score: float = 90.0,
+def resolve_fork_text(text: str, forks: ForkChoices, *, accept_score: float = 90.0,
                       accept_margin: float = 8.0, floor: float = 0.0, limit: int = 5
                       ) -> tuple[str | None, str, float, list[Candidate]]:
     """(code or None, how, score, candidates) for one free fork text: an exact code, a
     remembered alias, or a rapidfuzz ranking accepted when the best scores at least
     ``accept_score`` and leads the next family by ``accept_margin``."""
-    code = codes.get(normalise(text))
+    code = forks.codes.get(normalise(text))
     if code:
         return code, "code", 100.0, []
-    code = remembered.get(fork_key(text))
+    code = forks.remembered.get(fork_key(text))
     if code:
         return code, "alias", 100.0, []
-    cands = rank(text, choices, limit=limit, floor=floor)
+    cands = rank(text, forks.choices, limit=limit, floor=floor)
     if cands:
         lead = cands[0].score - (cands[1].score if len(cands) > 1 else 0.0)
         if cands[0].score >= accept_score and lead >= accept_margin:

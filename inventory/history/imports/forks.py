@@ -19,17 +19,17 @@ def resolve_forks(ctx: Context, texts: dict[str, tuple[str, Source, int]]
     """Decide every distinct fork text of the file (key -> decision), using the answers in
     ``--resolutions`` when given, and write the review workbook for what is left."""
     s = ctx.settings
-    choices, remembered, codes = fork_choices(ctx.session)
+    forks = fork_choices(ctx.session)
     answers: dict[str, tuple[str, Source]] = {}
     if s.resolutions is not None:
-        valid = {c.code.upper(): c.code for c in choices}
+        valid = {c.code.upper(): c.code for c in forks.choices}
         got, problems = read_resolutions(s.resolutions, valid)
         ctx.report.problems += problems
         answers = {fork_key(t): v for t, v in got.items()}
     out: dict[str, ForkDecision] = {}
     for key, (text, first, nrows) in texts.items():
         code, how, score, cands = resolve_fork_text(
-            text, choices, remembered, codes, accept_score=s.accept_score,
+            text, forks, accept_score=s.accept_score,
             accept_margin=s.accept_margin, floor=s.candidate_floor, limit=s.candidates)
         if key in answers and how not in ("code",):
             code, how, score = answers[key][0], "resolution", 100.0
@@ -43,7 +43,7 @@ def resolve_forks(ctx: Context, texts: dict[str, tuple[str, Source, int]]
                                              tuple(d.candidates),
                                              d.code if d.how == "resolution" else None)
                                   for d in asked],
-                         [(c.code, c.label) for c in choices])
+                         [(c.code, c.label) for c in forks.choices])
             ctx.report.review_path = str(target)
         except (OSError, InventoryError) as exc:
             if isinstance(exc, OSError):
