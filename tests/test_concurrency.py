@@ -224,7 +224,7 @@ def test_plan_json_and_workbook_are_one_plan_an_edited_workbook_another(store, t
 
     from openpyxl import load_workbook
 
-    from inventory.ordering.service import make_plan, plan_to_dict
+    from inventory.ordering.service import PlanSpec, make_plan, plan_to_dict
     from inventory.ordering.workbook import read_plan_file, write_plan_workbook
 
     with transaction(store) as s:
@@ -233,7 +233,7 @@ def test_plan_json_and_workbook_are_one_plan_an_edited_workbook_another(store, t
             ledger.receive(s, ledger.Receipt("WP-32", 6, "6.50", ts=datetime(2026, m, 2, tzinfo=UTC)))
             ledger.issue(s, ledger.Issue("WP-32", 6, ts=datetime(2026, m, 20, tzinfo=UTC)))
     with Session(store) as s:
-        plan = make_plan(s, as_of=date(2026, 12, 4), fill_rate=0.95)
+        plan = make_plan(s, PlanSpec(date(2026, 12, 4), fill_rate=0.95))
     assert plan.orders, "the plan must order something for this test to mean anything"
     js = tmp_path / "plan.json"
     js.write_text(json.dumps(plan_to_dict(plan)), encoding="utf-8")

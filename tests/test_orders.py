@@ -128,7 +128,7 @@ def test_plan_reads_open_orders_and_usable_stock(store):
     # the planning use case on each backend: quantities still due on open orders count as
     # on order; a lot past its ISO 2230 period (AU, group A: 5 years from the end of
     # 2019Q1, REFERENCE.md 5) is not counted as on hand
-    from inventory.ordering.service import make_plan
+    from inventory.ordering.service import PlanSpec, make_plan
 
     with transaction(store) as s:
         ledger.receive(s, ledger.Receipt("WP-32", 3, "6.50", lot="OLD", cured="2019Q1", location="BENCH",
@@ -141,7 +141,7 @@ def test_plan_reads_open_orders_and_usable_stock(store):
         [po] = create_orders(s, [draft(("OR-214", 40, None))], created=DAY)
         receive_against_order(s, po.ref, ledger.Receipt("OR-214", 15, ts=TS))
     with Session(store) as s:
-        plan = make_plan(s, as_of=DAY)
+        plan = make_plan(s, PlanSpec(DAY))
     by = {ln.part: ln for ln in plan.lines}
     assert by["OR-214"].on_order == 25 and by["OR-214"].on_hand == 15
     assert by["WP-32"].expired == 3 and by["WP-32"].on_hand == 0

@@ -78,10 +78,11 @@ def plan(ctx: typer.Context,
     as_of = _day(day, "--date") or date.today()
     rate = parse_rate(fill_rate) if fill_rate is not None else None
     with reading(ctx) as s:
-        result = service.plan_command(
-            s, as_of=as_of, kit_mode=kits.value, line_cost=cost, xlsx=xlsx,
-            season_start=_day(season_start, "--season-start"), budget=_budget(budget),
-            fill_rate=rate, part_targets=_targets(target), parts=part, suppliers=supplier)
+        spec = service.PlanSpec(as_of, season_start=_day(season_start, "--season-start"),
+                                budget=_budget(budget), fill_rate=rate,
+                                part_targets=_targets(target), parts=part or (),
+                                suppliers=supplier or ())
+        result = service.plan_command(s, spec, kit_mode=kits.value, line_cost=cost, xlsx=xlsx)
     if as_json:
         print_json(service.plan_to_dict(result))
         return

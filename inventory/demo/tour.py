@@ -196,13 +196,13 @@ def plan_tour(url: str, reports_dir: str | Path) -> None:
     ``reports_dir`` and prints a short summary."""
     import json
 
-    from inventory.ordering.service import make_plan, plan_to_dict
+    from inventory.ordering.service import PlanSpec, make_plan, plan_to_dict
     from inventory.ordering.workbook import write_plan_workbook
 
     out = Path(reports_dir)
     out.mkdir(parents=True, exist_ok=True)
     with Session(make_engine(url)) as s:
-        plan = make_plan(s, as_of=date(2026, 12, 2), season_start=date(2027, 3, 1))
+        plan = make_plan(s, PlanSpec(date(2026, 12, 2), season_start=date(2027, 3, 1)))
     xlsx = write_plan_workbook(plan, out / "preseason_plan.xlsx")
     (out / "preseason_plan.json").write_text(
         json.dumps(plan_to_dict(plan), indent=2, ensure_ascii=False) + "\n", encoding="utf-8")

@@ -26,11 +26,11 @@ from inventory.web.state import Web
 
 
 def plan_dict(s, q) -> dict:
-    from inventory.ordering.service import make_plan, plan_to_dict
+    from inventory.ordering.service import PlanSpec, make_plan, plan_to_dict
 
     as_of = day_field(q.get("date"), "date") or date.today()
     season = day_field(q.get("season_start"), "season_start")
-    return plan_to_dict(make_plan(s, as_of=as_of, season_start=season))
+    return plan_to_dict(make_plan(s, PlanSpec(as_of, season_start=season)))
 
 
 async def plan_page(request: Request, errors: dict | None = None, status: int = 200) -> Response:
