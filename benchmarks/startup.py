@@ -7,7 +7,8 @@ so the ratio holds on a slow or busy machine too). Each command runs ``--runs`` 
 fresh process through the installed console script, interleaved with the baseline; the
 median is compared with the target (min and max shown, and the median CPU time, which
 a busy machine inflates far less than the wall time). The match also reports which heavy
-libraries the command imported (none expected: tests/test_startup.py checks the same).
+libraries the command imported (none expected: tests/test_startup.py checks the same), and
+that ``match`` on SQLite and ``--help`` load no SQLAlchemy, SQLModel or numpy.
 
     python benchmarks/startup.py [--db demo.db] [--runs 15] [--strict]
 
@@ -31,6 +32,9 @@ HELP_TARGET = 0.25
 MATCH_TARGET = 0.35
 MATCH_RATIO = 10.0
 HEAVY = ("scipy", "matplotlib", "openpyxl", "alembic", "pandas")
+#: Not loaded by ``match`` with readings on SQLite either (it reads through the standard
+#: library's sqlite3: inventory.core.sqlread), nor by ``--help``.
+LEAN = ("sqlalchemy", "sqlmodel", "numpy")
 
 
 def script() -> str:
@@ -55,9 +59,10 @@ def wall(cmd: list[str], env: dict[str, str], cwd: str) -> tuple[float, float]:
     return elapsed, cpu
 
 
-def heavy_imported(args: list[str], env: dict[str, str], cwd: str) -> list[str]:
+def heavy_imported(args: list[str], env: dict[str, str], cwd: str,
+                   names: tuple[str, ...] = HEAVY) -> list[str]:
     code = ("import atexit, sys\n"
-            f"atexit.register(lambda: print(sorted({{m.split('.')[0] for m in sys.modules}} & {set(HEAVY)!r})))\n"
+            f"atexit.register(lambda: print(sorted({{m.split('.')[0] for m in sys.modules}} & {set(names)!r})))\n"
             "from inventory.cli.main import run\n"
             f"sys.argv = ['inventory', *{args!r}]\n"
             "run()\n")
@@ -101,6 +106,9 @@ def main() -> int:
     cpu_med = {name: statistics.median(t) for name, t in cpu.items()}
     base = med["python -c pass"]
     heavy = heavy_imported(["--db", db, "match", "--id", "24.99", "--cs", "3.53"], env, tmp)
+    lean = {"match": heavy_imported(["--db", db, "match", "--id", "24.99", "--cs", "3.53"],
+                                    env, tmp, LEAN),
+            "--help": heavy_imported(["--help"], env, tmp, HEAVY + LEAN)}
 
     print(f"\n{'command':40} {'median s':>9} {'min s':>7} {'max s':>7} {'x pass':>7} "
           f"{'CPU s':>7}")
@@ -116,12 +124,15 @@ def main() -> int:
         (f"match <= {MATCH_RATIO:g} x python -c pass",
          med["inventory match --id 24.99 --cs 3.53"] <= MATCH_RATIO * base),
         ("match imports none of " + ", ".join(HEAVY), heavy == []),
+        ("match (SQLite) imports none of " + ", ".join(LEAN), lean["match"] == []),
+        ("--help imports none of " + ", ".join(HEAVY + LEAN), lean["--help"] == []),
     ]
     print()
     for label, ok in checks:
         print(f"{'PASS' if ok else 'FAIL'}  {label}")
-    if heavy:
-        print(f"      match imported: {', '.join(heavy)}")
+    for name, found in (("match", heavy + lean["match"]), ("--help", lean["--help"])):
+        if found:
+            print(f"      {name} imported: {', '.join(found)}")
     print(f"\n{args.runs} runs each, {os.cpu_count()} CPUs, load average "
           f"{', '.join(f'{x:.2f}' for x in os.getloadavg())}")
     shutil.rmtree(tmp, ignore_errors=True)

@@ -19,7 +19,9 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Iterable, Mapping, Sequence
+from dataclasses import dataclass
 from datetime import date
+from functools import cache
 from typing import Any
 
 from inventory.bench.fit_limits import KIND_CODE, material_code
@@ -69,7 +71,29 @@ _WINDOW_SQL = {
 }
 
 
-def _spec(row: tuple) -> PartSpec:
+_KIND_CODE = {str(k): code for k, code in KIND_CODE.items()}
+_ROUND = frozenset(str(k) for k in ROUND_SECTION)
+_AT = {"id": 0, "od": 1, "height": 2, "cs": 3}
+_NAN = math.nan
+
+
+def _f(value: Any) -> float:
+    return _NAN if value is None else float(value)
+
+
+def _dims(kind: str, idm: Any, od: Any, height: Any, cs: Any) -> tuple[float, ...]:
+    """(id, od, height, cs) as matching compares them, NaN when absent: rings without an
+    outside diameter or height get ``id + 2 cs`` and ``cs`` (as the array columns)."""
+    i, o, h, c = _f(idm), _f(od), _f(height), _f(cs)
+    if kind in _ROUND:
+        if math.isnan(o):
+            o = i + 2.0 * c
+        if math.isnan(h):
+            h = c
+    return (i, o, h, c)
+
+
+def _spec(row: Sequence[Any]) -> PartSpec:
     d = dict(zip(COLUMNS, row, strict=True))
 
     def num(name: str, cast: Callable[[Any], Any] = float) -> Any:
@@ -84,15 +108,15 @@ def _spec(row: tuple) -> PartSpec:
                     standard=d["standard"])
 
 
-def _dimension(spec: PartSpec, dim: str) -> float:
-    """The value matching compares (NaN when absent), as the array columns hold it."""
-    value = getattr(spec, f"{dim}_mm")
-    v = math.nan if value is None else float(value)
-    if math.isnan(v) and dim in ("od", "height") and PartKind(spec.kind) in ROUND_SECTION:
-        idm = math.nan if spec.id_mm is None else float(spec.id_mm)
-        cs = math.nan if spec.cs_mm is None else float(spec.cs_mm)
-        v = idm + 2.0 * cs if dim == "od" else cs
-    return v
+@dataclass(frozen=True, slots=True)
+class Scored:
+    """What the scorer reads of one candidate: kind, the four dimensions as compared,
+    material and standard designation."""
+
+    kind: str
+    dims: tuple[float, ...]
+    material: str | None
+    standard: str | None
 
 
 class Scorer:
@@ -108,75 +132,98 @@ class Scorer:
                       else kind_penalty_table(PartKind(query.kind), weights))
         self.materials = (None if query.material is None
                           else material_penalty_table(query.material, weights))
+        self._codes: dict[str | None, int] = {}
 
-    def parts(self, spec: PartSpec) -> dict[str, float]:
+    def parts(self, c: Scored) -> dict[str, float]:
         out: dict[str, float] = {}
         for dim, value in self.dims.items():
-            part = abs(_dimension(spec, dim) - value) / self.tol[dim]
+            part = abs(c.dims[_AT[dim]] - value) / self.tol[dim]
             out[dim] = self.weights.missing_dimension if math.isnan(part) else part
         if self.kinds is not None:
-            out["kind"] = self.kinds[KIND_CODE[PartKind(spec.kind)]]
+            out["kind"] = self.kinds[_KIND_CODE[c.kind]]
         if self.materials is not None:
-            any_material = spec.material is None and spec.standard is not None
-            out["material"] = 0.0 if any_material else self.materials[
-                material_code(spec.material)]
+            if c.material is None and c.standard is not None:  # any material
+                out["material"] = 0.0
+            else:
+                code = self._codes.get(c.material)
+                if code is None:
+                    code = self._codes.setdefault(c.material, material_code(c.material))
+                out["material"] = self.materials[code]
         return out
 
-    def best(self, specs: Sequence[PartSpec], source: str, limit: int) -> list[Candidate]:
-        """The ``limit`` best of ``specs`` (in the catalog's order), best first."""
+    def best(self, candidates: Sequence[Scored], limit: int) -> list[tuple[int, float,
+                                                                          dict[str, float]]]:
+        """(position, score, parts) of the ``limit`` best, best first; ties by position
+        (the catalog's order)."""
         scored = []
-        for i, spec in enumerate(specs):
-            parts = self.parts(spec)
+        for i, c in enumerate(candidates):
+            parts = self.parts(c)
             total = 0.0
             for v in parts.values():
                 total += v
             scored.append((total, i, parts))
         scored.sort(key=lambda t: (t[0], t[1]))
-        out = []
-        for total, i, parts in scored[:limit]:
-            spec = specs[i]
-            dim_parts = {d: parts[d] for d in DIMENSIONS if d in parts}
-            out.append(Candidate(
-                index=i, code=spec.code, source=source, kind=str(PartKind(spec.kind)),
-                id_mm=spec.id_mm, od_mm=spec.od_mm, height_mm=spec.height_mm,
-                cs_mm=spec.cs_mm, score=total, parts=parts,
-                driver=max(dim_parts, key=dim_parts.__getitem__) if dim_parts else None))
-        return out
+        return [(i, total, parts) for total, i, parts in scored[:limit]]
+
+    def candidate(self, spec: PartSpec, source: str, index: int, score: float,
+                  parts: dict[str, float]) -> Candidate:
+        dim_parts = {d: parts[d] for d in DIMENSIONS if d in parts}
+        return Candidate(index=index, code=spec.code, source=source,
+                         kind=str(PartKind(spec.kind)), id_mm=spec.id_mm, od_mm=spec.od_mm,
+                         height_mm=spec.height_mm, cs_mm=spec.cs_mm, score=score,
+                         parts=parts,
+                         driver=max(dim_parts, key=dim_parts.__getitem__) if dim_parts
+                         else None)
 
 
-def _window(reader: Reader, scorer: Scorer, width: float | None) -> list[PartSpec]:
+def _window(reader: Reader, scorer: Scorer, width: float | None) -> list[tuple]:
     """The bench parts within ``width`` tolerances of every reading (None: every part), in
     the catalog's code order."""
     where = ["kind NOT IN :excluded"]
-    params: dict[str, Any] = {"excluded": sorted(str(k) for k in NOT_BENCH_KINDS),
-                              "rings": _RINGS}
+    params: dict[str, Any] = {"excluded": sorted(str(k) for k in NOT_BENCH_KINDS)}
     if width is not None:
         for dim, value in scorer.dims.items():
             half = width * (1.0 + EDGE) * scorer.tol[dim] + EDGE
             where.append(_WINDOW_SQL[dim])
             params[f"{dim}_lo"], params[f"{dim}_hi"] = value - half, value + half
+            if dim in ("od", "height"):
+                params["rings"] = _RINGS
     sql = (f"SELECT {', '.join(COLUMNS)} FROM part WHERE {' AND '.join(where)} "
            "ORDER BY code")
-    if "rings" not in " ".join(where):
-        params.pop("rings")
-    return [_spec(r) for r in reader.rows(sql, **params)]
+    return reader.rows(sql, **params)
 
 
 def shop_candidates(reader: Reader, scorer: Scorer, limit: int) -> list[tuple[PartSpec,
                                                                               Candidate]]:
     """The ``limit`` best shop parts, the window widened until it holds them for sure."""
     for width in (*WINDOWS, None):
-        specs = _window(reader, scorer, width)
-        best = scorer.best(specs, "stock", limit)
-        if width is None or (len(best) == limit and best[-1].score <= width):
-            return [(specs[c.index], c) for c in best]
+        rows = _window(reader, scorer, width)
+        scored = [Scored(r[1], _dims(r[1], r[3], r[4], r[5], r[6]), r[7], r[11]) for r in rows]
+        best = scorer.best(scored, limit)
+        if width is None or (len(best) == limit and best[-1][1] <= width):
+            out = []
+            for i, score, parts in best:
+                spec = _spec(rows[i])
+                out.append((spec, scorer.candidate(spec, "stock", i, score, parts)))
+            return out
     raise AssertionError("unreachable")  # pragma: no cover
 
 
+@cache
+def _standard_scored() -> tuple[Scored, ...]:
+    kind = str(PartKind.O_RING)
+    return tuple(Scored(kind, _dims(kind, i, None, None, c), None, d)
+                 for d, i, c in standard_ring_rows())
+
+
 def standard_candidates(scorer: Scorer, limit: int) -> list[tuple[PartSpec, Candidate]]:
-    specs = [PartSpec(code=d, kind=PartKind.O_RING, id_mm=i, cs_mm=c, standard=d)
-             for d, i, c in standard_ring_rows()]
-    return [(specs[c.index], c) for c in scorer.best(specs, "standard", limit)]
+    rings = standard_ring_rows()
+    out = []
+    for i, score, parts in scorer.best(_standard_scored(), limit):
+        d, idm, cs = rings[i]
+        spec = PartSpec(code=d, kind=PartKind.O_RING, id_mm=idm, cs_mm=cs, standard=d)
+        out.append((spec, scorer.candidate(spec, "standard", i, score, parts)))
+    return out
 
 
 def stocked_as(reader: Reader, designations: Sequence[str]) -> dict[str, list[str]]:
@@ -185,14 +232,16 @@ def stocked_as(reader: Reader, designations: Sequence[str]) -> dict[str, list[st
     wanted = set(designations)
     if not wanted:
         return {}
+    excluded = sorted(str(k) for k in NOT_BENCH_KINDS)
+    texts = [t for (t,) in reader.rows(  # the few spellings in use (index only)
+        "SELECT DISTINCT standard FROM part WHERE standard IS NOT NULL AND standard <> ''")
+        if normalise_designation(t) in wanted]
     out: dict[str, list[str]] = {}
-    for code, standard in reader.rows(
-            "SELECT code, standard FROM part WHERE standard IS NOT NULL AND standard <> '' "
-            "AND kind NOT IN :excluded ORDER BY code",
-            excluded=sorted(str(k) for k in NOT_BENCH_KINDS)):
-        key = normalise_designation(standard)
-        if key in wanted:
-            out.setdefault(key, []).append(code)
+    if texts:
+        for code, standard in reader.rows(
+                "SELECT code, standard FROM part WHERE standard IN :texts "
+                "AND kind NOT IN :excluded ORDER BY code", texts=texts, excluded=excluded):
+            out.setdefault(normalise_designation(standard), []).append(code)
     return out
 
 

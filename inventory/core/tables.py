@@ -28,7 +28,8 @@ class Part(SQLModel, table=True):
     code: str = Field(index=True, unique=True, max_length=64)
     kind: str = Field(max_length=32, index=True)
     description: str = Field(default="", max_length=200)
-    # indexed: the bench asks for the parts near a reading (migration 0006)
+    # indexed: the bench asks for the parts near a reading and the parts stocked as a
+    # standard size (migration 0006)
     id_mm: float | None = Field(default=None, index=True)
     od_mm: float | None = Field(default=None, index=True)
     height_mm: float | None = Field(default=None, index=True)
@@ -37,7 +38,7 @@ class Part(SQLModel, table=True):
     hardness: int | None = None
     volume_cm3: float | None = None
     unit: str = Field(default="each", max_length=8)
-    standard: str | None = Field(default=None, max_length=48)
+    standard: str | None = Field(default=None, max_length=48, index=True)
     notes: str = Field(default="", max_length=400)
 
 

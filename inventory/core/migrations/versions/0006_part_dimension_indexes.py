@@ -4,8 +4,9 @@ Revision ID: 0006
 Revises: 0005
 Create Date: 2026-12-04
 
-Indexes on the part's inside and outside diameter, height and cross-section: ``inventory
-match`` asks the database for the parts within a few tolerances of the readings
+Indexes on the part's inside and outside diameter, height and cross-section, and on its
+standard size: ``inventory match`` asks the database for the parts within a few tolerances
+of the readings and for the parts stocked as the standard sizes it shows
 (inventory.bench.match_sql) instead of reading the whole catalog.
 """
 from alembic import op
@@ -15,7 +16,7 @@ down_revision = '0005'
 branch_labels = None
 depends_on = None
 
-COLUMNS = ('id_mm', 'od_mm', 'height_mm', 'cs_mm')
+COLUMNS = ('id_mm', 'od_mm', 'height_mm', 'cs_mm', 'standard')
 
 
 def upgrade() -> None:
