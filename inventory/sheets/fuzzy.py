@@ -204,10 +204,20 @@ def _word_found(word: str, vocab: set[str], typo_ratio: float) -> bool:
     return any(len(v) >= 4 and fuzz.ratio(word, v) >= typo_ratio for v in vocab)
 
 
-def rank(text: str, choices: Sequence[Choice], *, limit: int = 5, word_weight: float = 80.0,
-         number_weight: float = 10.0, year_weight: float = 5.0, typo_ratio: float = 80.0,
-         floor: float = 0.0) -> list[Candidate]:
-    """Choices ordered by how well ``text`` names them, each score a sum of named parts:
+@dataclass(frozen=True, slots=True)
+class RankWeights:
+    """The weights of :func:`rank`'s score parts and the typo threshold."""
+
+    words: float = 80.0
+    numbers: float = 10.0
+    years: float = 5.0
+    typo_ratio: float = 80.0
+
+
+def rank(text: str, choices: Sequence[Choice], *, limit: int = 5,
+         weights: RankWeights = RankWeights(), floor: float = 0.0) -> list[Candidate]:
+    """Choices ordered by how well ``text`` names them, each score a sum of named parts
+    (``word_weight`` and the others are the fields of ``weights``):
 
     - ``code``: the choice's code written inside the text ("tr34 gen2") scores 100 outright;
     - ``words``: ``word_weight`` times the share of the text's words (numbers and filler
@@ -221,6 +231,8 @@ def rank(text: str, choices: Sequence[Choice], *, limit: int = 5, word_weight: f
 
     Clamped to 0..100.
     """
+    word_weight, number_weight, year_weight = weights.words, weights.numbers, weights.years
+    typo_ratio = weights.typo_ratio
     tokens = _tokens(text)
     ws, nums, years = _split(tokens)
     out = []

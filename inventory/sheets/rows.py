@@ -117,13 +117,25 @@ def _parse_column(raws: list[Any], parse: Callable[[Any], Any]) -> list[tuple[in
     return [cache[r] for r in raws]
 
 
+@dataclass(frozen=True, slots=True)
+class DateRules:
+    """How a sheet's date columns are read: which columns hold dates, the day/month order
+    (None: decided from the column), the workbook's 1904 date system, and the bounds."""
+
+    fields: Collection[str] = ("date",)
+    order: dates.Order | None = None
+    date1904: bool = False
+    earliest: date | None = None
+    latest: date | None = None
+
+
 def type_rows(table: Table, schema: Schema, hmap: HeaderMap, *,
-              date_fields: Collection[str] = ("date",), date_order: dates.Order | None = None,
-              date1904: bool = False, earliest: date | None = None, latest: date | None = None,
+              date_rules: DateRules = DateRules(),
               skip_cells: Collection[tuple[int, int]] = ()) -> TypedRows:
     """Typed values of every row. ``skip_cells`` (row, 1-based column) are cells already
     reported (a formula without a saved value): they count as invalid without a second
     message."""
+    dr = date_rules
     out = TypedRows()
     cols = {c.name: c for c in schema.columns}
     plan = [(name, m.column, m.header, cols[name]) for name, m in hmap.matches.items()]
@@ -151,13 +163,13 @@ def type_rows(table: Table, schema: Schema, hmap: HeaderMap, *,
     out.read = len(data)
     parsers: dict[str, Callable[[Any], Any]] = {}
     for name, i, header, col in plan:
-        if name in date_fields:
-            decision = dates.decide_order(raw_columns[name], given=date_order)
+        if name in dr.fields:
+            decision = dates.decide_order(raw_columns[name], given=dr.order)
             out.dates[name] = decision
             if not decision.decided:
                 out.problems.extend(_order_problems(decision, data, i, header, table))
-            parsers[name] = date_parser(decision.order, date1904=date1904, earliest=earliest,
-                                        latest=latest)
+            parsers[name] = date_parser(decision.order, date1904=dr.date1904,
+                                        earliest=dr.earliest, latest=dr.latest)
         else:
             parsers[name] = col.parse
     undecided = {n for n, d in out.dates.items() if not d.decided}

@@ -25,7 +25,7 @@ from inventory.history.imports.recorded import mark_recorded
 from inventory.history.imports.report import Event, ImportReport, ImportSettings, Unit
 from inventory.history.imports.steps import Context
 from inventory.sheets.kinds import DATE, KINDS, SCHEMAS
-from inventory.sheets.rows import TypedRows, type_rows
+from inventory.sheets.rows import DateRules, TypedRows, type_rows
 
 
 @dataclass(frozen=True)
@@ -98,9 +98,9 @@ def _run(session: Session, path: Path, settings: ImportSettings, *, apply: bool,
         return _finish(session, rep, [], apply)  # rows cannot be read without their columns
     today = settings.today or date.today()
     skip = {(f.row, f.column) for f in sheet.formulas if not f.has_value}
-    typed = type_rows(sheet.table, SCHEMAS[settings.kind], hmap, date_fields=DATE,
-                      date_order=settings.date_order, date1904=sheet.date1904,
-                      earliest=settings.earliest, latest=today, skip_cells=skip)
+    rules = DateRules(DATE, settings.date_order, sheet.date1904, settings.earliest, today)
+    typed = type_rows(sheet.table, SCHEMAS[settings.kind], hmap, date_rules=rules,
+                      skip_cells=skip)
     absorb(rep, typed)
     if not typed.read:
         t = sheet.table
