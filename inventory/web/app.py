@@ -29,7 +29,6 @@ from inventory.web.pages_jobs import job_add_part, job_page, job_undo, jobs_add,
 from inventory.web.pages_login import home, login, login_form, logout
 from inventory.web.pages_monthend import month_close, month_page, month_report, month_xlsx
 from inventory.web.pages_plan import (
-    plan_chart_png,
     plan_charts,
     plan_order_xlsx,
     plan_orders,
@@ -119,7 +118,6 @@ def create_app(url: str | None = None, *, secret: str | None = None,
         Route("/plan/orders", plan_orders, methods=["POST"]),
         Route("/plan/orders/{ref}.xlsx", plan_order_xlsx),
         Route("/plan/charts", plan_charts),
-        Route("/plan/charts/{token}/{name}", plan_chart_png),
         Route("/month-end", month_page),
         Route("/month-end/{month}/report", month_report),
         Route("/month-end/{month}.xlsx", month_xlsx),

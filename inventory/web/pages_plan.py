@@ -58,33 +58,35 @@ async def plan_page(request: Request, errors: dict | None = None, status: int = 
                 orders=orders, values=q, errors=errs, done=request.query_params.get("done"))
 
 
-# A chart PNG is about 65 KB (measured on the demo's kits): two per page keep a charts page
-# under the issue's 200 KB transferred; the rest are on the next pages.
+# A chart PNG is about 65 KB (measured on the demo's kits), about 87 KB as base64 inside the
+# page: two per page keep a charts page under the issue's 200 KB transferred; the rest are on
+# the next pages.
 CHARTS_PER_PAGE = 2
 
 
-def _chart_dir() -> Path:
+def _draw(report, shown: list) -> list[str]:
+    """The PNG charts of ``shown`` as base64 text for ``data:`` images: drawn into a
+    temporary folder that is removed before the page is sent, so nothing stays on disk."""
+    import base64
     import tempfile
 
-    d = Path(tempfile.gettempdir()) / "inventory-charts"
-    d.mkdir(mode=0o700, exist_ok=True)
-    return d
+    from inventory.forecast.service import write_outputs
+
+    with tempfile.TemporaryDirectory(prefix="inventory-charts-") as tmp:
+        paths = write_outputs(report, shown, charts=Path(tmp), defaults=False)
+        return [base64.b64encode(Path(p).read_bytes()).decode("ascii") for p in paths]
 
 
 async def plan_charts(request: Request) -> Response:
     """Forecast charts (history, forecast, 10-90 % range) of the parts in the plan (or, with
-    ``by=kit`` / ``by=family``, the busiest kits / fork families), drawn
-    in one forecast run and kept in a temporary folder for the images to be fetched."""
-    import re
-    import secrets
-
+    ``by=kit`` / ``by=family``, the busiest kits / fork families), drawn in one forecast run
+    and sent inside the page (no image files are kept on the server)."""
     who = auth.require(request, "plan")
     web: Web = request.app.state.web
     q = dict(request.query_params)
     by = q.get("by") if q.get("by") in ("family", "kit") else "part"
 
     def go(s):
-        from inventory.forecast.charts import chart_name
         from inventory.forecast.service import ForecastFiles, ForecastRequest, forecast_command
 
         as_of = day_field(q.get("date"), "date") or date.today()
@@ -92,49 +94,28 @@ async def plan_charts(request: Request) -> Response:
         if by == "part":
             plan = plan_dict(s, q)
             codes = sorted({ln["part"] for o in plan["orders"] for ln in o["lines"]})
-        token = secrets.token_hex(6)
-        folder = _chart_dir() / token
         try:
             report, chosen, _ = forecast_command(s, ForecastRequest(today=as_of, by=by),
                                                  ForecastFiles(top=0 if codes else 12,
                                                                defaults=False))
         except InventoryError as exc:
-            return token, [], (message_of(exc), 1)
+            return [], (message_of(exc), 1)
         known = {x.code: x for x in report.series}
         chosen = [known[c] for c in codes if c in known] or chosen
-        from inventory.forecast.service import write_outputs
-
         pages = max(1, -(-len(chosen) // CHARTS_PER_PAGE))
         shown = chosen[(min(at, pages) - 1) * CHARTS_PER_PAGE:][:CHARTS_PER_PAGE]
-        write_outputs(report, shown, charts=folder, defaults=False)
-        return token, [(x.code, chart_name(report, x)) for x in shown], (None, pages)
+        return list(zip([x.code for x in shown], _draw(report, shown), strict=True)), \
+            (None, pages)
     try:
         at = max(1, int(q.get("page") or 1))
     except ValueError:
         at = 1
     try:
-        token, charts, (err, pages) = await web.read(go, who)
+        charts, (err, pages) = await web.read(go, who)
     except FormError as exc:
         return await plan_page(request, {exc.field: exc.message}, 400)
-    names = [(c, n) for c, n in charts if re.fullmatch(r"[A-Za-z0-9._-]+", n)]
-    return page(request, "plan_charts.html", who, token=token, charts=names, error=err,
+    return page(request, "plan_charts.html", who, charts=charts, error=err,
                 values=q, by=by, at=min(at, pages), pages=pages)
-
-
-async def plan_chart_png(request: Request) -> Response:
-    import re
-
-    from starlette.responses import FileResponse
-
-    auth.require(request, "plan")
-    token, name = request.path_params["token"], request.path_params["name"]
-    if not re.fullmatch(r"[0-9a-f]{12}", token) or not re.fullmatch(r"[A-Za-z0-9._-]+\.png",
-                                                                     name):
-        raise HTTPException(404)
-    path = _chart_dir() / token / name
-    if not path.exists():
-        raise HTTPException(404)
-    return FileResponse(path, media_type="image/png")
 
 
 async def plan_order_xlsx(request: Request) -> Response:
