@@ -294,6 +294,41 @@ def test_imports_upload_preview_decide_apply(web, tmp_path):
     assert jobs == {"A1": "XC-32", "A2": "XC-32"}
 
 
+def test_uploads_are_removed_once_replaced_applied_or_old(web, tmp_path, monkeypatch):
+    import os
+    import tempfile
+    import time
+
+    spool = tmp_path / "spool"
+    spool.mkdir()
+    monkeypatch.setattr(tempfile, "tempdir", str(spool))
+    uploads = spool / "inventory-uploads"
+    uploads.mkdir(mode=0o700)
+    stale = uploads / "0123456789abcdef"  # a preview left two days ago
+    stale.mkdir()
+    (stale / "old.csv").write_text("x", encoding="utf-8")
+    two_days_ago = time.time() - 2 * 86400
+    os.utime(stale, (two_days_ago, two_days_ago))
+    day = date.today().isoformat()
+    csv = f"job,date,fork,service,part,qty\nB1,{day},XC-32,lower leg,OR-214,1\n".encode()
+    ana = web("ana")
+    tok = csrf(ana.get("/imports"))
+
+    def preview() -> str:
+        r = ana.post("/imports/preview", data={"csrf": tok, "kind": "history", "order": ""},
+                     files={"file": ("hist.csv", csv)})
+        assert r.status_code == 200, r.text[-2000:]
+        return re.search(r'name="token" value="([^"]+)"', r.text).group(1)
+    first = preview()
+    assert sorted(p.name for p in uploads.iterdir()) == [first]  # the stale one is gone
+    second = preview()  # the same person uploads again: the first file goes
+    assert sorted(p.name for p in uploads.iterdir()) == [second]
+    r = ana.post("/imports/apply", data={"csrf": tok, "token": second, "nforks": "0",
+                                         "action": "apply"})
+    assert r.status_code == 303 and "applied%20hist.csv" in r.headers["location"]
+    assert list(uploads.iterdir()) == []  # applied: nothing left on disk
+
+
 def test_job_return_and_void_book_new_movements(web):
     sam = web("sam")
     page = sam.get("/bench?id=24.99&cs=3.53")

@@ -29,6 +29,34 @@ def _upload_dir() -> Path:
     return d
 
 
+#: An upload that was previewed but never applied is removed after this many hours.
+UPLOAD_HOURS = 24
+
+
+def _forget_upload(up: dict | None) -> None:
+    """Remove one upload's folder (the file and its review workbook)."""
+    import re
+    import shutil
+
+    token = str((up or {}).get("token", ""))
+    if re.fullmatch(r"[0-9a-f]{16}", token):
+        shutil.rmtree(_upload_dir() / token, ignore_errors=True)
+
+
+def _sweep_uploads() -> None:
+    """Remove upload folders older than :data:`UPLOAD_HOURS` (previews nobody applied)."""
+    import shutil
+    import time
+
+    limit = time.time() - UPLOAD_HOURS * 3600
+    for folder in _upload_dir().iterdir():
+        try:
+            if folder.is_dir() and folder.stat().st_mtime < limit:
+                shutil.rmtree(folder, ignore_errors=True)
+        except OSError:  # another worker removed it first
+            continue
+
+
 def _kinds() -> tuple[str, ...]:
     from inventory.history.service import KINDS
 
@@ -122,6 +150,8 @@ async def imports_preview(request: Request) -> Response:
     if len(data) > MAX_UPLOAD:
         return await imports_page(request, errors={"file": f"{name} is larger than 20 MB"},
                                   values=values, status=400)
+    _forget_upload(request.session.get("upload"))  # a new upload replaces this session's last
+    _sweep_uploads()
     token = secrets.token_hex(8)
     folder = _upload_dir() / token
     folder.mkdir(mode=0o700)
@@ -147,7 +177,7 @@ async def imports_apply(request: Request) -> Response:
     apply = form.get("action") == "apply"
     (rep, err, forks), decisions = await _run_import(request, who, up, form, apply=apply)
     if apply and rep and not err:
-        request.session.pop("upload", None)
+        _forget_upload(request.session.pop("upload", None))
         from urllib.parse import quote
 
         return RedirectResponse("/imports?done=" + quote(
