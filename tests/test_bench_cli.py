@@ -532,3 +532,25 @@ def test_match_table_drops_columns_before_cutting_codes():
     assert "driven by" not in seen[80][0] and "kind" not in seen[80][0]
     assert "verdict" in seen[60][0] and "notes" not in seen[60][0]
     assert seen[60][1] == [f"#1: stocked as {long_code}; PAST STORAGE x3"]
+
+
+def test_match_by_sql_on_both_databases_equals_the_array_search(store, monkeypatch, capsys):
+    """``inventory match`` with readings reads through the plain reader: on SQLite the
+    standard library's driver, on PostgreSQL a read-only SQLAlchemy connection. The oracle
+    is the array search over the same database (the web app's path); AS568-214 is 24.99 x
+    3.53 mm (REFERENCE.md 1.2)."""
+    from inventory.bench import service as svc
+    from inventory.core.db import read_transaction
+    from tests.conftest import inv
+
+    url = store.url.render_as_string(hide_password=False)
+    form = svc.MatchForm(id_="24.99", cs="3.53", material="NBR")
+    code, out, err = inv(monkeypatch, capsys, "--db", url, "match", "--id", "24.99",
+                         "--cs", "3.53", "--material", "NBR", "--json")
+    assert code == 0, err
+    with read_transaction(store) as s:
+        expected = svc.match_parts(s, form).to_dict()
+    got = json.loads(out)
+    assert got == json.loads(json.dumps(expected))
+    assert got["candidates"][0]["score"] is not None
+    assert any(c.get("designation") == "AS568-214" for c in got["candidates"])
