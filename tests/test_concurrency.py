@@ -224,8 +224,9 @@ def test_plan_json_and_workbook_are_one_plan_an_edited_workbook_another(store, t
 
     from openpyxl import load_workbook
 
+    from inventory.ordering.plan_file import read_plan_file
     from inventory.ordering.service import PlanSpec, make_plan, plan_to_dict
-    from inventory.ordering.workbook import read_plan_file, write_plan_workbook
+    from inventory.ordering.workbook import write_plan_workbook
 
     with transaction(store) as s:
         ledger.receive(s, ledger.Receipt("OR-214", 2, "0.25", ts=datetime(2026, 1, 5, tzinfo=UTC)))

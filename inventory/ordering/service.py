@@ -258,7 +258,7 @@ def orders_from_plan_file(session: Session, path: Any, *, created: date) -> list
     """``inventory order create --from-plan``: read a plan workbook or its JSON and record
     its purchase orders as open orders."""
     from inventory.ordering.orders import create_orders
-    from inventory.ordering.workbook import read_plan_file
+    from inventory.ordering.plan_file import read_plan_file
 
     return create_orders(session, read_plan_file(path), created=created, source=path)
 
