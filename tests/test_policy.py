@@ -310,3 +310,19 @@ def test_one_level_search_finds_the_smallest_level_or_raises() -> None:
     with pytest.raises(RuntimeError, match="no level reaches the target"):
         smallest_level(lambda s, idx: s >= 1e30, np.full(2, -1.0), np.ones(2),
                        np.arange(2), LevelSearch(max_doublings=5, what="test"))
+
+
+@pytest.mark.parametrize("method", ["uniform", "marginal"])
+def test_pooled_levels_batch_equals_one_target_at_a_time(method: str) -> None:
+    """The fill calibration's grid shares one table of expected fills: the levels are the
+    same as :func:`policy.pooled_order_up_to_levels` (checked against the exact fill rate
+    above) called once per target."""
+    rng = np.random.default_rng(21)
+    d = dd.negative_binomial(rng.gamma(0.7, 1.5, 300), rng.uniform(1.0, 4.0, 300))
+    rates = (0.8, 0.9, 0.95, 0.98, 0.995)
+    search = policy.PooledSearch(method=method)  # type: ignore[arg-type]
+    batch = policy.pooled_levels_batch(d, rates, lead_time=1, review_period=1, search=search)
+    for f, got in zip(rates, batch, strict=True):
+        one = policy.pooled_order_up_to_levels(d, f, lead_time=1, review_period=1, search=search)
+        assert np.array_equal(got, one)
+        assert policy.expected_fill(d, got) >= f - 1e-9

@@ -46,7 +46,11 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from inventory.forecast.distributions import DemandDistribution
-from inventory.ordering.simulate import BacktestSetup, policy_levels, simulate_order_up_to
+from inventory.ordering.simulate import (
+    BacktestSetup,
+    policy_levels_batch,
+    simulate_order_up_to,
+)
 
 FloatArray = NDArray[np.float64]
 
@@ -136,9 +140,9 @@ def learn_fill_calibration(
     for e in ends:
         dist = fit(train[:, :e - horizon], e - horizon)
         test = np.nan_to_num(train[:, e - horizon:e])
-        for i, g in enumerate(grid):
-            levels = policy_levels(dist, g, allocation=setup.allocation, lead_time=lt,
-                                   review_period=rp)
+        batch = policy_levels_batch(dist, grid, allocation=setup.allocation, lead_time=lt,
+                                    review_period=rp)
+        for i, levels in enumerate(batch):
             sim = simulate_order_up_to(levels, test, lead_time=lt, review_period=rp)
             served[i] += float(sim.served.sum())
         demanded += float(test.sum())

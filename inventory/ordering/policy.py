@@ -20,7 +20,7 @@ Everything is vectorised over parts (numpy arrays); scalars broadcast.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from decimal import Decimal
 from typing import Literal
@@ -58,6 +58,7 @@ __all__ = [
     "smallest_level",
     "expected_fill",
     "pooled_order_up_to_levels",
+    "pooled_levels_batch",
     "LevelSearch",
     "PooledSearch",
     "eoq",
@@ -285,7 +286,6 @@ def pooled_order_up_to_levels(
     (:func:`cycle_fill_rate`). ``search`` (:class:`PooledSearch`) holds ``method``,
     ``top_fill`` and ``tol``.
     """
-    method, top_fill, tol = search.method, search.top_fill, search.tol
     n = len(dist)
     lt = np.broadcast_to(_f(lead_time), (n,)).astype(float)
     rp = np.broadcast_to(_f(review_period), (n,)).astype(float)
@@ -297,6 +297,38 @@ def pooled_order_up_to_levels(
     targets = np.broadcast_to(_f(fill_target), (labels.size,)).astype(float)
     if np.any((targets < 0) | (targets >= 1)):
         raise ValueError("fill targets must be in [0, 1)")
+    return _pooled_many(dist, [targets], gi, cost, (lt, rp), search)[0]
+
+
+def pooled_levels_batch(
+    dist: DemandDistribution,
+    fill_rates: Sequence[float],
+    *,
+    lead_time: ArrayLike = 1.0,
+    review_period: ArrayLike = 1.0,
+    search: PooledSearch = PooledSearch(),
+) -> list[NDArray[np.int64]]:
+    """:func:`pooled_order_up_to_levels` for several pooled targets over the same parts
+    (one group, unit costs 1), the expected fills per level computed once: the levels
+    for each rate in ``fill_rates``, in order (the fill calibration's grid)."""
+    n = len(dist)
+    lt = np.broadcast_to(_f(lead_time), (n,)).astype(float)
+    rp = np.broadcast_to(_f(review_period), (n,)).astype(float)
+    sets = [np.array([float(f)]) for f in fill_rates]
+    if any(np.any((t < 0) | (t >= 1)) for t in sets):
+        raise ValueError("fill targets must be in [0, 1)")
+    return _pooled_many(dist, sets, np.zeros(n, dtype=np.int64), np.ones(n), (lt, rp), search)
+
+
+def _pooled_many(dist: DemandDistribution, target_sets: Sequence[FloatArray],
+                 gi: NDArray[np.intp], cost: FloatArray, cover: tuple[FloatArray, FloatArray],
+                 search: PooledSearch) -> list[NDArray[np.int64]]:
+    """The levels for each set of group targets (one per group label ``gi``), sharing the
+    table of expected fills of every whole level up to the ``top_fill`` one."""
+    lt, rp = cover
+    method, top_fill, tol = search.method, search.top_fill, search.tol
+    n = len(dist)
+    n_groups = int(gi.max()) + 1 if n else 0
     top = order_up_to_levels(dist, top_fill, lead_time=lt, review_period=rp)
     lo = np.zeros(n, dtype=np.int64)
     starts, filled, levels = _fill_segments(dist, lo, top, lt, rp)
@@ -304,58 +336,61 @@ def pooled_order_up_to_levels(
     part = np.repeat(np.arange(n), top - lo + 1)
     safe = np.where(demand_r > 0, demand_r, 1.0)
     fill = np.where(demand_r[part] > 0, filled / safe[part], 1.0)
-    out = top.copy()
-    for g in range(labels.size):
-        rows = gi == g
-        total = demand_r[rows].sum()
-        if total <= 0:
-            out[rows] = 0
-            continue
+    results: list[NDArray[np.int64]] = []
+    for targets in target_sets:
+        out = top.copy()
+        for g in range(n_groups):
+            rows = gi == g
+            total = demand_r[rows].sum()
+            if total <= 0:
+                out[rows] = 0
+                continue
 
-        def uniform_at(t: float) -> NDArray[np.int64]:
-            # fill is non-decreasing in S: the level is lo + the number of entries below t
-            below = np.add.reduceat((fill < t - 1e-12).astype(np.int64), starts)
-            return np.minimum(lo + below, top)
+            def uniform_at(t: float) -> NDArray[np.int64]:
+                # fill is non-decreasing in S: the level is lo + the number of entries below t
+                below = np.add.reduceat((fill < t - 1e-12).astype(np.int64), starts)
+                return np.minimum(lo + below, top)
 
-        def marginal_at(lam: float) -> NDArray[np.int64]:
-            value = filled - lam * cost[part] * levels
-            best = np.maximum.reduceat(value, starts)
-            hit = np.flatnonzero(value >= best[part] - 1e-12)
-            first = np.full(n, -1, dtype=np.int64)
-            first[part[hit][::-1]] = hit[::-1]  # first entry reaching the segment maximum
-            return levels[first]
+            def marginal_at(lam: float) -> NDArray[np.int64]:
+                value = filled - lam * cost[part] * levels
+                best = np.maximum.reduceat(value, starts)
+                hit = np.flatnonzero(value >= best[part] - 1e-12)
+                first = np.full(n, -1, dtype=np.int64)
+                first[part[hit][::-1]] = hit[::-1]  # first entry reaching the segment maximum
+                return levels[first]
 
-        def pooled(s_levels: NDArray[np.int64], rows: NDArray[np.bool_] = rows,
-                   total: float = total) -> float:
-            idx = starts[rows] + (s_levels[rows] - lo[rows])
-            return float(filled[idx].sum() / total)
+            def pooled(s_levels: NDArray[np.int64], rows: NDArray[np.bool_] = rows,
+                       total: float = total) -> float:
+                idx = starts[rows] + (s_levels[rows] - lo[rows])
+                return float(filled[idx].sum() / total)
 
-        if method == "uniform":
-            lo_t, hi_t = 0.0, top_fill  # invariant: hi_t meets the target
-            if pooled(uniform_at(0.0)) >= targets[g]:
-                hi_t = 0.0
-            while hi_t - lo_t > tol:
-                mid = 0.5 * (lo_t + hi_t)
-                if pooled(uniform_at(mid)) >= targets[g]:
-                    hi_t = mid
-                else:
-                    lo_t = mid
-            out[rows] = uniform_at(hi_t)[rows]
-        elif method == "marginal":
-            lo_l, hi_l = 0.0, 1.0  # invariant: lo_l meets the target, hi_l does not
-            if pooled(marginal_at(0.0)) < targets[g]:
-                continue  # even the top levels fall short: keep them
-            while pooled(marginal_at(hi_l)) >= targets[g] and hi_l < 1e12:
-                hi_l *= 4.0
-            for _ in range(200):
-                if hi_l - lo_l <= tol * max(lo_l, 1e-12):
-                    break
-                mid = 0.5 * (lo_l + hi_l)
-                if pooled(marginal_at(mid)) >= targets[g]:
-                    lo_l = mid
-                else:
-                    hi_l = mid
-            out[rows] = marginal_at(lo_l)[rows]
-        else:
-            raise ValueError("method must be 'uniform' or 'marginal'")
-    return out.astype(np.int64)
+            if method == "uniform":
+                lo_t, hi_t = 0.0, top_fill  # invariant: hi_t meets the target
+                if pooled(uniform_at(0.0)) >= targets[g]:
+                    hi_t = 0.0
+                while hi_t - lo_t > tol:
+                    mid = 0.5 * (lo_t + hi_t)
+                    if pooled(uniform_at(mid)) >= targets[g]:
+                        hi_t = mid
+                    else:
+                        lo_t = mid
+                out[rows] = uniform_at(hi_t)[rows]
+            elif method == "marginal":
+                lo_l, hi_l = 0.0, 1.0  # invariant: lo_l meets the target, hi_l does not
+                if pooled(marginal_at(0.0)) < targets[g]:
+                    continue  # even the top levels fall short: keep them
+                while pooled(marginal_at(hi_l)) >= targets[g] and hi_l < 1e12:
+                    hi_l *= 4.0
+                for _ in range(200):
+                    if hi_l - lo_l <= tol * max(lo_l, 1e-12):
+                        break
+                    mid = 0.5 * (lo_l + hi_l)
+                    if pooled(marginal_at(mid)) >= targets[g]:
+                        lo_l = mid
+                    else:
+                        hi_l = mid
+                out[rows] = marginal_at(lo_l)[rows]
+            else:
+                raise ValueError("method must be 'uniform' or 'marginal'")
+        results.append(out.astype(np.int64))
+    return results

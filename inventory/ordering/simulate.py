@@ -8,6 +8,7 @@ thing the same way.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Literal, cast
 
@@ -118,3 +119,17 @@ def policy_levels(dist: DemandDistribution, fill_rate: float, *, allocation: All
                                                 review_period=review_period,
                                                 search=policy.PooledSearch(method=allocation))
     raise ValueError("allocation must be 'part', 'uniform' or 'marginal'")
+
+
+def policy_levels_batch(dist: DemandDistribution, fill_rates: Sequence[float], *,
+                        allocation: Allocation, lead_time: int, review_period: int
+                        ) -> list[NDArray[np.int64]]:
+    """:func:`policy_levels` for several asked rates over the same parts, in order; the
+    pooled allocations share one table of expected fills
+    (:func:`policy.pooled_levels_batch`)."""
+    if allocation == "uniform" or allocation == "marginal":
+        return policy.pooled_levels_batch(dist, fill_rates, lead_time=lead_time,
+                                          review_period=review_period,
+                                          search=policy.PooledSearch(method=allocation))
+    return [policy_levels(dist, f, allocation=allocation, lead_time=lead_time,
+                          review_period=review_period) for f in fill_rates]
