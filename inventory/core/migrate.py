@@ -18,7 +18,7 @@ if TYPE_CHECKING:  # SQLAlchemy loads with the engine; the plain reader needs no
     from sqlalchemy.engine import Engine
 
 #: The newest revision in ``migrations/versions`` (tests/test_migrations.py checks it).
-HEAD_REVISION = "0006"
+HEAD_REVISION = "0007"
 VERSION_TABLE = "alembic_version"
 
 

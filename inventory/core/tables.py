@@ -208,6 +208,10 @@ class ServiceJob(SQLModel, table=True):
     ride_hours: int | None = None
     fork_ref: str | None = Field(default=None, max_length=32, index=True)
     batch_id: int | None = Field(default=None, foreign_key="import_batch.id")
+    # Set by inventory.stock.returns.void_job with its correction movements (migration
+    # 0007): a voided job stays on record but no job count includes it.
+    voided_at: datetime | None = None
+    void_reason: str | None = Field(default=None, max_length=200)
 
 
 class JobLine(SQLModel, table=True):

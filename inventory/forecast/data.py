@@ -2,7 +2,9 @@
 
 Grouping runs in SQL (issues per item and month or day, jobs and job lines per fork family,
 service level and month), so a large ledger is not pulled into memory row by row; the
-per-visit table for the installed base has one row per job.
+per-visit table for the installed base has one row per job. A voided job
+(``ServiceJob.voided_at``) is left out of the job counts, the job lines and the visits; its
+issues and their corrections still meet in the issue sums (each in the month it is booked).
 """
 
 from __future__ import annotations
@@ -13,7 +15,7 @@ from datetime import date, timedelta
 import numpy as np
 from numpy.typing import NDArray
 from sqlalchemy import extract, func
-from sqlmodel import Session, select
+from sqlmodel import Session, col, select
 
 from inventory.core.model import KitSpec
 from inventory.core.tables import (
@@ -166,6 +168,7 @@ def _job_lines(session: Session, codes: list[str], groups: list[tuple[str, str]]
         .join(ServiceJob, ServiceJob.id == JobLine.job_id)
         .join(ForkFamily, ForkFamily.id == ServiceJob.fork_family_id)
         .join(Part, Part.id == JobLine.part_id)
+        .where(col(ServiceJob.voided_at).is_(None))
         .group_by(ForkFamily.code, ServiceJob.service_level, Part.code, y, m)
     ).all()
     for fam, level, code, yy, mm, q in rows:
@@ -181,7 +184,7 @@ def _visits(session: Session, until: date) -> Visits:
         select(ServiceJob.fork_ref, ForkFamily.code, ServiceJob.day, ServiceJob.service_level,
                ServiceJob.ride_hours)
         .join(ForkFamily, ForkFamily.id == ServiceJob.fork_family_id)
-        .where(ServiceJob.day <= until)
+        .where(ServiceJob.day <= until, col(ServiceJob.voided_at).is_(None))
         .order_by(ServiceJob.day, ServiceJob.id)
     ).all()
     return Visits.from_records((r[0], r[1], _day(r[2]), r[3], r[4]) for r in rows)

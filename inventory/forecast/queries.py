@@ -8,7 +8,9 @@ Two views:
 - :func:`item_demand` per stock item as it left the shelf (a kit issued whole counts as one
   kit; a kit assembled from loose seals counts as its seals). This is what replenishes.
 - :func:`job_counts` jobs per month by fork family and service level, for pooled seasonal
-  indices and the installed base of forks that come back.
+  indices and the installed base of forks that come back. A voided job
+  (``ServiceJob.voided_at``) is no job: every job query here and in
+  :mod:`inventory.forecast.data` leaves it out.
 """
 
 from __future__ import annotations
@@ -19,7 +21,7 @@ from datetime import date
 import numpy as np
 from numpy.typing import NDArray
 from sqlalchemy import extract, func
-from sqlmodel import Session, select
+from sqlmodel import Session, col, select
 
 from inventory.core.model import KitSpec, PartKind, ServiceLevel
 from inventory.core.tables import ForkFamily, Kit, KitLine, Movement, Part, ServiceJob
@@ -106,10 +108,12 @@ def job_counts(session: Session, *, until: date, since: date | None = None) -> J
     rows = list(session.exec(
         select(ForkFamily.code, ServiceJob.service_level, y, m, func.count())
         .join(ForkFamily, ForkFamily.id == ServiceJob.fork_family_id)
+        .where(col(ServiceJob.voided_at).is_(None))
         .group_by(ForkFamily.code, ServiceJob.service_level, y, m)
     ))
     if since is None:
-        first = session.exec(select(func.min(ServiceJob.day))).one()
+        first = session.exec(select(func.min(ServiceJob.day))
+                             .where(col(ServiceJob.voided_at).is_(None))).one()
         since = first or until
     months = _month_span(since, until)
     groups = sorted({(f, s) for f, s, _, _, _ in rows})

@@ -112,6 +112,8 @@ def _jobs(session: Session) -> Export:
     header = [c.name for c in IMPORT_SCHEMAS["history"].columns if c.name != "kit"]
     rows = []
     for job in list_jobs(session, newest_first=False):
+        if job.voided:  # the export reads back as history: a voided job is no job
+            continue
         for code, qty in job.lines:
             rows.append([job.ref, job.day, job.fork, job.service, job.hours, job.fork_ref,
                          code, qty])

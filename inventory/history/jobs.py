@@ -209,17 +209,28 @@ class JobRow:
     hours: int | None
     fork_ref: str | None
     lines: tuple[tuple[str, int], ...]  # (part code, qty)
+    # when and why the job was voided (it stays listed, but no job count includes it)
+    voided_at: datetime | None = None
+    void_reason: str | None = None
+
+    @property
+    def voided(self) -> bool:
+        return self.voided_at is not None
 
     def to_dict(self) -> dict:
         return {"ref": self.ref, "date": self.day.isoformat(), "fork": self.fork,
                 "service": self.service, "hours": self.hours, "fork_ref": self.fork_ref,
-                "lines": [{"part": p, "qty": q} for p, q in self.lines]}
+                "lines": [{"part": p, "qty": q} for p, q in self.lines],
+                "voided": self.voided,
+                "voided_at": self.voided_at.isoformat() if self.voided_at else None,
+                "void_reason": self.void_reason}
 
 
 def list_jobs(session: Session, *, since: date | None = None, until: date | None = None,
               fork: str | None = None, limit: int | None = None,
               newest_first: bool = True) -> list[JobRow]:
-    """Jobs with their lines, filtered by date range and fork family."""
+    """Jobs with their lines, filtered by date range and fork family; a voided job is
+    listed too, with when and why it was voided."""
     q = (select(ServiceJob, ForkFamily.code)
          .join(ForkFamily, ForkFamily.id == ServiceJob.fork_family_id))
     if since:
@@ -243,7 +254,7 @@ def list_jobs(session: Session, *, since: date | None = None, until: date | None
                 .where(JobLine.job_id.in_(ids[i:i + 500])).order_by(Part.code)):
             lines.setdefault(job_id, []).append((code, qty))
     return [JobRow(j.ref, j.day, fam, j.service_level, j.ride_hours, j.fork_ref,
-                   tuple(lines.get(j.id, ()))) for j, fam in jobs]
+                   tuple(lines.get(j.id, ())), j.voided_at, j.void_reason) for j, fam in jobs]
 
 
 @dataclass(frozen=True, slots=True)

@@ -24,7 +24,17 @@ from collections.abc import Mapping, Sequence
 from datetime import UTC, date, datetime
 from decimal import Decimal
 
-from sqlalchemy import BigInteger, and_, case, cast, func, literal_column, select, type_coerce
+from sqlalchemy import (
+    BigInteger,
+    and_,
+    case,
+    cast,
+    func,
+    literal_column,
+    or_,
+    select,
+    type_coerce,
+)
 from sqlalchemy.ext.compiler import compiles
 from sqlalchemy.sql.expression import ColumnElement
 from sqlalchemy.types import NullType
@@ -190,13 +200,19 @@ def _history_rows(session: Session, history: Sequence[Month]) -> list:
 
 def _fork_usage(session: Session, month: Month) -> list[ForkUsage]:
     """Jobs and units per fork family and service level from the job lines of the month's
-    jobs; value from the issues booked against those jobs."""
+    jobs; value from the issues booked against those jobs.
+
+    A job voided before the month ends is no job of the month. One voided after it counts
+    only while it keeps lines: a void in closed books leaves them (and the close's snapshot
+    holds the count), a void in open books takes them off
+    (:func:`inventory.stock.returns.void_job`)."""
     m = Movement.__table__
     sj, jl, ff = ServiceJob.__table__, JobLine.__table__, ForkFamily.__table__
     units = select(ff.c.code, sj.c.service_level, func.count(func.distinct(sj.c.id)),
                    func.sum(jl.c.qty)).select_from(jl).join(sj, sj.c.id == jl.c.job_id) \
         .join(ff, ff.c.id == sj.c.fork_family_id) \
-        .where(sj.c.day >= month.first_day, sj.c.day <= month.last_day) \
+        .where(sj.c.day >= month.first_day, sj.c.day <= month.last_day,
+               or_(sj.c.voided_at.is_(None), sj.c.voided_at >= month.end)) \
         .group_by(ff.c.code, sj.c.service_level)
     value = select(ff.c.code, sj.c.service_level,
                    func.sum(-m.c.qty * cost4(m.c.unit_cost))).select_from(m) \

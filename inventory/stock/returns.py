@@ -1,5 +1,8 @@
 """Corrections without deletion: reversals, returns from a job, and voided jobs.
 
+A voided job keeps its row, marked with when and why (``ServiceJob.voided_at``,
+``void_reason``), so it stays visible while every job count leaves it out.
+
 Each is a new movement that points at the movement it undoes (``Movement.reverses_id``) and
 keeps that movement's kind with the opposite sign, so every sum by kind (usage per month,
 the month-end flows, the forecasts' demand) is a net figure with no further change. A
@@ -165,4 +168,16 @@ def void_job(session: Session, ref: str, *, reason: str, ts: datetime | None = N
     if not out:
         raise InventoryError(f"job {ref} has nothing left to reverse: it was voided or "
                              "returned in full already", kind="conflict")
+    _mark_voided(session, ref, ts, reason.strip())
     return Returned(out, _trim_lines(session, ref, back))
+
+
+def _mark_voided(session: Session, ref: str, ts: datetime, reason: str) -> None:
+    """Record on the job row when and why it was voided (the first void stands): the row
+    stays, but no job count includes it (forecast, installed base, month end)."""
+    job = session.execute(select(ServiceJob).where(ServiceJob.ref == ref)).scalar()
+    if job is None or job.voided_at is not None:  # issues under a reference that is no job
+        return
+    job.voided_at = ts
+    job.void_reason = reason[:200]
+    session.add(job)
