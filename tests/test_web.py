@@ -197,6 +197,21 @@ def test_api_stock_equals_the_cli_json(web, monkeypatch, capsys):
     assert api == json.loads(out)
 
 
+def test_api_jobs_limit_is_read_as_a_whole_number(web):
+    ana = web("ana")
+    for bad in ("abc", "-1", "1e3"):  # used to end in a server error
+        r = ana.get(f"/api/jobs?limit={bad}")
+        assert r.status_code == 400 and r.json()["field"] == "limit", bad
+    sam = web("sam")
+    for _ in range(2):
+        page = sam.get("/bench?id=24.99&cs=3.53")
+        assert sam.post("/bench/use", data={"csrf": csrf(page), "part": "OR-214", "qty": "1",
+                                            "fork": "XC-32", "service": "lower_leg"}
+                        ).status_code == 303
+    assert len(ana.get("/api/jobs?limit=1").json()) == 1
+    assert len(ana.get("/api/jobs").json()) == 2
+
+
 def test_openapi_is_served(web):
     doc = web().get("/api/openapi.json").json()
     assert doc["openapi"].startswith("3.") and "/api/match" in doc["paths"]

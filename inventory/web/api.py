@@ -7,6 +7,7 @@ from __future__ import annotations
 from starlette.requests import Request
 from starlette.responses import JSONResponse, Response
 
+from inventory.core import parse
 from inventory.core.errors import InventoryError
 from inventory.web import auth
 from inventory.web.forms import FormError, field_of, message_of
@@ -70,11 +71,15 @@ async def api_jobs(request: Request) -> Response:
     who = _api_who(request, "jobs")
     web: Web = request.app.state.web
 
-    def go(s):
-        from inventory.history.jobs import list_jobs
+    try:
+        limit = parse.quantity(request.query_params.get("limit") or "50")
+    except ValueError as exc:
+        return json_response({"error": f"limit: {exc}", "field": "limit"}, 400)
 
-        return [j.to_dict() for j in list_jobs(s, limit=int(request.query_params.get("limit")
-                                                               or 50))]
+    def go(s):
+        from inventory.history.service import list_jobs
+
+        return [j.to_dict() for j in list_jobs(s, limit=limit)]
     return json_response(await web.read(go, who))
 
 

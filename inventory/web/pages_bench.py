@@ -131,8 +131,7 @@ async def bench_use(request: Request) -> Response:
         back = "/bench"
 
     def go(s):
-        from inventory.history.jobs import JobItem, JobSpec, record_job
-        from inventory.history.service import new_job_ref
+        from inventory.history.service import JobEntry, add_job
 
         qty = int_field(form, "qty", minimum=1)
         fork = text_field(form, "fork")
@@ -142,9 +141,9 @@ async def bench_use(request: Request) -> Response:
         if level not in SERVICE_LEVELS:
             raise FormError("service", f"pick a service level ({', '.join(SERVICE_LEVELS)})")
         today = date.today()
-        ref = text_field(form, "job") or new_job_ref(s, today)
-        record_job(s, JobSpec(ref, today, fork, level, (JobItem(part, qty),)))
-        return ref
+        row, _ = add_job(s, JobEntry(fork, today, level, ((part, qty),),
+                                     ref=text_field(form, "job")))
+        return row.ref
     try:
         ref = await web.write(go, who)
     except FormError as exc:

@@ -31,7 +31,7 @@ async def jobs_page(request: Request, errors: dict | None = None, values: dict |
     web: Web = request.app.state.web
 
     def go(s):
-        from inventory.history.jobs import list_jobs
+        from inventory.history.service import list_jobs
 
         return list_jobs(s, limit=50), bench_choices(s)["forks"]
     jobs, forks = await web.read(go, who)
@@ -40,19 +40,18 @@ async def jobs_page(request: Request, errors: dict | None = None, values: dict |
                 done=request.query_params.get("done"))
 
 
-def _job_items(form) -> list:
-    from inventory.history.jobs import JobItem
-
+def _job_items(form) -> tuple[tuple[str, int], ...]:
+    """(part or kit code, quantity) of a new job: the kits typed, then the part lines."""
     items = []
     for kit in str(form.get("kits") or "").replace(",", " ").split():
-        items.append(JobItem(kit.strip(), 1))
+        items.append((kit.strip(), 1))
     for i in range(1, 6):
         code = text_field(form, f"part{i}")
         if code:
-            items.append(JobItem(code, int_field(form, f"qty{i}", minimum=1)))
+            items.append((code, int_field(form, f"qty{i}", minimum=1)))
     if not items:
         raise FormError("part1", "a job needs at least one kit or part")
-    return items
+    return tuple(items)
 
 
 async def jobs_add(request: Request) -> Response:
@@ -62,8 +61,7 @@ async def jobs_add(request: Request) -> Response:
     auth.check_csrf(request, form)
 
     def go(s):
-        from inventory.history.jobs import JobSpec, record_job
-        from inventory.history.service import new_job_ref
+        from inventory.history.service import JobEntry, add_job
 
         fork = text_field(form, "fork")
         if not fork:
@@ -76,9 +74,8 @@ async def jobs_add(request: Request) -> Response:
             raise FormError("date", f"{day.isoformat()} is in the future")
         items = _job_items(form)
         hours = int_field(form, "hours", minimum=0) if text_field(form, "hours") else None
-        ref = new_job_ref(s, day)
-        record_job(s, JobSpec(ref, day, fork, level, tuple(items), hours=hours))
-        return ref
+        row, _ = add_job(s, JobEntry(fork, day, level, items, hours=hours))
+        return row.ref
     values = {k: v for k, v in form.items() if k != "csrf"}
     try:
         ref = await web.write(go, who)
@@ -165,7 +162,7 @@ async def job_page(request: Request, errors: dict | None = None,
     ref = request.path_params["ref"]
 
     def go(s):
-        from inventory.history.jobs import job_detail
+        from inventory.history.service import job_detail
 
         try:
             return job_detail(s, ref)
