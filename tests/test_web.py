@@ -212,6 +212,20 @@ def test_api_jobs_limit_is_read_as_a_whole_number(web):
     assert len(ana.get("/api/jobs").json()) == 2
 
 
+def test_month_end_reads_the_month_like_the_command_line(web):
+    ana = web("ana")
+    # month 13 does not exist (ISO 8601 calendar months 01-12): refused at the field,
+    # not a server error
+    r = ana.get("/month-end?month=2026-13")
+    assert r.status_code == 400 and "2026-13" in error_at(r.text, "month")
+    assert ana.get("/month-end/2026-13/report").status_code == 404
+    assert ana.get("/month-end/2026-00.xlsx").status_code == 404
+    # the other spellings the command line's month parser takes name the same month
+    for text in ("2026-03", "03/2026", "Mar 2026"):
+        r = ana.get(f"/month-end?month={text}")
+        assert r.status_code == 200 and "Month end: 2026-03" in r.text, text
+
+
 def test_openapi_is_served(web):
     doc = web().get("/api/openapi.json").json()
     assert doc["openapi"].startswith("3.") and "/api/match" in doc["paths"]

@@ -10,6 +10,7 @@ from starlette.exceptions import HTTPException
 from starlette.requests import Request
 from starlette.responses import HTMLResponse, RedirectResponse, Response
 
+from inventory.core import parse
 from inventory.core.errors import InventoryError
 from inventory.web import auth
 from inventory.web.forms import FormError, message_of, text_field
@@ -18,16 +19,17 @@ from inventory.web.state import Web
 
 
 def month_of(s, text: str | None):
-    from inventory.monthend.aggregates import Month
+    """The month asked for, read by the one month parser (``2026-11``, ``11/2026``,
+    ``Nov 2026``, as on the command line); none: the latest complete month."""
+    from inventory.monthend.records import Month
     from inventory.monthend.service import latest_complete_month
 
     if not text:
         return latest_complete_month(s, date.today())
     try:
-        y, m = (int(x) for x in text.strip().split("-"))
-        return Month(y, m)
-    except Exception:
-        raise FormError("month", f"expected a month like 2026-11, got {text!r}") from None
+        return Month(*parse.month(text, what="month"))
+    except ValueError as exc:
+        raise FormError("month", str(exc)) from None
 
 
 async def month_page(request: Request, errors: dict | None = None,
