@@ -226,7 +226,8 @@ def test_calibration_repairs_a_too_thin_model() -> None:
     cal = learn_fill_calibration(train, fit, bt.BacktestSetup(horizon=6, lead_time=1,
                                                               review_period=1,
                                                               allocation="uniform",
-                                                              calibration_weight=1.0))
+                                                              calibration_weight=1.0,
+                                                              calibration_origins=1))
     assert cal.origins == (18,)
     dist = fit(train, 24)
 
@@ -241,7 +242,8 @@ def test_calibration_repairs_a_too_thin_model() -> None:
     assert achieved(cal.ask(0.95)) == pytest.approx(0.95, abs=0.01)
     # the default shrinkage asks for less than the full inversion and more than the promise
     half = learn_fill_calibration(train, fit, bt.BacktestSetup(allocation="uniform"))
-    assert half.weight == 0.5 and 0.95 < half.ask(0.95) < cal.ask(0.95)
+    assert half.weight == 0.5 and half.origins == (18, 17, 16)  # three inner origins
+    assert 0.95 < half.ask(0.95) < cal.ask(0.95)
     assert plain < achieved(half.ask(0.95)) <= achieved(cal.ask(0.95))
 
 

@@ -41,7 +41,7 @@ class BacktestSetup:
     allocation: Allocation = cast(Allocation, DEFAULT_ALLOCATION.value)
     options: FitOptions | None = None
     calibrate: bool = True
-    calibration_origins: int = 1
+    calibration_origins: int = 3  # chosen by cross-validation: calibration.py
     calibration_weight: float = 0.5  # chosen by cross-validation: calibration.py
 
     @property
