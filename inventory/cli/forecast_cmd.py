@@ -16,7 +16,6 @@ from typing import TYPE_CHECKING, Any
 
 import typer
 from rich.console import Console
-from rich.progress import BarColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
 from inventory.cli import options
@@ -37,6 +36,8 @@ FORECAST_STEPS = 6
 @contextmanager
 def _progress(total: int | None, label: str, *, quiet: bool) -> Iterator[Any]:
     """A transient progress bar on stderr; silent for ``--json`` or when not a terminal."""
+    from rich.progress import BarColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
+
     bar = Progress(SpinnerColumn(), TextColumn("{task.description}"), BarColumn(),
                    TimeElapsedColumn(), console=err_console, transient=True,
                    disable=quiet or not err_console.is_terminal)

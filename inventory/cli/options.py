@@ -11,7 +11,6 @@ from datetime import UTC, date, datetime, time
 from decimal import Decimal
 from typing import Any, TypeVar
 
-from inventory.core import parse
 from inventory.core.errors import InventoryError
 
 T = TypeVar("T")
@@ -27,6 +26,8 @@ def read(option: str, fn: Callable[..., T], text: Any, **kw: Any) -> T:
 
 def cost(text: str | None, option: str = "--cost", *, confirmed: bool = False) -> Decimal | None:
     """A unit cost; above the ceiling only with ``--cost-ok``."""
+    from inventory.core import parse
+
     if text is None:
         return None
     return read(option, parse.unit_cost, text, confirmed=confirmed)
@@ -34,6 +35,8 @@ def cost(text: str | None, option: str = "--cost", *, confirmed: bool = False) -
 
 def amount(text: str | None, option: str) -> Decimal | None:
     """An amount of money (a budget, an order cost): no ceiling but what the database holds."""
+    from inventory.core import parse
+
     if text is None:
         return None
     return read(option, parse.money, text)
@@ -41,6 +44,8 @@ def amount(text: str | None, option: str) -> Decimal | None:
 
 def day(text: str | None, option: str = "--date") -> date | None:
     """Any calendar date (a plan date, a season start): no booking bounds."""
+    from inventory.core import parse
+
     if not text:
         return None
     return read(option, parse.day, text)
@@ -49,6 +54,8 @@ def day(text: str | None, option: str = "--date") -> date | None:
 def booking_day(text: str | None, option: str = "--date", *,
                 today: date | None = None) -> date | None:
     """A booking date: from 2000-01-01 to today + a day."""
+    from inventory.core import parse
+
     if not text:
         return None
     return read(option, parse.booking_day, text, today=today)
@@ -61,6 +68,8 @@ def booking_ts(text: str | None, option: str = "--date") -> datetime | None:
 
 
 def fill_rate(text: str | float | None, option: str = "--fill-rate") -> float | None:
+    from inventory.core import parse
+
     if text is None:
         return None
     return read(option, parse.fill_rate, text)
@@ -68,6 +77,8 @@ def fill_rate(text: str | float | None, option: str = "--fill-rate") -> float | 
 
 def percent(text: str | float | None, option: str, *, low: float = 0.0,
             high: float = 1.0) -> float | None:
+    from inventory.core import parse
+
     if text is None:
         return None
     return read(option, parse.percent, text, low=low, high=high)
@@ -75,6 +86,8 @@ def percent(text: str | float | None, option: str, *, low: float = 0.0,
 
 def cure(text: str | None, option: str = "--cured", *,
          received: date | None = None) -> str | None:
+    from inventory.core import parse
+
     if text is None:
         return None
     return read(option, parse.cure_quarter, text, received=received)
@@ -82,6 +95,8 @@ def cure(text: str | None, option: str = "--cured", *,
 
 def code(text: str | None, option: str, what: str) -> str | None:
     """A code or short text (``what``: part, lot, job, reason, location, order)."""
+    from inventory.core import parse
+
     if text is None:
         return None
     return read(option, parse.code, text, what=what)
@@ -90,9 +105,13 @@ def code(text: str | None, option: str, what: str) -> str | None:
 def number(value: float | str, option: str, *, low: float | None = None,
            high: float | None = None) -> float:
     """A finite number within ``[low, high]`` (``nan`` and ``inf`` refused)."""
+    from inventory.core import parse
+
     return read(option, parse.number, value, low=low, high=high)
 
 
 def quantity(value: int | str, option: str, *, signed: bool = False,
              zero: bool = False) -> int:
+    from inventory.core import parse
+
     return read(option, parse.quantity, value, signed=signed, zero=zero)
