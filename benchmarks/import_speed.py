@@ -79,8 +79,9 @@ def setup_db(url: str) -> None:
     with transaction(engine) as s:
         load_catalog(s, DEMO)
         for p in _csv("parts.csv"):
-            ledger.receive(s, ledger.Receipt(p["code"], 10_000_000, "1.00", lot=f"BENCH-{p['code']}",
-                           cured="2019Q4", received=date(2019, 12, 31), user="bench"))
+            ledger.receive(s, ledger.Receipt(
+                p["code"], 10_000_000, "1.00", lot=f"BENCH-{p['code']}", cured="2019Q4",
+                received=date(2019, 12, 31), user="bench"))
 
 
 CPU: dict[str, float] = {}

@@ -84,8 +84,8 @@ def writer(url, codes, seconds, seed, barrier, results) -> None:
                 if k < 0.1:
                     got = ledger.count(s, ledger.Count(code, rng.randint(20, 60)))
                 elif k < 0.55:
-                    got = [ledger.receive(s, ledger.Receipt(code, rng.randint(1, 3), lot="STANDING",
-                                          user="bench"))]
+                    got = [ledger.receive(s, ledger.Receipt(
+                        code, rng.randint(1, 3), lot="STANDING", user="bench"))]
                 else:
                     got = ledger.issue(s, ledger.Issue(code, rng.randint(1, 3), user="bench"))
             moves += len(got)

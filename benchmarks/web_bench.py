@@ -74,8 +74,9 @@ def build(url: str, n_parts: int, n_stocked: int, users: int) -> dict[str, int]:
             s.execute(insert(Part), rows[i:i + 5000])
     with transaction(eng) as s:
         for code, qty in stocked.items():
-            ledger.receive(s, ledger.Receipt(code, qty, Decimal("0.30"), cured="2026Q2", user="bench",
-                           ts=datetime(2026, 11, 2, 12, tzinfo=UTC)))
+            ledger.receive(s, ledger.Receipt(
+                code, qty, Decimal("0.30"), cured="2026Q2", user="bench",
+                ts=datetime(2026, 11, 2, 12, tzinfo=UTC)))
         for u in range(users):
             add_person(s, f"user{u:02d}", "technician", PASSWORD)
     return stocked

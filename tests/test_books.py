@@ -467,10 +467,10 @@ def test_bulk_job_writer_skips_expired_lots_like_the_ledger(store):
     from inventory.history.jobs import JobSpec
 
     with transaction(store) as s:
-        ledger.receive(s, ledger.Receipt("OR-214", 2, "0.25", lot="OLD", cured="2015Q1",
-                       ts=noon(date(2024, 12, 1))))
-        ledger.receive(s, ledger.Receipt("OR-214", 2, "0.25", lot="NEW", cured="2024Q2",
-                       ts=noon(date(2024, 12, 1))))
+        ledger.receive(s, ledger.Receipt(
+            "OR-214", 2, "0.25", lot="OLD", cured="2015Q1", ts=noon(date(2024, 12, 1))))
+        ledger.receive(s, ledger.Receipt(
+            "OR-214", 2, "0.25", lot="NEW", cured="2024Q2", ts=noon(date(2024, 12, 1))))
     spec = JobSpec("B-1", date(2025, 1, 10), "XC-32", "damper", (JobItem("OR-214", 2),))
     with transaction(store) as s:
         record_jobs(s, [spec])

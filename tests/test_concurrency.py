@@ -95,8 +95,9 @@ def _receive_worker(url, i, barrier, results):
         for _ in range(3):
             try:
                 with transaction(engine) as s:
-                    mv = ledger.receive(s, ledger.Receipt("OR-214", 1, "0.25", received=date(2026, 12, 4),
-                                        ts=datetime(2026, 12, 4, 12, tzinfo=UTC)))
+                    mv = ledger.receive(s, ledger.Receipt(
+                        "OR-214", 1, "0.25", received=date(2026, 12, 4),
+                        ts=datetime(2026, 12, 4, 12, tzinfo=UTC)))
                     code = s.get(Lot, mv.lot_id).code
                 got.append(("ok", code))
             except Exception as exc:  # noqa: BLE001 - reported to the parent
@@ -342,8 +343,8 @@ def _count_issue_worker(url, seed, barrier, results):
                     elif op == "issue":
                         moves = ledger.issue(s, ledger.Issue("OR-214", rng.randint(1, 3)))
                     else:
-                        moves = [ledger.receive(s, ledger.Receipt("OR-214", rng.randint(1, 4), "0.25",
-                                                lot=rng.choice((None, "A", "B"))))]
+                        moves = [ledger.receive(s, ledger.Receipt(
+                            "OR-214", rng.randint(1, 4), "0.25", lot=rng.choice((None, "A", "B"))))]
                 net += sum(m.qty for m in moves)
                 seen["ok"] += 1
             except Exception as exc:  # noqa: BLE001
@@ -400,8 +401,9 @@ def _stress_worker(url, seed, ref, seconds, barrier, results):
                 with transaction(engine) as s:
                     if op == "receive":
                         cost = "0.25" if part == "OR-214" else "6.50"
-                        moves = [ledger.receive(s, ledger.Receipt(part, rng.randint(1, 5), cost,
-                                                lot=rng.choice((None, None, f"M{seed}"))))]
+                        moves = [ledger.receive(s, ledger.Receipt(
+                            part, rng.randint(1, 5), cost,
+                            lot=rng.choice((None, None, f"M{seed}"))))]
                     elif op == "issue":
                         moves = ledger.issue(s, ledger.Issue(part, rng.randint(1, 4), reference="J-STRESS"))
                     elif op == "count":

@@ -28,8 +28,8 @@ from tests.test_sheets_write import soffice_sheets
 def activity(engine) -> None:
     at = datetime(2025, 5, 2, 9, 30, tzinfo=UTC)
     with transaction(engine) as s:
-        ledger.receive(s, ledger.Receipt("OR-214", 30, "0.25", lot="A", cured="2025Q1", received=date(2025, 5, 1),
-                       ts=at))
+        ledger.receive(s, ledger.Receipt(
+            "OR-214", 30, "0.25", lot="A", cured="2025Q1", received=date(2025, 5, 1), ts=at))
         ledger.receive(s, ledger.Receipt("WP-32", 10, "6.50", lot="W", received=date(2025, 5, 2), ts=at))
         ledger.receive(s, ledger.Receipt("OIL-5", 1000, "0.02", lot="O", received=date(2025, 5, 2), ts=at))
         record_job(s, JobSpec("J-1", date(2025, 6, 1), "XC-32", "lower_leg",
@@ -37,8 +37,9 @@ def activity(engine) -> None:
                               fork_ref="F-9"))
         record_job(s, JobSpec("=J-2", date(2025, 6, 2), "XC-32", "damper",
                               (JobItem("OR-214", 3),)))
-        ledger.adjust(s, ledger.Adjustment("OR-214", -1, reason="=cmd|' /C calc'!A0 (dropped)",
-                      ts=datetime(2025, 6, 3, 17, 5, 30, tzinfo=UTC)))
+        ledger.adjust(s, ledger.Adjustment(
+            "OR-214", -1, reason="=cmd|' /C calc'!A0 (dropped)",
+            ts=datetime(2025, 6, 3, 17, 5, 30, tzinfo=UTC)))
 
 
 def _csv_rows(path):

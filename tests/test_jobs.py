@@ -137,8 +137,8 @@ def test_bulk_path_takes_what_the_ledger_path_takes(store, lots, jobs):
     with Session(store) as s:
         for n, (part, qty, cured) in enumerate(lots):
             day = date(2024, 12, 30) + timedelta(days=2 * n)
-            ledger.receive(s, ledger.Receipt(part, qty, "1.00", lot=f"L{n}", cured=cured, received=day,
-                           ts=noon(day)))
+            ledger.receive(s, ledger.Receipt(
+                part, qty, "1.00", lot=f"L{n}", cured=cured, received=day, ts=noon(day)))
         s.flush()
         specs = [JobSpec(f"J{n}", date(2025, 1, 1 + n), "XC-32", "damper",
                          tuple(JobItem(c, q) for c, q in items)) for n, items in enumerate(jobs)]

@@ -116,8 +116,9 @@ def test_random_ledger_sequences_keep_on_hand_exact(store, ops):
         try:
             with transaction(store) as s:
                 if o[0] == "receive":
-                    ledger.receive(s, ledger.Receipt(o[1], o[2], "1.00", location=o[3], cured=o[4], ts=ts,
-                                   received=date(2026, 1, 1) + timedelta(days=i)))
+                    ledger.receive(s, ledger.Receipt(
+                        o[1], o[2], "1.00", location=o[3], cured=o[4], ts=ts,
+                        received=date(2026, 1, 1) + timedelta(days=i)))
                 elif o[0] == "issue":
                     moves = ledger.issue(s, ledger.Issue(o[1], o[2], location=o[3], ts=ts))
                     _assert_fifo(s, before, moves, o[1], o[3])

@@ -131,8 +131,9 @@ def test_plan_reads_open_orders_and_usable_stock(store):
     from inventory.ordering.service import PlanSpec, make_plan
 
     with transaction(store) as s:
-        ledger.receive(s, ledger.Receipt("WP-32", 3, "6.50", lot="OLD", cured="2019Q1", location="BENCH",
-                       ts=datetime(2025, 1, 5, 12, tzinfo=UTC)))
+        ledger.receive(s, ledger.Receipt(
+            "WP-32", 3, "6.50", lot="OLD", cured="2019Q1", location="BENCH",
+            ts=datetime(2025, 1, 5, 12, tzinfo=UTC)))
         for i in range(18):
             y, m = 2025 + (6 + i) // 12, (6 + i) % 12 + 1
             ts = datetime(y, m, 3, 12, tzinfo=UTC)

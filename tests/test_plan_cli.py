@@ -32,8 +32,9 @@ def book_history(url: str) -> None:
     an old AU lot of WP-32 cured 2019Q1 sits in the bench drawer past its storage period."""
     engine = make_engine(url)
     with transaction(engine) as s:
-        ledger.receive(s, ledger.Receipt("WP-32", 4, "6.50", lot="OLD-AU", cured="2019Q1", location="BENCH",
-                       ts=_ts(2024, 11, 20)))
+        ledger.receive(s, ledger.Receipt(
+            "WP-32", 4, "6.50", lot="OLD-AU", cured="2019Q1", location="BENCH",
+            ts=_ts(2024, 11, 20)))
         for i in range(24):
             y, m = 2024 + (11 + i) // 12, (11 + i) % 12 + 1
             spring = 2 if m in (3, 4, 5) else 0

@@ -26,9 +26,9 @@ WAIT = 1.0  # seconds a writer waits for a lock in these tests
 
 def _book(engine) -> None:
     with transaction(engine) as s:
-        ledger.receive(s, ledger.Receipt("OR-214", 10, "0.25", lot="A", cured="2025Q1",
-                       received=date(2025, 5, 1),
-                       ts=datetime(2025, 5, 1, 12, tzinfo=UTC)))
+        ledger.receive(s, ledger.Receipt(
+            "OR-214", 10, "0.25", lot="A", cured="2025Q1", received=date(2025, 5, 1),
+            ts=datetime(2025, 5, 1, 12, tzinfo=UTC)))
 
 
 def _issue(url) -> float:

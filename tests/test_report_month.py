@@ -120,8 +120,8 @@ def _apply(engine, ops) -> None:
         try:
             with transaction(engine) as s:
                 if o[0] == "receive":
-                    ledger.receive(s, ledger.Receipt(o[1], o[2], o[5], location=o[3], cured=o[4], ts=when,
-                                   lot=f"{o[1]}-{i}"))
+                    ledger.receive(s, ledger.Receipt(
+                        o[1], o[2], o[5], location=o[3], cured=o[4], ts=when, lot=f"{o[1]}-{i}"))
                 elif o[0] == "issue":
                     ledger.issue(s, ledger.Issue(o[1], o[2], ts=when, reference=f"J-{i}" if o[3] else None))
                 elif o[0] == "adjust":
@@ -218,8 +218,8 @@ def test_report_values_match_pure_fifo_and_moving_average(store, ops):
         when = t0 + timedelta(hours=i)
         with transaction(store) as s:
             if o[0] == "receive":
-                mv = ledger.receive(s, ledger.Receipt("OR-214", o[1], o[3], cured=o[2], ts=when,
-                                    received=when.date(), lot=f"L{i}"))
+                mv = ledger.receive(s, ledger.Receipt(
+                    "OR-214", o[1], o[3], cured=o[2], ts=when, received=when.date(), lot=f"L{i}"))
                 layers += (val.Layer(o[1], D(o[3]), val.fifo_key(o[2], when.date(), mv.lot_id)),)
                 avg, _ = val.average_step(avg, o[1], D(o[3]))
             elif sum(la.qty for la in layers) >= o[1]:

@@ -47,8 +47,8 @@ def catalog(store):
             ":description, :id_mm, :od_mm, :height_mm, :cs_mm, :material, :hardness, "
             ":volume_cm3, :unit, :standard, :notes)"), rows)
     with transaction(store) as s:
-        ledger.receive(s, ledger.Receipt("OR-214", 7, "0.25", lot="A", cured="2025Q1",
-                       received=date(2025, 5, 1)))
+        ledger.receive(s, ledger.Receipt(
+            "OR-214", 7, "0.25", lot="A", cured="2025Q1", received=date(2025, 5, 1)))
     return store
 
 
@@ -132,8 +132,8 @@ def test_bench_stock_read_equals_the_ledgers_sums(catalog):
     from inventory.bench.stock_read import stock_infos
 
     with transaction(catalog) as s:
-        ledger.receive(s, ledger.Receipt("OR-214", 5, "0.30", lot="B", cured="2024Q3",
-                       received=date(2025, 6, 1)))
+        ledger.receive(s, ledger.Receipt(
+            "OR-214", 5, "0.30", lot="B", cured="2024Q3", received=date(2025, 6, 1)))
         ledger.issue(s, ledger.Issue("OR-214", 9))  # lot B (older cure) first, then 4 of lot A
     with read_transaction(catalog) as s:
         specs = {p.code: p for p in _reference(s)[0]}

@@ -33,9 +33,9 @@ def run(ctx: Context, units: list[Unit]) -> None:
 
     def effect(u: Unit) -> str:
         v = u.payload
-        moves = ledger.count(ctx.session, ledger.Count(v["part"], v["counted"], location=v["location"],
-                             ts=noon(v["date"]).replace(minute=30), user=user,
-                             reference="COUNT", batch_id=batch_id))
+        moves = ledger.count(ctx.session, ledger.Count(
+            v["part"], v["counted"], location=v["location"], ts=noon(v["date"]).replace(minute=30),
+            user=user, reference="COUNT", batch_id=batch_id))
         return "variances" if moves else "agreed"
 
     ctx.report.effects = per_row(ctx, units, effect, order_by_day=True)

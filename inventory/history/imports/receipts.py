@@ -42,10 +42,10 @@ def run(ctx: Context, units: list[Unit]) -> None:
 
     def effect(u: Unit) -> str:
         v = u.payload
-        ledger.receive(ctx.session, ledger.Receipt(v["part"], v["qty"], v.get("unit_cost"), lot=v.get("lot"),
-                       cured=v.get("cured"), location=v["location"], received=v["date"],
-                       ts=noon(v["date"]).replace(hour=9), reference=v.get("order_ref"),
-                       supplier=v.get("supplier"), user=user, batch_id=batch_id))
+        ledger.receive(ctx.session, ledger.Receipt(
+            v["part"], v["qty"], v.get("unit_cost"), lot=v.get("lot"), cured=v.get("cured"),
+            location=v["location"], received=v["date"], ts=noon(v["date"]).replace(hour=9),
+            reference=v.get("order_ref"), supplier=v.get("supplier"), user=user, batch_id=batch_id))
         return "receipts"
 
     ctx.report.effects = per_row(ctx, units, effect, order_by_day=True)
