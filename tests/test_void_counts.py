@@ -29,10 +29,12 @@ from inventory.forecast.data import load_history
 from inventory.forecast.queries import item_demand, job_counts
 from inventory.forecast.series import build_series
 from inventory.history.exports import export_table
+from inventory.history.imports import ImportSettings, run_import
 from inventory.history.jobs import JobItem, JobSpec, list_jobs, noon, record_job
 from inventory.monthend.closing import close_month, verify_closed
 from inventory.monthend.report import month_report
 from inventory.stock import ledger, returns
+from tests.test_import_support import HISTORY_HEADER, book
 
 TODAY = date(2026, 12, 4)
 FORK = "XC-32"  # the tiny catalog's one fork family
@@ -235,3 +237,36 @@ def test_a_second_void_changes_nothing(store):
         returns.void_job(s, "J-05", reason="again", ts=noon(date(2026, 11, 28)))
     with Session(store) as s:
         assert {r.ref: (r.voided_at, r.void_reason) for r in list_jobs(s)} == before
+
+
+def test_a_job_recorded_without_stock_can_be_voided(store, tmp_path):
+    # history from before the ledger (imported with stock=False) took no stock: voiding it
+    # books no movement, marks the job and takes its lines off while its month is open
+    with transaction(store) as s:
+        ledger.receive(s, ledger.Receipt("WP-32", 8, "6.50", lot="W", ts=noon(date(2026, 8, 1))))
+    rows = [["H-1", "2026-10-02", FORK, "lower_leg", 40, "F-1", "WP-32", 1],
+            ["H-2", "2026-10-09", FORK, "lower_leg", 30, "F-2", "WP-32", 2],
+            ["H-3", "2026-10-16", FORK, "damper", 20, "F-1", "OR-214", 1]]
+    path = book(tmp_path / "h.xlsx", [HISTORY_HEADER, *rows])
+    with transaction(store) as s:
+        run_import(s, path, ImportSettings(kind="history", today=TODAY, user="test",
+                                           stock=False), apply=True)
+    with transaction(store) as s:
+        got = returns.void_job(s, "H-2", reason="typed twice", ts=noon(date(2026, 10, 20)))
+    assert got.movements == []
+    with pytest.raises(InventoryError, match="voided already"), transaction(store) as s:
+        returns.void_job(s, "H-2", reason="again", ts=noon(date(2026, 10, 21)))
+    kept = [r for r in rows if r[0] != "H-2"]
+    with Session(store) as s:
+        jc = job_counts(s, until=date(2026, 10, 31))
+        assert Counter({(f, lv): int(jc.values[g].sum()) for g, (f, lv) in enumerate(jc.groups)
+                        if jc.values[g].sum()}) == Counter((r[2], r[3]) for r in kept)
+        hist = load_history(s, until=date(2026, 10, 31))
+        assert sorted(zip(hist.visits.fork.tolist(), hist.visits.day.astype(str).tolist(),
+                          strict=True)) == sorted((r[5], r[1]) for r in kept)
+        rep = month_report(s, "2026-10", today=TODAY)
+        assert +Counter({(u.fork_family, u.service_level): u.jobs for u in rep.fork_usage}) \
+            == Counter((r[2], r[3]) for r in kept)
+        assert s.execute(select(func.count()).select_from(Movement)).scalar() == 1  # receipt
+        assert {r.ref: r.voided for r in list_jobs(s)} == {"H-1": False, "H-2": True,
+                                                          "H-3": False}

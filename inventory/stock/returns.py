@@ -150,12 +150,14 @@ def return_from_job(session: Session, ref: str, part_code: str, qty: int, *,
 
 def void_job(session: Session, ref: str, *, reason: str, ts: datetime | None = None,
              user: str | None = None) -> Returned:
-    """Reverse everything a job took (less what came back) with new movements."""
+    """Reverse everything a job took (less what came back) with new movements, and mark the
+    job voided. A job recorded without taking stock (history from before the ledger) has
+    nothing to book back: it is only marked voided."""
     if not reason or not reason.strip():
         raise InventoryError("voiding a job needs a reason", hint="add --reason TEXT")
     issues = _job_issues(session, ref)
     if not issues:
-        raise InventoryError(f"no stock was issued to job {ref}", kind="unknown")
+        return _void_recorded_only(session, ref, reason.strip(), ts or _now())
     done = _undone(session, [m.id for m in issues])
     ts = ts or _now()
     out, back = [], {}
@@ -170,6 +172,24 @@ def void_job(session: Session, ref: str, *, reason: str, ts: datetime | None = N
                              "returned in full already", kind="conflict")
     _mark_voided(session, ref, ts, reason.strip())
     return Returned(out, _trim_lines(session, ref, back))
+
+
+def _void_recorded_only(session: Session, ref: str, reason: str, ts: datetime) -> Returned:
+    """Void a job that took no stock: the mark, and its lines off while its month is open
+    (as a void with movements takes them off)."""
+    job = session.execute(select(ServiceJob).where(ServiceJob.ref == ref)).scalar()
+    if job is None:
+        raise InventoryError(f"no stock was issued to job {ref}", kind="unknown")
+    if job.voided_at is not None:
+        raise InventoryError(f"job {ref} was voided already ({job.voided_at:%Y-%m-%d})",
+                             kind="conflict")
+    months.refuse_if_closed(session, ts)
+    lines = {pid: int(q) for pid, q in session.execute(
+        select(JobLine.part_id, JobLine.qty).where(JobLine.job_id == job.id))}
+    _mark_voided(session, ref, ts, reason)
+    note = _trim_lines(session, ref, lines)
+    return Returned([], note or f"job {ref} was recorded without taking stock: nothing goes "
+                              "back to the shelf")
 
 
 def _mark_voided(session: Session, ref: str, ts: datetime, reason: str) -> None:
