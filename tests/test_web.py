@@ -352,6 +352,9 @@ def test_uploads_are_removed_once_replaced_applied_or_old(web, tmp_path, monkeyp
     assert sorted(p.name for p in uploads.iterdir()) == [first]  # the stale one is gone
     second = preview()  # the same person uploads again: the first file goes
     assert sorted(p.name for p in uploads.iterdir()) == [second]
+    r = ana.post("/imports/apply", data={"csrf": tok, "token": second, "nforks": "x",
+                                         "action": "apply"})  # an altered page: refused
+    assert r.status_code == 400 and "stale or altered" in r.text
     r = ana.post("/imports/apply", data={"csrf": tok, "token": second, "nforks": "0",
                                          "action": "apply"})
     assert r.status_code == 303 and "applied%20hist.csv" in r.headers["location"]
@@ -497,6 +500,21 @@ def test_count_mode_books_every_variance_at_the_end(web):
     # OR-214: ledger 3, counted 2 -> one variance movement of -1; WP-32: 0 and 0 -> none
     assert movements(web.store) == n + 1
     assert sam.get("/api/stock?part=OR-214").json()[0]["on_hand"] == 2
+
+
+def test_altered_hidden_fields_are_refused_not_a_server_error(web):
+    sam = web("sam")
+    tok = csrf(sam.get("/stock?mode=count"))
+    n = movements(web.store)
+    good = {"c0-part": "OR-214", "c0-location": "MAIN", "c0-qty": "2"}
+    for bad in ({"n": "abc"}, {"n": "-1"}, {"n": "999999999"},  # used to be a 500 or a long loop
+                {"n": "1", "c0-qty": "x"}, {"n": "1", "c0-qty": "\uff19"},  # fullwidth 9
+                {"n": "1", "c0-part": "OR-214\u202e"}, {"n": "2"}):  # bidi; a missing line
+        r = sam.post("/stock/count-sheet", data={"csrf": tok, **good, **bad, "action": "book"})
+        assert r.status_code == 400 and "stale or altered" in r.text, bad
+    assert movements(web.store) == n
+    r = sam.post("/stock/count-sheet", data={"csrf": tok, "n": "1", **good, "action": "book"})
+    assert r.status_code == 303 and movements(web.store) == n + 1
 
 
 def test_purchase_order_downloads_as_a_workbook(web):

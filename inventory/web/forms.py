@@ -12,6 +12,7 @@ from inventory.core import parse
 from inventory.core.errors import InventoryError
 
 SERVICE_LEVELS = ("lower_leg", "air_spring", "damper")
+STALE_FORM = "this form was stale or altered, so nothing was saved: reload the page"
 
 
 class FormError(Exception):
@@ -57,6 +58,16 @@ def int_field(form, name: str, *, minimum: int | None = None, signed: bool = Fal
         return parse.quantity(raw, signed=signed, zero=minimum == 0 and not signed)
     except ValueError as exc:
         raise FormError(name, str(exc)) from None
+
+
+def rows_field(form, name: str, most: int) -> int:
+    """How many rows a page carries in its hidden fields (a count sheet's lines, an
+    import's fork decisions): 0 to ``most``. Anything else is a stale or altered form."""
+    try:
+        return parse.quantity(str(form.get(name) or "0").strip(), what=name, zero=True,
+                              max_qty=most)
+    except ValueError:
+        raise FormError(name, STALE_FORM) from None
 
 
 def money_field(form, name: str) -> Decimal | None:

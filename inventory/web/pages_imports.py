@@ -12,13 +12,14 @@ from starlette.responses import RedirectResponse, Response
 from inventory.core.actor import acting_as
 from inventory.core.errors import InventoryError
 from inventory.web import auth
-from inventory.web.forms import message_of, text_field
+from inventory.web.forms import STALE_FORM, FormError, message_of, rows_field, text_field
 from inventory.web.responses import page
 from inventory.web.state import Web
 
 IMPORT_KINDS = ("history", "receipts", "counts", "catalog")
 MAX_UPLOAD = 20 * 1024 * 1024
 DATE_ORDERS = {"": None, "dmy": "dmy", "mdy": "mdy"}
+MAX_FORK_DECISIONS = 5000  # fork texts one import page can decide
 
 
 def _upload_dir() -> Path:
@@ -82,7 +83,7 @@ async def imports_page(request: Request, report: dict | None = None, errors: dic
 
 def _decisions(form, report_forks) -> dict[str, str]:
     out = {}
-    for i in range(int(form.get("nforks") or 0)):
+    for i in range(rows_field(form, "nforks", MAX_FORK_DECISIONS)):
         text, code = str(form.get(f"forktext-{i}") or ""), text_field(form, f"fork-{i}")
         if text and code:
             out[text] = code
@@ -175,7 +176,10 @@ async def imports_apply(request: Request) -> Response:
         return await imports_page(request, errors={"file": "the uploaded file is gone: "
                                                    "upload it again"}, status=400)
     apply = form.get("action") == "apply"
-    (rep, err, forks), decisions = await _run_import(request, who, up, form, apply=apply)
+    try:
+        (rep, err, forks), decisions = await _run_import(request, who, up, form, apply=apply)
+    except FormError:  # the fork decisions are hidden fields: a bad one is an altered page
+        return await imports_page(request, errors={"file": STALE_FORM}, status=400)
     if apply and rep and not err:
         _forget_upload(request.session.pop("upload", None))
         from urllib.parse import quote

@@ -10,11 +10,21 @@ from starlette.responses import RedirectResponse, Response
 
 from inventory.core.errors import InventoryError
 from inventory.web import auth
-from inventory.web.forms import FormError, field_of, int_field, message_of, money_field, text_field
+from inventory.web.forms import (
+    STALE_FORM,
+    FormError,
+    field_of,
+    int_field,
+    message_of,
+    money_field,
+    rows_field,
+    text_field,
+)
 from inventory.web.responses import page
 from inventory.web.state import Web
 
 STOCK_PAGE_LINES = 400
+COUNT_SHEET_LINES = 5000  # lines a count sheet may carry before it is booked
 
 
 def stock_default_location(locations: list[str]) -> str:
@@ -75,11 +85,15 @@ async def count_sheet(request: Request) -> Response:
     form = await request.form()
     auth.check_csrf(request, form)
     rows = []
-    for i in range(int(form.get("n") or 0)):
-        part, loc, qty = (text_field(form, f"c{i}-part"), text_field(form, f"c{i}-location"),
-                          text_field(form, f"c{i}-qty"))
-        if part and loc and qty is not None and qty.isdigit():
-            rows.append({"part": part, "location": loc, "qty": int(qty)})
+    try:
+        for i in range(rows_field(form, "n", COUNT_SHEET_LINES)):
+            part, loc = text_field(form, f"c{i}-part"), text_field(form, f"c{i}-location")
+            if not part or not loc:
+                raise FormError("sheet", STALE_FORM)
+            rows.append({"part": part, "location": loc,
+                         "qty": int_field(form, f"c{i}-qty", minimum=0)})
+    except FormError:  # the sheet lives in hidden fields: a bad one means an altered page
+        return await stock_page(request, {"sheet": STALE_FORM}, None, 400, sheet=[])
     errors: dict[str, str] = {}
     values = {k: v for k, v in form.items() if k.startswith("new-")}
     if form.get("action") == "add":
