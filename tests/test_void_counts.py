@@ -13,6 +13,7 @@ a void booked after the month was closed leaves the closed month's figures as th
 from __future__ import annotations
 
 import csv
+import json
 from collections import Counter
 from dataclasses import dataclass
 from datetime import date
@@ -34,7 +35,8 @@ from inventory.history.jobs import JobItem, JobSpec, list_jobs, noon, record_job
 from inventory.monthend.closing import close_month, verify_closed
 from inventory.monthend.report import month_report
 from inventory.stock import ledger, returns
-from tests.test_import_support import HISTORY_HEADER, book
+from tests.conftest import write_catalog
+from tests.test_import_support import HISTORY_HEADER, book, cli
 
 TODAY = date(2026, 12, 4)
 FORK = "XC-32"  # the tiny catalog's one fork family
@@ -270,3 +272,24 @@ def test_a_job_recorded_without_stock_can_be_voided(store, tmp_path):
         assert s.execute(select(func.count()).select_from(Movement)).scalar() == 1  # receipt
         assert {r.ref: r.voided for r in list_jobs(s)} == {"H-1": False, "H-2": True,
                                                           "H-3": False}
+
+
+def test_job_list_and_show_say_voided(tmp_path):
+    db = str(tmp_path / "shop.db")
+    assert cli("--db", db, "init")[0] == 0
+    assert cli("--db", db, "catalog", "load", str(write_catalog(tmp_path / "cat")))[0] == 0
+    for args in (["stock", "receive", "OR-214", "10", "--cost", "0.25", "--date", "2026-10-01"],
+                 ["job", "add", "--date", "2026-11-02", "--fork", FORK, "--service", "damper",
+                  "--part", "OR-214=4", "--ref", "J-1"],
+                 ["stock", "void-job", "J-1", "--reason", "booked twice", "--date",
+                  "2026-11-03"]):
+        code, _, err = cli("--db", db, *args)
+        assert code == 0, err
+    code, out, _ = cli("--db", db, "job", "show", "J-1")
+    assert code == 0 and "; voided 2026-11-03: booked twice" in out
+    code, out, _ = cli("--db", db, "job", "list")
+    assert code == 0 and "voided 2026-11-03" in out
+    code, out, _ = cli("--db", db, "job", "list", "--json")
+    (job,) = json.loads(out)
+    assert job["voided"] is True and job["void_reason"] == "booked twice"
+    assert job["lines"] == []  # the void took the 4 O-rings back off its line

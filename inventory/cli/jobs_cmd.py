@@ -106,7 +106,8 @@ def list_(ctx: typer.Context,
         return
     print_table("Service jobs", ["job", "date", "fork", "service", "hours", "used"],
                 [[j.ref, j.day, j.fork, j.service, "" if j.hours is None else j.hours,
-                  ", ".join(f"{q} x {p}" for p, q in j.lines)] for j in jobs],
+                  (f"voided {j.voided_at:%Y-%m-%d} " if j.voided_at else "")
+                  + ", ".join(f"{q} x {p}" for p, q in j.lines)] for j in jobs],
                 right=("hours",), caption=f"{len(jobs)} job(s)")
 
 
@@ -124,6 +125,7 @@ def show(ctx: typer.Context,
         return
     say(f"job {row.ref}: {row.day} {row.fork} {row.service}"
         + (f", {row.hours} h" if row.hours is not None else "")
-        + (f", fork {row.fork_ref}" if row.fork_ref else ""))
+        + (f", fork {row.fork_ref}" if row.fork_ref else "")
+        + (f"; voided {row.voided_at:%Y-%m-%d}: {row.void_reason}" if row.voided_at else ""))
     print_table("Job lines", ["part", "qty"], [[p, q] for p, q in row.lines], right=("qty",))
     _show_moves(moves)
