@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import csv
 import json
+import re
 from collections import Counter
 from dataclasses import dataclass
 from datetime import date
@@ -293,3 +294,32 @@ def test_job_list_and_show_say_voided(tmp_path):
     (job,) = json.loads(out)
     assert job["voided"] is True and job["void_reason"] == "booked twice"
     assert job["lines"] == []  # the void took the 4 O-rings back off its line
+
+
+def test_job_pages_say_voided(store):
+    from starlette.testclient import TestClient
+
+    from inventory.people.service import add_person
+    from inventory.web.app import create_app
+
+    password = "a-long-password"
+    with transaction(store) as s:
+        add_person(s, "ana", "manager", password)
+        ledger.receive(s, ledger.Receipt("OR-214", 5, "0.25", lot="A",
+                                         ts=noon(date(2026, 10, 1))))
+        record_job(s, JobSpec("J-1", date(2026, 11, 2), FORK, "damper", (JobItem("OR-214", 2),)))
+        record_job(s, JobSpec("J-2", date(2026, 11, 3), FORK, "damper", (JobItem("OR-214", 1),)))
+    with transaction(store) as s:
+        returns.void_job(s, "J-1", reason="wrong fork", ts=noon(date(2026, 11, 4)))
+    app = create_app(store.url.render_as_string(hide_password=False),
+                     secret="test-secret-" + "x" * 20)
+    c = TestClient(app, follow_redirects=False)
+    tok = re.search(r'name="csrf" value="([^"]+)"', c.get("/login").text).group(1)
+    assert c.post("/login", data={"csrf": tok, "name": "ana",
+                                  "password": password}).status_code == 303
+    page = c.get("/jobs").text
+    row = dict(re.findall(r'<a href="/jobs/(J-\d)">(.*?)</tr>', page, re.S))
+    assert "voided 2026-11-04" in row["J-1"] and "voided" not in row["J-2"]
+    detail = c.get("/jobs/J-1").text
+    assert "<dt>Voided</dt><dd>2026-11-04: wrong fork</dd>" in detail
+    assert [j["voided"] for j in c.get("/api/jobs").json()] == [False, True]  # newest first
