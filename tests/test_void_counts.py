@@ -323,3 +323,18 @@ def test_job_pages_say_voided(store):
     detail = c.get("/jobs/J-1").text
     assert "<dt>Voided</dt><dd>2026-11-04: wrong fork</dd>" in detail
     assert [j["voided"] for j in c.get("/api/jobs").json()] == [False, True]  # newest first
+
+
+def test_no_part_is_added_to_a_voided_job(store):
+    from inventory.history.service import add_to_job
+
+    with transaction(store) as s:
+        ledger.receive(s, ledger.Receipt("OR-214", 5, "0.25", lot="A",
+                                         ts=noon(date(2026, 10, 1))))
+        record_job(s, JobSpec("J-1", date(2026, 11, 2), FORK, "damper", (JobItem("OR-214", 2),)))
+    with transaction(store) as s:
+        returns.void_job(s, "J-1", reason="wrong fork", ts=noon(date(2026, 11, 4)))
+    with pytest.raises(InventoryError, match="job J-1 was voided"), transaction(store) as s:
+        add_to_job(s, "J-1", "OR-214", 1)
+    with Session(store) as s:  # 5 received, 2 issued, 2 back: all 5 on the shelf
+        assert sum(ln.on_hand for ln in ledger.on_hand(s, part="OR-214")) == 5

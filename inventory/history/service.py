@@ -106,7 +106,8 @@ def add_job(session: Session, entry: JobEntry) -> tuple[Any, list[Any]]:
 def add_to_job(session: Session, ref: str, part: str, qty: int) -> int:
     """Take ``qty`` more of a part for an existing job: an issue booked now through the
     stock service with the job's reference, and the part added to the job's lines; refused
-    when the job's month is in the closed books. Returns the units taken."""
+    when the job's month is in the closed books or the job was voided. Returns the units
+    taken."""
     from sqlmodel import select
 
     from inventory.core import lookup
@@ -122,6 +123,9 @@ def add_to_job(session: Session, ref: str, part: str, qty: int) -> int:
     if months.is_closed(session, months.label(job.day)):
         raise InventoryError(f"job {ref} ({job.day.isoformat()}) is in closed books: "
                              "record the part on a new job", kind="conflict")
+    if job.voided_at is not None:  # a voided job is no job: its parts would count as nobody's
+        raise InventoryError(f"job {ref} was voided ({job.voided_at:%Y-%m-%d}): record the "
+                             "part on a new job", kind="conflict")
     code = lookup.part(session, part).code
     taken = stock.issue(session, code, qty, reference=ref)
     part_id = lookup.part(session, code).id
