@@ -62,6 +62,18 @@ def test_unknown_command_gets_a_did_you_mean_hint(tmp_path):
     assert "Did you mean 'stock'?" in proc.stderr
 
 
+@pytest.mark.parametrize("args", [["match", "--id", "24.99", "--cs", "3.53"], ["stock", "on-hand"]])
+def test_a_file_that_is_not_a_database_is_one_line(tmp_path, args):
+    # match reads through the standard library's sqlite3, on-hand through SQLAlchemy: the
+    # driver's "file is not a database" is the same one line either way
+    (tmp_path / "notes.db").write_text("part,qty\nOR-214,3\n" * 200)
+    proc = run_script("--db", "notes.db", *args, cwd=tmp_path)
+    lines = [ln for ln in proc.stderr.splitlines() if ln.strip()]
+    assert proc.returncode == 1
+    assert lines == ["error: database file notes.db is not a SQLite database (check the path "
+                     "given with --db or $INVENTORY_DB)"], proc.stderr
+
+
 def test_tool_refusal_is_one_line_and_exit_1(tmp_path):
     proc = run_script("stock", "on-hand", cwd=tmp_path)  # no inventory.db here
     assert proc.returncode == 1

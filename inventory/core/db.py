@@ -302,6 +302,9 @@ def explain(exc: BaseException, url=None) -> InventoryError | None:
                                   kind="permission",
                                   hint="check the file and folder permissions, or the "
                                        "database user's rights")
+        if "file is not a database" in low:
+            return InventoryError(f"{where} is not a SQLite database", kind="invalid",
+                                  hint="check the path given with --db or $INVENTORY_DB")
         if "unable to open database file" in low:
             return InventoryError(f"cannot open {where}", kind="permission",
                                   hint="check the path and the folder's permissions")
