@@ -9,6 +9,11 @@ run on the same machine:
 - the catalog read as ORM objects (``select(Part)`` and one ``PartSpec`` each), the way the
   lookup read it before, in a fresh process.
 
+``match`` with readings asks the database for the parts within a few tolerances of them
+(:mod:`inventory.bench.match_sql`, the dimension indexes of migration 0006) through the
+standard library's sqlite3, so it loads neither SQLAlchemy nor numpy; the two reads above
+are what it replaced.
+
 The catalog is :func:`tests.support.synthetic.synthetic_parts` (seeded, invented), written
 straight into a migrated SQLite file, with stock received on 2,000 of the parts so the
 candidates' on-hand is summed from a real ledger. Each command runs ``--runs`` times in a
