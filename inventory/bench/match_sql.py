@@ -260,14 +260,18 @@ ORDER BY p.code, loc.code, lot.code, lot.cured
 """
 
 
-def stock_of(reader: Reader, specs: dict[str, PartSpec], on: date) -> dict[str, StockInfo]:
-    """On hand, locations and units past storage of the parts ``specs`` (by code), the
-    movements summed per part, location and lot by the database (as
-    :func:`inventory.bench.stock_read.stock_infos` sums them)."""
-    if not specs:
+def stock_of(reader: Reader, specs: Mapping[str, PartSpec], on: date, *,
+             codes: Sequence[str] | None = ()) -> dict[str, StockInfo]:
+    """On hand, locations and units past storage of the parts ``codes`` (``()``: the parts
+    of ``specs``; None: every part with stock), the movements summed per part, location and
+    lot by the database. Parts with nothing on hand are left out."""
+    if codes is None:
+        return collect_stock(reader.rows(STOCK_SQL.format(where="")), specs, on)
+    wanted = sorted(specs if isinstance(codes, tuple) and not codes else codes)
+    if not wanted:
         return {}
     sql = STOCK_SQL.format(where="WHERE p.code IN :codes")
-    return collect_stock(reader.rows(sql, codes=sorted(specs)), specs, on)
+    return collect_stock(reader.rows(sql, codes=wanted), specs, on)
 
 
 def collect_stock(rows: Iterable[Sequence[Any]], specs: Mapping[str, PartSpec],

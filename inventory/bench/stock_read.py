@@ -17,7 +17,7 @@ from sqlmodel import Session
 # one definition of a part's stock and of a lot past storage, shared with the plain reader
 from inventory.bench.match_rows import StockInfo as StockInfo
 from inventory.bench.match_rows import lot_past_storage as lot_past_storage
-from inventory.bench.match_sql import STOCK_SQL, collect_stock
+from inventory.bench.match_sql import stock_of
 from inventory.core.model import PartSpec
 
 
@@ -25,18 +25,12 @@ def stock_infos(session: Session, specs: Mapping[str, PartSpec], *, on: date,
                 codes: Sequence[str] | None = None) -> dict[str, StockInfo]:
     """On hand, locations and units past storage of the parts ``codes`` (None: every part
     with stock), the movements summed per part, location and lot in one query
-    (:data:`inventory.bench.match_sql.STOCK_SQL`, the plain reader's query too). Parts with
-    nothing on hand are left out."""
-    from sqlalchemy import text
+    (:func:`inventory.bench.match_sql.stock_of`, the plain reader's query too, here in the
+    caller's session). Parts with nothing on hand are left out."""
+    from inventory.core.sqlread import SessionReader
 
-    from inventory.core.sqlread import expand
-
-    if codes is None:
-        sql, params = STOCK_SQL.format(where=""), {}
-    else:
-        sql, params = expand(STOCK_SQL.format(where="WHERE p.code IN :codes"),
-                             {"codes": list(codes)})
-    return collect_stock(session.execute(text(sql), params), specs, on)
+    return stock_of(SessionReader(session), specs, on,
+                    codes=None if codes is None else list(codes))
 
 
 def stock_by_part(session: Session, specs: dict[str, PartSpec], *,

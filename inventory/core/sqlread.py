@@ -196,6 +196,29 @@ class Reader:
                                  f"unfinished {what} database", kind="schema", hint=hint)
 
 
+class SessionReader(Reader):
+    """:meth:`Reader.rows` over a caller's open SQLAlchemy session or connection (its
+    transaction, its snapshot): the same SQL serves a command's plain read and the web
+    app's session."""
+
+    def __init__(self, session: Any) -> None:
+        super().__init__("")
+        self.dialect = session.get_bind().dialect.name
+        self._session = session
+
+    def open(self) -> Reader:
+        return self
+
+    def close(self) -> None:
+        pass
+
+    def rows(self, sql: str, **params: Any) -> list[tuple]:
+        from sqlalchemy import text
+
+        sql, params = expand(sql, params)
+        return [tuple(r) for r in self._session.execute(text(sql), params)]
+
+
 @contextmanager
 def open_reader(url: str | None = None) -> Iterator[Reader]:
     """A :class:`Reader` on ``url`` (resolved as :func:`resolve_url`), always rolled back."""
