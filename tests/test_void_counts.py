@@ -338,3 +338,29 @@ def test_no_part_is_added_to_a_voided_job(store):
         add_to_job(s, "J-1", "OR-214", 1)
     with Session(store) as s:  # 5 received, 2 issued, 2 back: all 5 on the shelf
         assert sum(ln.on_hand for ln in ledger.on_hand(s, part="OR-214")) == 5
+
+
+def test_another_file_with_a_voided_job_does_not_bring_it_back(store, tmp_path):
+    with transaction(store) as s:
+        ledger.receive(s, ledger.Receipt("WP-32", 8, "6.50", lot="W", ts=noon(date(2026, 8, 1))))
+    first = [["H-1", "2026-10-02", FORK, "lower_leg", 40, "F-1", "WP-32", 1],
+             ["H-2", "2026-10-09", FORK, "lower_leg", 30, "F-2", "WP-32", 2]]
+    settings = ImportSettings(kind="history", today=TODAY, user="test")
+    with transaction(store) as s:
+        run_import(s, book(tmp_path / "a.xlsx", [HISTORY_HEADER, *first]), settings, apply=True)
+    with transaction(store) as s:
+        returns.void_job(s, "H-2", reason="typed twice", ts=noon(date(2026, 10, 20)))
+    # an overlapping file (H-2 with its hours filled in differently, and a new job H-3)
+    second = [["H-2", "2026-10-09", FORK, "lower_leg", 31, "F-2", "WP-32", 2],
+              ["H-3", "2026-10-12", FORK, "lower_leg", 20, "F-3", "WP-32", 1]]
+    with transaction(store) as s:
+        rep = run_import(s, book(tmp_path / "b.xlsx", [HISTORY_HEADER, *second]), settings,
+                         apply=True)
+    assert rep.problems == [] and rep.effects["jobs"] == 1
+    with Session(store) as s:
+        assert {r.ref: r.voided for r in list_jobs(s)} == {"H-1": False, "H-2": True,
+                                                          "H-3": False}
+        # 8 received, H-1 and H-3 took one each, H-2's two went back with the void
+        assert sum(ln.on_hand for ln in ledger.on_hand(s, part="WP-32")) == 8 - 1 - 1
+        jc = job_counts(s, until=date(2026, 10, 31))
+        assert int(jc.values.sum()) == 2

@@ -6,6 +6,9 @@ differs is a conflict reported at the cells that differ, never dropped in silenc
 - other lines: a quantity at its qty cell, a part or kit the record does not hold at its
   item (or kit) cell, a recorded part the file does not list at the job's first item cell.
 
+A voided job with the file's day, service level and fork family counts as applied whatever
+its lines (the void took them off): the file does not bring it back.
+
 Lines are compared as the parts that left the shelf: a kit booked whole and a kit booked
 as its bill of materials (it was not on hand) are the same line.
 """
@@ -37,11 +40,12 @@ def mark_recorded(ctx: Context, units: list[Unit]) -> None:
     chunk = sorted(taken)
     for i in range(0, len(chunk), CHUNK):
         part = chunk[i:i + CHUNK]
-        for ref, day, code, service in ctx.session.exec(
-                select(ServiceJob.ref, ServiceJob.day, ForkFamily.code, ServiceJob.service_level)
+        for ref, day, code, service, voided in ctx.session.exec(
+                select(ServiceJob.ref, ServiceJob.day, ForkFamily.code, ServiceJob.service_level,
+                       ServiceJob.voided_at)
                 .join(ForkFamily, ForkFamily.id == ServiceJob.fork_family_id)
                 .where(ServiceJob.ref.in_(part))):
-            recorded[ref] = (day, code, service)
+            recorded[ref] = (day, code, service, voided)
         for ref, code, qty in ctx.session.exec(
                 select(ServiceJob.ref, Part.code, JobLine.qty)
                 .join(JobLine, JobLine.job_id == ServiceJob.id)
@@ -52,7 +56,7 @@ def mark_recorded(ctx: Context, units: list[Unit]) -> None:
     for u in units:
         if u.status not in ("new", "review") or not u.payload or u.payload.ref not in taken:
             continue
-        day, code, service = recorded[u.payload.ref]
+        day, code, service, voided = recorded[u.payload.ref]
         spec = u.payload
         if not (spec.day == day and str(spec.service) == service and spec.fork in ("", code)):
             u.status = "invalid"
@@ -60,7 +64,8 @@ def mark_recorded(ctx: Context, units: list[Unit]) -> None:
                         f"{day.isoformat()} {code} {service}", kind="conflict", hint=HINT)
             continue
         held = lines.get(spec.ref, {})
-        if _shelf(ctx, held) == _shelf(ctx, _file_lines(u)):
+        if voided is not None or _shelf(ctx, held) == _shelf(ctx, _file_lines(u)):
+            # a voided job is the file's job, voided since: its lines went with the void
             u.status = "applied"
             continue
         u.status = "invalid"
