@@ -226,6 +226,45 @@ def test_month_end_reads_the_month_like_the_command_line(web):
         assert r.status_code == 200 and "Month end: 2026-03" in r.text, text
 
 
+def test_pages_read_without_the_write_lock(web, monkeypatch):
+    """A page's read does not hold up a booking (issue 10 item 7): while a read is open, a
+    bench issue on another connection books at once."""
+    import asyncio
+    import time
+
+    from inventory.stock import service as stock
+    from inventory.web.state import Web
+
+    monkeypatch.setenv("INVENTORY_LOCK_TIMEOUT", "1")
+    shop = Web(web.url)
+
+    def report(s):
+        before = s.exec(select(func.count()).select_from(Movement)).one()  # the read began
+        started = time.perf_counter()
+        with transaction(web.store) as w:  # meanwhile, a technician books an issue
+            stock.issue(w, "OR-214", 1, reference="J-BENCH")
+        return before, time.perf_counter() - started
+    before, waited = asyncio.run(shop.read(report))
+    assert waited < 0.9 and movements(web.store) == before + 1
+
+
+def test_unfinished_build_is_refused_with_one_line(web, monkeypatch):
+    from inventory.core import build_mark
+    from inventory.web.state import Web
+
+    monkeypatch.setattr(Web, "BUILT_CHECK_SECONDS", 0.0)  # ask on every request here
+    ana = web("ana")
+    with transaction(web.store) as s:
+        build_mark.mark_started(s, "demo")
+    r = ana.get("/stock")
+    assert r.status_code == 503 and "unfinished demo build" in r.text
+    r = ana.get("/api/stock")
+    assert r.status_code == 503 and "unfinished demo build" in r.json()["error"]
+    with transaction(web.store) as s:
+        build_mark.mark_finished(s, "demo")
+    assert ana.get("/stock").status_code == 200
+
+
 def test_openapi_is_served(web):
     doc = web().get("/api/openapi.json").json()
     assert doc["openapi"].startswith("3.") and "/api/match" in doc["paths"]

@@ -36,7 +36,7 @@ from inventory.web.pages_plan import (
 )
 from inventory.web.pages_stock import count_sheet, stock_action, stock_page
 from inventory.web.responses import HERE, page
-from inventory.web.state import Web
+from inventory.web.state import NotReady, Web
 
 
 def _wants_json(request: Request) -> bool:
@@ -82,6 +82,17 @@ async def on_http(request: Request, exc: HTTPException) -> Response:
     title = {404: "Not found", 405: "Not allowed"}.get(exc.status_code, "Error")
     msg = "There is no such page." if exc.status_code == 404 else str(exc.detail)
     return page(request, "error.html", who, status=exc.status_code, title=title, message=msg)
+
+
+async def on_not_ready(request: Request, exc: NotReady) -> Response:
+    if _wants_json(request):
+        return JSONResponse({"error": str(exc)}, 503)
+    try:
+        who = auth.person(request)
+    except auth.SignInNeeded:
+        who = None
+    return page(request, "error.html", who, status=503, title="Not ready",
+                message=f"Nothing was read or saved: {exc}.")
 
 
 async def on_error(request: Request, exc: Exception) -> Response:
@@ -142,6 +153,7 @@ def create_app(url: str | None = None, *, secret: str | None = None,
                                same_site="lax", https_only=secure_cookies)],
         exception_handlers={auth.SignInNeeded: on_sign_in_needed,
                             auth.Forbidden: on_forbidden, auth.CsrfRefused: on_csrf,
-                            HTTPException: on_http, Exception: on_error})
+                            HTTPException: on_http, NotReady: on_not_ready,
+                            Exception: on_error})
     app.state.web = web
     return app
