@@ -7,6 +7,7 @@ from __future__ import annotations
 import json
 import re
 from datetime import date
+from html import unescape
 
 import pytest
 from sqlmodel import Session, func, select
@@ -263,6 +264,18 @@ def test_unfinished_build_is_refused_with_one_line(web, monkeypatch):
     with transaction(web.store) as s:
         build_mark.mark_finished(s, "demo")
     assert ana.get("/stock").status_code == 200
+
+
+def test_scanned_code_opens_that_exact_part(web):
+    sam = web("sam")
+    # a scanner types what the label holds: a space, "?" and "#" stay part of the code
+    # (RFC 3986 section 2.2: reserved characters are percent-encoded inside a path segment)
+    r = sam.get("/bench", params={"code": "OR 214?x#1"})
+    assert r.status_code == 303 and r.headers["location"] == "/bench/part/OR%20214%3Fx%231"
+    r = sam.get(r.headers["location"])
+    assert r.status_code == 404 and "OR 214?x#1" in unescape(error_at(r.text, "code"))
+    r = sam.get("/bench", params={"code": "OR-214"})
+    assert sam.get(r.headers["location"]).status_code == 200
 
 
 def test_openapi_is_served(web):

@@ -68,7 +68,9 @@ async def bench_page(request: Request) -> Response:
     web: Web = request.app.state.web
     q = dict(request.query_params)
     if q.get("code"):  # a scanner types a part code and Enter: open that part
-        return RedirectResponse(f"/bench/part/{q['code'].strip()}", 303)
+        from urllib.parse import quote
+
+        return RedirectResponse(f"/bench/part/{quote(q['code'].strip(), safe='')}", 303)
     searched = any(q.get(k) for k in ("id", "od", "height", "cs", "seat"))
 
     def go(s):
@@ -153,7 +155,9 @@ async def bench_use(request: Request) -> Response:
             "use-" + field_of(exc, "qty", {"fork": "fork", "job": "job", "qty": "qty"}):
             message_of(exc)})
     sep = "&" if "?" in back else "?"
-    return RedirectResponse(f"{back}{sep}booked={ref}%20{part}", 303)
+    from urllib.parse import quote
+
+    return RedirectResponse(f"{back}{sep}booked={quote(f'{ref} {part}', safe='')}", 303)
 
 
 async def _bench_again(request: Request, who: dict, form, errors: dict) -> Response:

@@ -85,7 +85,9 @@ async def jobs_add(request: Request) -> Response:
         return await jobs_page(request, {field_of(exc, "part1", {"fork": "fork",
                                                                  "part": "part1"}):
                                          message_of(exc)}, values, 400)
-    return RedirectResponse(f"/jobs/{ref}", 303)
+    from urllib.parse import quote
+
+    return RedirectResponse(f"/jobs/{quote(ref, safe='')}", 303)
 
 
 async def job_add_part(request: Request) -> Response:
@@ -116,7 +118,7 @@ async def job_add_part(request: Request) -> Response:
         return await job_page(request, {field: message_of(exc)}, 400, values)
     from urllib.parse import quote
 
-    return RedirectResponse(f"/jobs/{ref}?done={quote(done)}", 303)
+    return RedirectResponse(f"/jobs/{quote(ref, safe='')}?done={quote(done)}", 303)
 
 
 async def job_undo(request: Request) -> Response:
@@ -152,7 +154,7 @@ async def job_undo(request: Request) -> Response:
         return await job_page(request, {field: message_of(exc)}, 400)
     from urllib.parse import quote
 
-    return RedirectResponse(f"/jobs/{ref}?done={quote(done)}", 303)
+    return RedirectResponse(f"/jobs/{quote(ref, safe='')}?done={quote(done)}", 303)
 
 
 async def job_page(request: Request, errors: dict | None = None,
