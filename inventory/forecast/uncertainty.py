@@ -24,7 +24,11 @@ reached 95 % fill within a sweep of asked rates), comparing the stock at 95.0 % 
 fill against smoothing with its factor tuned on the same half: the pooled law held less
 stock on 50 of the 67 (median ratio 0.64 vs 0.66 at ends 37-43, 0.58 vs 0.57 at ends
 34-41; worst 0.82 vs 0.87); presumably the per-class laws follow their own pairs more
-closely than carries over to the next months.
+closely than carries over to the next months. The same cross-validation capped the exponent:
+b at most 1.15 (``LawOptions.b_max``; the unconstrained fit gives about 1.1-1.3) held less
+stock than the uncapped pooled law on 47 of 68 halves (30 of 39 at ends 34-41, 17 of 29 at
+ends 37-43; worst ratio 0.80 vs 0.82 and 0.76 vs 0.81); caps of 1.1, 1.2 and 1.25 did so on
+40, 41 and 22, and b fixed at 1 (one variance-to-mean ratio for all) on 7 of 29.
 """
 
 from __future__ import annotations
@@ -124,12 +128,14 @@ def _fit_law(d: FloatArray, mu: FloatArray, a_bounds: tuple[float, float],
 class LawOptions:
     """How the variance law is fitted: per SBC class (``by="class"``) where a class has at
     least ``min_pairs`` (forecast, demand) pairs, else pooled; at most ``max_pairs`` pairs a
-    class fit and ``max_pooled_pairs`` for the pooled fallback (a seeded random draw)."""
+    class fit and ``max_pooled_pairs`` for the pooled fallback (a seeded random draw); the
+    exponent b at most ``b_max``."""
 
     min_pairs: int = 500
     max_pairs: int = 50_000
     max_pooled_pairs: int = 5_000
     by: Literal["class", "pooled"] = "pooled"  # chosen by cross-validation: module docstring
+    b_max: float = 1.15  # the largest exponent b allowed; chosen the same way
 
 
 def fit_distribution(
@@ -198,7 +204,7 @@ def fit_distribution(
         idx = np.flatnonzero(sel)
         if idx.size > cap:
             idx = np.sort(np.random.default_rng(0).choice(idx, size=cap, replace=False))
-        return fit_variance_law(d_all[idx], mu_all[idx])
+        return fit_variance_law(d_all[idx], mu_all[idx], b_bounds=(0.5, law.b_max))
 
     a: dict[str, float] = {}
     b: dict[str, float] = {}
