@@ -3,8 +3,9 @@
 A negative binomial whose mean is the forecast and whose variance over the cover, with
 mean M, follows the power law ``a * M**b`` across parts (the "variance law" of spare-parts
 demand, sigma^2 = a mu^b; recalled from memory: Stevens 1974, and the sigma-versus-demand
-relation in Silver, Pyke and Peterson ch. 4). ``a`` and ``b`` are fitted per SBC class by
-maximum likelihood on the rolling-origin backtest's own forecasts
+relation in Silver, Pyke and Peterson ch. 4). ``a`` and ``b`` (b at most 1.15) are fitted
+for all parts together (or per SBC class, ``LawOptions(by="class")``) by maximum likelihood
+on the rolling-origin backtest's own forecasts
 (:attr:`inventory.forecast.methods.ForecastResult.origin_paths`) against the demand that
 followed them, so the spread includes the forecast's own error. Each part keeps its
 variance-to-mean ratio a M^(b-1) at every horizon (compound-Poisson scaling, see
