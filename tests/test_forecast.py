@@ -368,6 +368,36 @@ def test_variance_law_fit_recovers_known_parameters() -> None:
     assert b_hat == pytest.approx(b, abs=0.05)
 
 
+def test_capped_variance_law_is_the_likelihood_maximum_at_the_cap() -> None:
+    """The default law caps the exponent (LawOptions.b_max, chosen by cross-validation).
+    Counts drawn from scipy.stats.nbinom with b = 1.4 above the cap: the capped fit sits at
+    the cap, and its a maximises the negative binomial likelihood at that b, the reference
+    being scipy.stats.nbinom.logpmf maximised over a by scipy.optimize."""
+    from scipy import optimize, stats
+
+    from inventory.forecast.uncertainty import LawOptions
+
+    rng = np.random.default_rng(4)
+    mu = rng.gamma(1.2, 1.5, size=20_000) + 0.05
+    var = np.maximum(2.0 * mu**1.4, mu * 1.0001)
+    p = mu / var
+    d = stats.nbinom.rvs(mu * p / (1 - p), p, random_state=rng)
+    cap = LawOptions().b_max
+    assert cap < 1.4
+    a_hat, b_hat = fc.fit_variance_law(d, mu, b_bounds=(0.5, cap))
+    assert b_hat == pytest.approx(cap, abs=1e-6)
+
+    def nll(log_a: float) -> float:
+        v = np.maximum(np.exp(log_a) * mu**cap, mu * (1.0 + 1e-6))
+        q = mu / v
+        return -float(stats.nbinom.logpmf(d, mu * q / (1 - q), q).sum())
+
+    ref = optimize.minimize_scalar(nll, bounds=(np.log(1e-3), np.log(1e3)), method="bounded",
+                                   options={"xatol": 1e-8})
+    assert a_hat == pytest.approx(float(np.exp(ref.x)), rel=1e-3)
+    assert fc.fit_variance_law(d, mu)[1] == pytest.approx(1.4, abs=0.05)  # uncapped
+
+
 def test_fit_distribution_cold_start_and_mean() -> None:
     y = _intermittent(21, n=150, t=40)
     y[:3] = 0.0  # never sold
