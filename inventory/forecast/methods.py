@@ -200,8 +200,9 @@ def _fit_in_chunks(y: FloatArray, season_pos: ArrayLike | None, groups: ArrayLik
         if key not in out:
             shape = list(value.shape)
             shape[axis] = n
-            dtype = value.dtype if value.dtype.kind != "U" else np.dtype("<U128")
-            out[key] = np.empty(shape, dtype=dtype)
+            out[key] = np.empty(shape, dtype=value.dtype)
+        elif value.dtype.kind == "U" and value.dtype.itemsize > out[key].dtype.itemsize:
+            out[key] = out[key].astype(value.dtype)  # a later chunk's text is wider: widen
         idx: list[slice | NDArray[np.int64]] = [slice(None)] * value.ndim
         idx[axis] = rows
         out[key][tuple(idx)] = value
