@@ -10,9 +10,19 @@ never sold) is built first and the process's peak resident memory read (the base
 is read again. Reported: wall and CPU seconds, peak beyond the base per series. The same
 is done for statsforecast's SimpleExponentialSmoothingOptimized on the same series (data
 frame built before the base is read). Targets (issue 14 item 2): <= 2 KB per added series
-(the growth of the peak between sizes: the fit works in chunks of at most 4,000 series,
-whose working memory is part of the fixed base); 100,000 series <= 15 s and <= 400 MB. CPU seconds are printed beside wall seconds
-because the machine is shared: wall time under load is not the program's.
+beyond a fixed base; 100,000 series <= 15 s and <= 400 MB. CPU seconds are printed beside
+wall seconds because the machine is shared: wall time under load is not the program's.
+
+What the growth check measures: the fit works on interleaved chunks of at most
+``FitOptions.chunk_series`` (4,000) series, and one chunk's candidate passes need about 14 KB
+per series while they run; that working buffer is the fixed base. Below one chunk the
+buffer itself grows with the series count (1,000 series: 14 MB; 4,000: 54 MB), so the peak's
+growth from 1,000 to 10,000 series (about 5-6 KB per added series) is the buffer filling up
+to its fixed size, not a cost every further series pays: measured on the same code, the peak
+beyond the data is 60 MB at 8,000 series, 59 MB at 20,000 and 56 MB at 40,000. The check is
+therefore made only between sizes whose smaller one already fills a chunk (>= 4,000
+series); the growth from a smaller size is printed, marked as not checked. The growth is
+taken on the absolute peak, so it includes the demand array itself (36 float64 per series).
 """
 
 from __future__ import annotations
@@ -29,6 +39,9 @@ import sys  # noqa: E402
 from pathlib import Path  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT))
+
+from inventory.forecast.fit_records import FitOptions  # noqa: E402
 
 CHILD = r"""
 import json, resource, sys, time, warnings
@@ -74,7 +87,7 @@ def measure(n: int, what: str) -> dict:
 
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--sizes", type=int, nargs="+", default=[1000, 10000, 100000])
+    ap.add_argument("--sizes", type=int, nargs="+", default=[1000, 4000, 10000, 100000])
     ap.add_argument("--strict", action="store_true")
     args = ap.parse_args(argv)
     try:
@@ -101,8 +114,13 @@ def main(argv: list[str] | None = None) -> int:
             checks.append((f"{n:,} series: <= 400 MB peak", o["peak_mb"] <= 400.0,
                            f"{o['peak_mb']:.0f} MB"))
     done = sorted(rows)
+    chunk = FitOptions().chunk_series
     for small, big in zip(done, done[1:], strict=False):
         growth = (rows[big]["peak_mb"] - rows[small]["peak_mb"]) * 1024 / (big - small)
+        if small < chunk:  # the chunk's working buffer still filling up: part of the base
+            print(f"growth {small:,} -> {big:,} series: {growth:.2f} KB per added series "
+                  f"(not checked: {small:,} series do not fill one chunk of {chunk:,})")
+            continue
         print(f"growth {small:,} -> {big:,} series: {growth:.2f} KB per added series")
         checks.append((f"growth {small:,} -> {big:,}: <= 2 KB per added series",
                        growth <= 2.0, f"{growth:.2f} KB"))
