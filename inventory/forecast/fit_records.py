@@ -44,6 +44,9 @@ class FitOptions:
       most this many (series i goes to chunk i mod k), each chunk choosing its own class
       constants, methods and season, so memory stays bounded (the candidate passes hold
       about 14 KB per series); every chunk still has thousands of series per fit.
+    - ``adi_cutoff`` / ``cv2_cutoff``: the SBC class boundaries the per-class choice and
+      the variance law group by (1.32 and 0.49, Syntetos, Boylan and Croston 2005; kept
+      after cross-validation, ``benchmarks/forecast_choice_cv.py``).
     """
 
     methods: tuple[str, ...] = METHODS
@@ -62,6 +65,8 @@ class FitOptions:
     period: int = 12
     max_level: int = 12
     chunk_series: int = 4000
+    adi_cutoff: float = 1.32
+    cv2_cutoff: float = 0.49
 
 
 @dataclass(frozen=True)

@@ -122,7 +122,8 @@ def fit_forecast(
         return _fit_in_chunks(y_arr, season_pos, groups, opt)
     v, obs = sm.prepare(y_arr)
     n, t_len = v.shape
-    cls = dm.classify(np.where(obs, v, np.nan))
+    cls = dm.classify(np.where(obs, v, np.nan), adi_cutoff=opt.adi_cutoff,
+                      cv2_cutoff=opt.cv2_cutoff)
     codes = cls.codes()
     h = max(1, min(opt.horizon, t_len // 3))
     last = t_len - h
