@@ -77,7 +77,11 @@ def main() -> int:
     ap.add_argument("--runs", type=int, default=15)
     ap.add_argument("--strict", action="store_true", help="exit 1 when a target is missed")
     args = ap.parse_args()
-    env = {k: v for k, v in os.environ.items() if k != "INVENTORY_DB"}
+    # PYTHONDONTWRITEBYTECODE (set on some build machines) would make every run compile the
+    # package from source; an installed tool keeps its bytecode, so the children may write it
+    # (the warm-up run below does)
+    env = {k: v for k, v in os.environ.items()
+           if k not in ("INVENTORY_DB", "PYTHONDONTWRITEBYTECODE")}
     tmp = tempfile.mkdtemp(prefix="startup-")
     db = args.db
     if db is None:
@@ -133,7 +137,9 @@ def main() -> int:
     for name, found in (("match", heavy + lean["match"]), ("--help", lean["--help"])):
         if found:
             print(f"      {name} imported: {', '.join(found)}")
-    print(f"\n{args.runs} runs each, {os.cpu_count()} CPUs, load average "
+    from importlib.metadata import version
+    print(f"\ntyper {version('typer')}, python {sys.version.split()[0]}, {sys.prefix}")
+    print(f"{args.runs} runs each, {os.cpu_count()} CPUs, load average "
           f"{', '.join(f'{x:.2f}' for x in os.getloadavg())}")
     shutil.rmtree(tmp, ignore_errors=True)
     return 1 if args.strict and not all(ok for _, ok in checks) else 0
