@@ -497,6 +497,9 @@ def test_part_codes_are_never_cut_at_80_columns(shop, monkeypatch, capsys):
             name = c.get("part") or c["designation"]
             assert any(f"│ {name} " in line for line in table), (name, out)
         assert "…" not in out
+        # the bench's question is "on the shelf or to order": the stock column stays
+        header = next(line for line in table if line.startswith("┃"))
+        assert "stock" in header, out
         if not extra:  # without a seat the material shows, EPDM marked and ranked last
             assert any("material" in line for line in table)
             row = next(line for line in table
@@ -531,6 +534,7 @@ def test_match_table_drops_columns_before_cutting_codes():
     assert all(name in seen[160][0] for name in DROP_ORDER)  # wide: nothing dropped
     assert "driven by" not in seen[80][0] and "kind" not in seen[80][0]
     assert "verdict" in seen[60][0] and "notes" not in seen[60][0]
+    assert all("stock" in seen[w][0] for w in seen)  # never dropped
     assert seen[60][1] == [f"#1: stocked as {long_code}; PAST STORAGE x3"]
 
 

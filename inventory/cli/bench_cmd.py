@@ -113,12 +113,13 @@ def render_match(result: svc.MatchResult, unit: str) -> None:
         del columns["score"], columns["driven by"]
     if not seat:
         del columns["verdict"]
-    caption = ("score: sum over dimensions of deviation / tolerance, plus kind and material "
-               "penalties (lower is closer); std = standard size, orderable, not stocked"
-               if result.mode == "match" else "std = standard size, orderable, not stocked")
+    # each line of the caption explains a column; it goes when its column is left out
+    caption = {"score": "score: sum over dimensions of deviation / tolerance, plus kind and "
+                        "material penalties (lower is closer)",
+               "stock": "std = standard size, orderable, not stocked"}
     if any(r.get("material_note") for r in result.rows):
-        caption += ("; ! = polymer unsuited to the usual medium of the kind (ranked after "
-                    "the others)")
+        caption["material"] = ("! = polymer unsuited to the usual medium of the kind (ranked "
+                               "after the others)")
     table, footnotes = match_table(title, columns, console.width, caption=caption)
     console.print(table)
     for line in footnotes:
@@ -129,8 +130,11 @@ def render_match(result: svc.MatchResult, unit: str) -> None:
 
 
 #: Columns of the match table that may be left out on a narrow terminal, first to go first.
-#: The part code, size, verdict and notes stay; the code is never cut or wrapped.
-DROP_ORDER = ("driven by", "kind", "score", "stock", "material")
+#: The part code, size, stock and verdict always stay (the bench asks "is it on the shelf,
+#: or do I order it?"); the code is never cut or wrapped. Before the material goes, the
+#: notes move under the table.
+DROP_ORDER = ("driven by", "kind", "score")
+DROP_LAST = ("material",)
 #: The one column that wraps (at spaces); every other column keeps its values on one line.
 WRAPPING = "notes"
 
@@ -143,11 +147,11 @@ def _longest(name: str, values: list[str], *, words: bool = False) -> int:
 
 
 def match_table(title: str, columns: dict[str, list[str]], width: int, *,
-                caption: str | None = None) -> tuple[Table, list[str]]:
+                caption: dict[str, str] | None = None) -> tuple[Table, list[str]]:
     """The candidates as a rich table that fits ``width`` columns, and lines to print under
-    it. Part codes are never cut: the notes wrap at spaces first, then the columns of
-    :data:`DROP_ORDER` are left out, then the notes move under the table (``#3: ...``),
-    then the size wraps."""
+    it. Part codes are never cut and the stock never left out: the notes wrap at spaces
+    first, then the columns of :data:`DROP_ORDER` are left out, then the notes move under
+    the table (``#3: ...``), then :data:`DROP_LAST` goes, then the size wraps."""
     cols = dict(columns)
     wrapping = {WRAPPING}
     footnotes: list[str] = []
@@ -164,10 +168,15 @@ def match_table(title: str, columns: dict[str, list[str]], width: int, *,
         notes = cols.pop(WRAPPING)
         footnotes = [f"#{n}: {text}" for n, text in zip(cols["#"], notes, strict=True)
                      if text]
+    for name in DROP_LAST:
+        if need() <= width:
+            break
+        cols.pop(name, None)
     size = next((n for n in cols if n.startswith("size")), None)
     if need() > width and size:
         wrapping.add(size)
-    table = Table(title=title, caption=caption, header_style="bold")
+    shown = "; ".join(text for name, text in (caption or {}).items() if name in cols)
+    table = Table(title=title, caption=shown or None, header_style="bold")
     for name, values in cols.items():
         if name in wrapping:
             table.add_column(name, min_width=_longest(name, values, words=True))
