@@ -151,7 +151,7 @@ def match_table(title: str, columns: dict[str, list[str]], width: int, *,
     """The candidates as a rich table that fits ``width`` columns, and lines to print under
     it. Part codes are never cut and the stock never left out: the notes wrap at spaces
     first, then the columns of :data:`DROP_ORDER` are left out, then the notes move under
-    the table (``#3: ...``), then :data:`DROP_LAST` goes, then the size wraps."""
+    the table (``#3: ...``), then :data:`DROP_LAST` goes, then the size and the stock wrap."""
     cols = dict(columns)
     wrapping = {WRAPPING}
     footnotes: list[str] = []
@@ -175,6 +175,8 @@ def match_table(title: str, columns: dict[str, list[str]], width: int, *,
     size = next((n for n in cols if n.startswith("size")), None)
     if need() > width and size:
         wrapping.add(size)
+    if need() > width and "stock" in cols:  # last: the locations go one under the other
+        wrapping.add("stock")
     shown = "; ".join(text for name, text in (caption or {}).items() if name in cols)
     table = Table(title=title, caption=shown or None, header_style="bold")
     for name, values in cols.items():
