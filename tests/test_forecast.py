@@ -342,6 +342,40 @@ def test_fit_forecast_selects_per_class_and_forecasts_nonnegative() -> None:
     assert res.origin_paths.shape == (res.origins.size, 200, 6)
 
 
+def test_default_smoothing_constant_is_one_per_class_minimising_the_class_error() -> None:
+    """The default (issue 14 item 0, chosen by benchmarks/forecast_choice_cv.py): one SES
+    constant per SBC class, the grid point with the least class sum of each series' mean
+    squared one-step error over its mean squared one-step change. Reference: statsforecast's
+    SimpleExponentialSmoothing(alpha) (its fitted values give the errors, its forecast the
+    level), the minimum found by brute force over the grid."""
+    y = _intermittent(21, n=60, t=36)
+    opt = fc.FitOptions(horizon=6, methods=("ses",), combine=1)
+    assert opt.param_modes == ("class",)
+    res = fc.fit_forecast(y, options=opt)
+    assert set(res.method.tolist()) == {"ses@class"}
+    alpha = res.params["alpha"]
+    labels = res.classification.label
+    for c in np.unique(labels):
+        rows = np.flatnonzero(labels == c)
+        assert np.unique(alpha[rows]).size == 1
+        scores = []
+        for a in opt.ses_alphas:
+            total = 0.0
+            for i in rows:
+                ref = statsforecast_models.SimpleExponentialSmoothing(alpha=a).forecast(
+                    y=y[i], h=1, fitted=True)
+                mse = np.mean((y[i, 1:] - ref["fitted"][1:]) ** 2)
+                total += mse / np.mean(np.diff(y[i]) ** 2)
+            scores.append(total)
+        best = min(scores)
+        chosen = scores[list(opt.ses_alphas).index(alpha[rows[0]])]
+        assert chosen <= best * (1 + 1e-9)
+        for i in rows:
+            ref = statsforecast_models.SimpleExponentialSmoothing(alpha=alpha[i]).forecast(
+                y=y[i], h=1)
+            assert res.level[i] == pytest.approx(ref["mean"][0], rel=1e-9, abs=1e-12)
+
+
 def test_late_starting_series_ignore_leading_gaps() -> None:
     y = np.array([[np.nan] * 10 + [2, 0, 2, 0, 2, 0.0], [0] * 10 + [2, 0, 2, 0, 2, 0.0]])
     ses = fc.ses(y, 0.3)
