@@ -49,6 +49,9 @@ SWEEP = (*fcal.SWEEP, 0.995, 0.998)
 BASE = FitOptions(horizon=H)
 VARIANTS: dict[str, FitOptions] = {
     "defaults": BASE,
+    "constants per series and per class (former default)":
+        FitOptions(horizon=H, param_modes=("series", "class")),
+    "constants per series only": FitOptions(horizon=H, param_modes=("series",)),
     "adi 1.2": FitOptions(horizon=H, adi_cutoff=1.2),
     "adi 1.5": FitOptions(horizon=H, adi_cutoff=1.5),
     "adi 2.0": FitOptions(horizon=H, adi_cutoff=2.0),
@@ -56,16 +59,14 @@ VARIANTS: dict[str, FitOptions] = {
     "cv2 0.7": FitOptions(horizon=H, cv2_cutoff=0.7),
     "combine 1": FitOptions(horizon=H, combine=1),
     "combine 2": FitOptions(horizon=H, combine=2),
-    "constants per class only": FitOptions(horizon=H, param_modes=("class",)),
-    "constants per series only": FitOptions(horizon=H, param_modes=("series",)),
+    "single margin 0": FitOptions(horizon=H, single_margin=0.0),
     "select per series": FitOptions(horizon=H, select="series"),
     "season off": FitOptions(horizon=H, seasonal="off"),
     "selection origins 3": FitOptions(horizon=H, origins=3),
     "selection origins 9": FitOptions(horizon=H, origins=9),
     "no ses": FitOptions(horizon=H, methods=("croston", "sba", "tsb", "adida", "imapa")),
-    "no croston": FitOptions(horizon=H, methods=("ses", "sba", "tsb", "adida", "imapa")),
-    "per class + adi 1.5": FitOptions(horizon=H, param_modes=("class",), adi_cutoff=1.5),
-    "per class + origins 3": FitOptions(horizon=H, param_modes=("class",), origins=3),
+    "no tsb": FitOptions(horizon=H, methods=("ses", "croston", "sba", "adida", "imapa")),
+    "no aggregation": FitOptions(horizon=H, methods=("ses", "croston", "sba", "tsb")),
 }
 
 
