@@ -74,3 +74,57 @@ def test_each_contract_catches_a_planted_violation(planted):
     assert "spreadsheet edge" in text
     assert "inventory.stock is not allowed to import inventory.monthend" in out
     assert "inventory.core.units -> sqlalchemy" in out
+
+
+# ------------------------------------------------ faces reach a feature through its service
+
+#: Feature packages: a face (command line, web app) imports from them only ``service``.
+FEATURES = ("sheets", "bench", "catalog", "stock", "history", "forecast", "ordering",
+            "monthend", "people")
+FACES = ("cli", "web")
+
+
+def face_imports_past_services(source: str, feature_packages=FEATURES) -> list[tuple[int, str]]:
+    """(line, module) for every import of a feature module other than its ``service``, at
+    any depth of the file (imports inside functions and under TYPE_CHECKING count too)."""
+    import ast
+
+    found = []
+    for node in ast.walk(ast.parse(source)):
+        names: list[str] = []
+        if isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
+            parts = node.module.split(".")
+            names = ([f"{node.module}.{a.name}" for a in node.names] if len(parts) == 2
+                     else [node.module])
+        elif isinstance(node, ast.Import):
+            names = [a.name for a in node.names]
+        for name in names:
+            parts = name.split(".")
+            if (parts[0] == "inventory" and len(parts) > 1 and parts[1] in feature_packages
+                    and (len(parts) < 3 or parts[2] != "service")):
+                found.append((node.lineno, name))
+    return found
+
+
+def test_faces_reach_features_only_through_their_services():
+    """DEVELOPERS.md: the faces call the services and the shared core, nothing else. The
+    import-linter contracts forbid the tables, look-ups, ledger and queries; this check
+    closes the rest (a face importing ``history.jobs`` or ``monthend.report`` directly)."""
+    offenders = []
+    for face in FACES:
+        for path in sorted((ROOT / "inventory" / face).rglob("*.py")):
+            for line, name in face_imports_past_services(path.read_text()):
+                offenders.append(f"{path.relative_to(ROOT)}:{line} imports {name}")
+    assert not offenders, "\n".join(offenders)
+
+
+def test_the_face_check_catches_a_planted_import():
+    planted = ("from inventory.bench import service\n"
+               "from inventory.core import parse\n"
+               "def f():\n"
+               "    from inventory.history.jobs import record_job\n"
+               "    import inventory.monthend.report\n"
+               "    from inventory.stock import ledger, service as stock\n")
+    assert face_imports_past_services(planted) == [
+        (4, "inventory.history.jobs"), (5, "inventory.monthend.report"),
+        (6, "inventory.stock.ledger")]

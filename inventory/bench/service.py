@@ -17,7 +17,7 @@ from datetime import date
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from inventory.bench.fit_limits import FitRules
+from inventory.bench.fit_limits import FitRules as FitRules
 
 # the faces read their input through this module (svc.parse_dim, ...): re-exported
 from inventory.bench.inputs import NOT_BENCH_KINDS as NOT_BENCH_KINDS
@@ -27,6 +27,7 @@ from inventory.bench.inputs import parse_dim as parse_dim
 from inventory.bench.inputs import parse_kind as parse_kind
 from inventory.bench.inputs import parse_material as parse_material
 from inventory.bench.inputs import parse_tolerance as parse_tolerance
+from inventory.bench.match_query import CAUTION as CAUTION
 from inventory.bench.match_query import MatchQuery
 from inventory.bench.match_rows import DEFAULT_LIMIT as DEFAULT_LIMIT
 from inventory.bench.match_rows import ORDERABLE as ORDERABLE
@@ -46,7 +47,8 @@ if TYPE_CHECKING:
 
 #: Names kept in modules that load numpy or SQLAlchemy, re-exported on first use.
 _LATER = {"Shop": "match_run", "ShopCache": "match_run", "load_shop": "match_run",
-          "run_match": "match_run", "StockOnDemand": "stock_read"}
+          "run_match": "match_run", "StockOnDemand": "stock_read", "FitResult": "fit",
+          "sheet_title": "compat"}
 
 
 def __getattr__(name: str) -> Any:

@@ -21,7 +21,7 @@ from inventory.core.units import format_length
 
 if TYPE_CHECKING:  # the bench loads numpy: imported by the commands that need it
     from inventory.bench import service as svc
-    from inventory.bench.fit import FitResult
+    from inventory.bench.service import FitResult
 
 parts_app = typer.Typer(help="Look parts up in the shop's catalog.", no_args_is_help=True)
 
@@ -41,7 +41,7 @@ def _len(mm: float | None, unit: str) -> str:
 
 def _say_caution() -> None:
     """The caution as one line, never wrapped (the last line of every match and fit)."""
-    from inventory.bench.match_query import CAUTION
+    from inventory.bench.service import CAUTION
 
     console.print(CAUTION, highlight=False, markup=False, soft_wrap=True)
 
@@ -305,7 +305,7 @@ def fit_command(ctx: typer.Context,
     """Will PART work in a seat? With --fork and --seat: every check with its numbers and
     source. Alone (or with --fork only): every seat where it fits."""
     from inventory.bench import service as svc
-    from inventory.bench.fit import CAUTION, FitResult, FitRules
+    from inventory.bench.service import CAUTION, FitResult, FitRules
 
     rules = svc.hardness_rules(FitRules(), hardness_tol)
     ref = svc.check_hardness(hardness)
@@ -342,7 +342,7 @@ def compat(ctx: typer.Context,
     """Every seat of every fork family against every part of a kind that goes there,
     computed by the fit rules: a table, --json, or a workbook (--xlsx)."""
     from inventory.bench import service as svc
-    from inventory.bench.compat import sheet_title
+    from inventory.bench.service import sheet_title
 
     with reading(ctx) as s:
         report, path = svc.compat_matrix(s, kind=kind, standard=standard, xlsx=xlsx)

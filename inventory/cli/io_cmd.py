@@ -14,7 +14,7 @@ from inventory.core.names import EXPORT_TABLES as TABLES
 from inventory.core.names import IMPORT_KINDS as KINDS
 
 if TYPE_CHECKING:
-    from inventory.history.imports import ImportReport
+    from inventory.history.service import ImportReport
 
 ORDERS = {"dmy": "dmy", "day-first": "dmy", "dayfirst": "dmy", "mdy": "mdy",
           "month-first": "mdy", "monthfirst": "mdy"}

@@ -92,7 +92,7 @@ def plan(ctx: typer.Context,
 
 
 def _render(result) -> None:
-    from inventory.ordering.text import short_reason
+    from inventory.ordering.service import short_reason
 
     for o in result.orders:
         rows = [[ln.part, ln.qty, f"{ln.packs} x {ln.pack_size}", f"{ln.unit_cost}",

@@ -65,9 +65,9 @@ def receive(ctx: typer.Context,
     tolerance = options.percent(tolerance, "--tolerance", high=1.0)
     with unit_of_work(ctx) as s:
         if order:
-            from inventory.ordering.orders import receive_against_order
+            from inventory.ordering.service import receive_against
 
-            got = receive_against_order(s, order, service.Receipt(
+            got = receive_against(s, order, service.Receipt(
                 part, qty, unit_cost, lot=lot, cured=cured, location=location, ts=ts), tolerance)
             _report([got.movement], "received", part)
             say(got.summary)

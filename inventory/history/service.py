@@ -18,7 +18,7 @@ from sqlmodel import Session
 from inventory.sheets.kinds import KINDS, service_level
 
 if TYPE_CHECKING:
-    from inventory.history.imports import ImportReport
+    from inventory.history.imports import ImportReport as ImportReport
 
 #: What ``export`` can write (inventory.history.exports uses this list).
 TABLES = ("parts", "stock", "lots", "movements", "jobs")

@@ -16,7 +16,8 @@ from sqlalchemy import func, select
 from sqlmodel import Session
 
 from inventory.core.tables import Movement
-from inventory.monthend.records import Month, last_complete
+from inventory.monthend.records import Month as Month
+from inventory.monthend.records import last_complete
 
 if TYPE_CHECKING:  # the report, its writers and the planner load numpy, scipy, openpyxl,
     # matplotlib: imported by the calls that use them, so a face can import this module
@@ -51,6 +52,18 @@ def write_month_end(session: Session, month: str | Month, *, today: date,
     x = write_month_workbook(xlsx, report) if xlsx else None
     h = write_month_html(html, report) if html else None
     return MonthEndFiles(report, x, h)
+
+
+def month_html(session: Session, month: str | Month, *, today: date) -> str:
+    """The month-end report as one HTML page (the web app's report page), checked against a
+    closed month's stored totals as the files of :func:`write_month_end` are."""
+    from inventory.monthend.closing import verify
+    from inventory.monthend.html import render_html
+    from inventory.monthend.report import month_report
+
+    report = month_report(session, month, today=today)
+    verify(session, report)
+    return render_html(report)
 
 
 def latest_complete_month(session: Session, today: date) -> Month:

@@ -172,6 +172,24 @@ def receive_order(session: Session, ref: str, part: str, qty: int, *,
                                                        location=location)).summary
 
 
+def receive_against(session: Session, ref: str, receipt: Any, tolerance: float | None = None):
+    """Book ``receipt`` (a :class:`inventory.stock.service.Receipt`) against open purchase
+    order ``ref``, over-delivery allowed up to ``tolerance`` (the order's default when None):
+    the result has the ``movement`` and a one-line ``summary``."""
+    from inventory.ordering.orders import receive_against_order
+
+    if tolerance is None:
+        return receive_against_order(session, ref, receipt)
+    return receive_against_order(session, ref, receipt, tolerance)
+
+
+def short_reason(line: Any) -> str:
+    """Why a plan line orders what it orders, in a few words (the command line's table)."""
+    from inventory.ordering.text import short_reason as reason
+
+    return reason(line)
+
+
 def open_orders(session: Session) -> list:
     from inventory.ordering.orders import list_orders
 

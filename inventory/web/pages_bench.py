@@ -82,7 +82,7 @@ async def bench_page(request: Request) -> Response:
         except InventoryError as exc:
             return choices, None, {field_of(exc, "id", BENCH_FIELDS): message_of(exc)}
     choices, result, errors = await web.read(go, who)
-    from inventory.bench.fit import CAUTION
+    from inventory.bench.service import CAUTION
 
     return page(request, "bench.html", who, status=400 if errors else 200, values=q,
                 errors=errors, result=result, caution=CAUTION, levels=SERVICE_LEVELS,
@@ -110,7 +110,7 @@ async def _part_view(request: Request, who: dict, code: str, errors: dict | None
         stock = web.shop_cache.shop(s).stock_of(spec.code)
         return spec, fits, stock, None, bench_choices(s)
     spec, fits, stock, error, choices = await web.read(go, who)
-    from inventory.bench.fit import CAUTION
+    from inventory.bench.service import CAUTION
 
     if spec is None:
         return page(request, "bench.html", who, status=404, values={"code": code},
@@ -173,7 +173,7 @@ async def _bench_again(request: Request, who: dict, form, errors: dict) -> Respo
 
     parts = urlsplit(back)
     q = dict(parse_qsl(parts.query))
-    from inventory.bench.fit import CAUTION
+    from inventory.bench.service import CAUTION
 
     def go(s):
         choices = bench_choices(s)

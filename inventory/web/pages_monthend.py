@@ -21,8 +21,7 @@ from inventory.web.state import Web
 def month_of(s, text: str | None):
     """The month asked for, read by the one month parser (``2026-11``, ``11/2026``,
     ``Nov 2026``, as on the command line); none: the latest complete month."""
-    from inventory.monthend.records import Month
-    from inventory.monthend.service import latest_complete_month
+    from inventory.monthend.service import Month, latest_complete_month
 
     if not text:
         return latest_complete_month(s, date.today())
@@ -66,10 +65,9 @@ async def month_report(request: Request) -> Response:
     label = request.path_params["month"]
 
     def go(s):
-        from inventory.monthend.html import render_html
-        from inventory.monthend.report import month_report as build
+        from inventory.monthend.service import month_html
 
-        return render_html(build(s, month_of(s, label), today=date.today()))
+        return month_html(s, month_of(s, label), today=date.today())
     try:
         html = await web.read(go, who)
     except FormError as exc:

@@ -61,7 +61,7 @@ async def stock_page(request: Request, errors: dict | None = None, values: dict 
 
         return stock.storage_limits(s, lines)
     limits_ = await web.read(limits, who) if lines else []
-    from inventory.bench.fit import CAUTION
+    from inventory.bench.service import CAUTION
 
     errs = dict(errors or {})
     if err:
