@@ -82,6 +82,10 @@ def test_each_contract_catches_a_planted_violation(planted):
 FEATURES = ("sheets", "bench", "catalog", "stock", "history", "forecast", "ordering",
             "monthend", "people")
 FACES = ("cli", "web")
+#: The demo's walk through every flow is a face too; the demo's builder is not (it writes the
+#: invented shop from its source files with the catalog loader and the import engine, as a
+#: data generator, so it may use their parts).
+FACE_FILES = ("demo/tour.py",)
 
 
 def face_imports_past_services(source: str, feature_packages=FEATURES) -> list[tuple[int, str]]:
@@ -111,10 +115,10 @@ def test_faces_reach_features_only_through_their_services():
     import-linter contracts forbid the tables, look-ups, ledger and queries; this check
     closes the rest (a face importing ``history.jobs`` or ``monthend.report`` directly)."""
     offenders = []
-    for face in FACES:
-        for path in sorted((ROOT / "inventory" / face).rglob("*.py")):
-            for line, name in face_imports_past_services(path.read_text()):
-                offenders.append(f"{path.relative_to(ROOT)}:{line} imports {name}")
+    paths = [p for face in FACES for p in sorted((ROOT / "inventory" / face).rglob("*.py"))]
+    for path in paths + [ROOT / "inventory" / f for f in FACE_FILES]:
+        for line, name in face_imports_past_services(path.read_text()):
+            offenders.append(f"{path.relative_to(ROOT)}:{line} imports {name}")
     assert not offenders, "\n".join(offenders)
 
 

@@ -28,7 +28,7 @@ from inventory.bench.inputs import parse_kind as parse_kind
 from inventory.bench.inputs import parse_material as parse_material
 from inventory.bench.inputs import parse_tolerance as parse_tolerance
 from inventory.bench.match_query import CAUTION as CAUTION
-from inventory.bench.match_query import MatchQuery
+from inventory.bench.match_query import MatchQuery as MatchQuery
 from inventory.bench.match_rows import DEFAULT_LIMIT as DEFAULT_LIMIT
 from inventory.bench.match_rows import ORDERABLE as ORDERABLE
 from inventory.bench.match_rows import RING_KINDS as RING_KINDS
@@ -47,7 +47,7 @@ if TYPE_CHECKING:
 
 #: Names kept in modules that load numpy or SQLAlchemy, re-exported on first use.
 _LATER = {"Shop": "match_run", "ShopCache": "match_run", "load_shop": "match_run",
-          "run_match": "match_run", "StockOnDemand": "stock_read", "FitResult": "fit",
+          "run_match": "match_run", "StockOnDemand": "stock_read", "FitResult": "fit", "fit": "fit",
           "sheet_title": "compat"}
 
 

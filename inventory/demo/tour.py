@@ -20,8 +20,7 @@ from inventory.demo.build import demo_dir
 from inventory.stock import service as stock
 
 if TYPE_CHECKING:
-    from inventory.monthend.report import ReorderSource
-    from inventory.monthend.service import MonthEndFiles
+    from inventory.monthend.service import MonthEndFiles, ReorderSource
 
 
 def tour(url: str, reports: str = "reports") -> None:
@@ -61,30 +60,28 @@ def messy_history_tour(url: str, reports: str) -> None:
     """Preview the demo's messy history workbook (odd headers, free-text fork names, day-first
     dates), answer the review workbook, apply, and show that a re-run changes nothing; then
     preview the broken variant, which lists every bad cell and writes nothing."""
-    from inventory.history.imports import ImportSettings, run_import
-    from inventory.sheets.review import answer_review
+    from inventory.history.service import answer_review_with_best, import_file
 
     folder = demo_dir()
     messy = folder / "messy_history.xlsx"
     review = Path(reports) / "messy_history.review.xlsx"
     engine = make_engine(url)
     with Session(engine) as s:
-        rep = run_import(s, messy, ImportSettings(kind="history", review=review))
+        rep = import_file(s, messy, kind="history", apply=False, review=review)
     held = [f.text for f in rep.forks if f.how == "review"]
     say(f"Preview of {messy.name}: {rep.rows} rows, header on row {rep.header_row}, "
         f"dates {rep.dates}; {len(held)} fork names need a person: {', '.join(held)}")
     say(f"Review workbook with candidates in drop-down lists: {rep.review_path}")
-    answer_review(review)  # the tour takes the best candidate, as a person might
+    answer_review_with_best(review)  # the tour takes the best candidate, as a person might
     with transaction(engine) as s:
-        rep = run_import(s, messy, ImportSettings(kind="history", resolutions=review),
-                         apply=True)
+        rep = import_file(s, messy, kind="history", apply=True, resolutions=review)
     say(f"Applied with the answers: {rep.new} new job(s) as import batch {rep.batch_id}; "
         "the answers are remembered for next time.")
     with transaction(engine) as s:
-        rep = run_import(s, messy, ImportSettings(kind="history"), apply=True)
+        rep = import_file(s, messy, kind="history", apply=True)
     say(f"Re-run: {rep.new} new, {rep.already} already applied: nothing written.")
     with Session(engine) as s:
-        rep = run_import(s, folder / "messy_history_broken.xlsx", ImportSettings(kind="history"))
+        rep = import_file(s, folder / "messy_history_broken.xlsx", kind="history", apply=False)
     say(f"A broken copy: {len(rep.problems)} problems, each at its cell, nothing written, e.g.")
     for p in rep.problems[:3]:
         say(f"  {p}")
@@ -104,8 +101,7 @@ def bench_tour(url: str) -> None:
     where one fits), the ranked match (stock and standard sizes) with verdicts for that
     seat, and the full fit of the stocked ring that came out of it."""
     from inventory.bench import service as svc
-    from inventory.bench.fit import fit
-    from inventory.bench.matching import MatchQuery
+    from inventory.bench.service import MatchQuery, fit
     from inventory.cli.bench_cmd import render_fit, render_match
     from inventory.core.convert import all_seats
     from inventory.core.model import PartKind
@@ -196,8 +192,7 @@ def plan_tour(url: str, reports_dir: str | Path) -> None:
     ``reports_dir`` and prints a short summary."""
     import json
 
-    from inventory.ordering.service import PlanSpec, make_plan, plan_to_dict
-    from inventory.ordering.workbook import write_plan_workbook
+    from inventory.ordering.service import PlanSpec, make_plan, plan_to_dict, write_plan_workbook
 
     out = Path(reports_dir)
     out.mkdir(parents=True, exist_ok=True)

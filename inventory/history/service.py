@@ -183,6 +183,14 @@ def import_deciding(session: Session, file: str | Path, *, kind: str, apply: boo
     return import_file(session, file, kind=kind, apply=apply, **settings)
 
 
+def answer_review_with_best(review: str | Path) -> None:
+    """Fill a review workbook's answers with each row's best candidate, as a person who
+    accepts every suggestion would (the demo tour's stand-in for that person)."""
+    from inventory.sheets.review import answer_review
+
+    answer_review(Path(review))
+
+
 def fork_codes(session: Session) -> list[str]:
     """Every fork family code, for pickers."""
     from sqlmodel import select

@@ -190,6 +190,13 @@ def short_reason(line: Any) -> str:
     return reason(line)
 
 
+def write_plan_workbook(plan: Plan, path: Any) -> Path:
+    """The plan as a workbook at ``path`` (see :mod:`inventory.ordering.workbook`)."""
+    from inventory.ordering.workbook import write_plan_workbook as write
+
+    return write(plan, path)
+
+
 def open_orders(session: Session) -> list:
     from inventory.ordering.orders import list_orders
 
