@@ -512,7 +512,7 @@ def test_part_codes_are_never_cut_at_80_columns(shop, monkeypatch, capsys):
 def test_match_table_drops_columns_before_cutting_codes():
     from rich.console import Console
 
-    from inventory.cli.bench_cmd import DROP_ORDER, match_table
+    from inventory.cli.match_view import DROP_ORDER, match_table
 
     long_code = "OR-M25.8-1.80-NBR70-SPECIAL"
     columns = {"#": ["1"], "part": [long_code], "kind": ["o_ring"], "size mm": ["25.80 x 1.80"],
