@@ -2,7 +2,7 @@
 its own per-part target, chosen from fill-vs-stock curves measured inside training, hold less
 stock at equal pooled fill than one target for all parts?
 
-    python benchmarks/forecast_class_split_cv.py [--csv FILE] [--splits 5]
+    python benchmarks/forecast_class_split_cv.py [--csv FILE] [--splits 5] [--seed 7]
 
 Data: ../shared/data/carparts_dev.csv (override with --csv or INVENTORY_CARPARTS_CSV);
 skipped with a message when absent. Outer origins whose 6 scored months end before month 43
@@ -21,7 +21,11 @@ series into halves (seeded). For each half:
   ties t_A = t_B, fewer choices to overfit); those targets applied to the outer fit's
   distribution and simulated on the scored months;
 - the current rule ("uniform": one per-part target, the pooled expected fill meeting the
-  asked one, :func:`inventory.ordering.policy.pooled_order_up_to_levels`) swept the same way.
+  asked one, :func:`inventory.ordering.policy.pooled_order_up_to_levels`) swept the same way;
+- whole-unit rounding: one per-part target swept, each level rounded to the nearest whole
+  level in expected cycle fill instead of up ("nearest"; "nearest C" on class C only);
+  parts whose forecast over lead time plus review is below a threshold left unstocked
+  ("drop<threshold>", the rest swept with the uniform rule; "drop0.0" is uniform itself).
 
 Both are read at 95.0 % ACHIEVED fill (linear interpolation over the sweep) and divided by
 SES with z tuned in hindsight on the same half (``forecast_calibration.py``'s reference).
@@ -64,6 +68,7 @@ GRID = (0.3, 0.5, 0.6, 0.7, 0.8, 0.85, 0.88, 0.9, 0.92, 0.94, 0.95, 0.96, 0.97, 
 SWEEP = fcal.SWEEP
 SWEEP_TOP = (*fcal.SWEEP, 0.995, 0.998)
 DROP = (0.0, 0.05, 0.1, 0.2)
+PART_SWEEP = (0.85, 0.9, 0.93, 0.95, 0.96, 0.97, 0.98, 0.985, 0.99, 0.995, 0.998, 0.999)
 CLASSES = ("A", "B", "C")
 
 
@@ -111,6 +116,18 @@ def split_targets(curves: tuple[np.ndarray, np.ndarray, float], f: float, tie_ab
     return GRID[pick[0]], GRID[pick[1]], GRID[pick[2]]
 
 
+def nearest_levels(dist, t: float, rows: np.ndarray) -> np.ndarray:
+    """Per-part target t, each part's level rounded to the NEAREST whole level in expected
+    cycle fill (one unit less when the level below misses t by less than the level found
+    overshoots it) on ``rows``; rounded up (the library's rule) elsewhere."""
+    up = policy.order_up_to_levels(dist, t, lead_time=fcal.LEAD, review_period=fcal.REVIEW)
+    f_up = policy.cycle_fill_rate(dist, up, lead_time=fcal.LEAD, review_period=fcal.REVIEW)
+    f_dn = policy.cycle_fill_rate(dist, np.maximum(up - 1, 0), lead_time=fcal.LEAD,
+                                  review_period=fcal.REVIEW)
+    down = rows & (up > 0) & (t - f_dn < f_up - t)
+    return np.where(down, up - 1, up)
+
+
 def one_unit(sub: np.ndarray, pos: np.ndarray, setup: bt.BacktestSetup) -> dict[str, float]:
     train, test = sub[:, :-H], sub[:, -H:]
     p = pos[:-H]
@@ -129,6 +146,12 @@ def one_unit(sub: np.ndarray, pos: np.ndarray, setup: bt.BacktestSetup) -> dict[
             t = np.where(cls == "A", ta, np.where(cls == "B", tb, tc))
             lv = policy.order_up_to_levels(dist, t, lead_time=fcal.LEAD,
                                            review_period=fcal.REVIEW)
+            res.append(fcal.simulate(lv, test))
+        out[name] = fcal.stock_at_fill([r[0] for r in res], [r[1] for r in res], 0.95)
+    for name, only_c in (("nearest", False), ("nearest C", True)):
+        res = []
+        for t in PART_SWEEP:
+            lv = nearest_levels(dist, t, (cls == "C") if only_c else np.ones(len(dist), bool))
             res.append(fcal.simulate(lv, test))
         out[name] = fcal.stock_at_fill([r[0] for r in res], [r[1] for r in res], 0.95)
     cover_mean = dist.mean * (fcal.LEAD + fcal.REVIEW)
@@ -152,6 +175,7 @@ def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--csv", default=os.environ.get("INVENTORY_CARPARTS_CSV", str(DEFAULT_CSV)))
     ap.add_argument("--splits", type=int, default=5)
+    ap.add_argument("--seed", type=int, default=7)
     args = ap.parse_args(argv)
     path = Path(args.csv)
     if not path.exists():
@@ -162,7 +186,7 @@ def main(argv: list[str] | None = None) -> int:
     y, pos = table.values, table.season_pos()
     assert pos is not None
     n = y.shape[0]
-    rng = np.random.default_rng(7)
+    rng = np.random.default_rng(args.seed)
     halves = []
     for _ in range(args.splits):
         perm = rng.permutation(n)
@@ -170,7 +194,8 @@ def main(argv: list[str] | None = None) -> int:
     setup = bt.BacktestSetup(horizon=H, allocation="uniform", calibrate=False)
     t0 = time.perf_counter()
     print(f"load average {os.getloadavg()[0]:.1f}")
-    names = ["uniform", "split3", "split2"] + [f"drop{m}" for m in DROP]
+    names = (["uniform", "split3", "split2", "nearest", "nearest C"]
+             + [f"drop{m}" for m in DROP])
     print("| end | half | " + " | ".join(f"{k} / SES" for k in names) + " |")
     print("|---|---|" + "---|" * len(names))
     rows = []
