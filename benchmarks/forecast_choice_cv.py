@@ -10,7 +10,7 @@ skipped with a message when absent. Outer origins whose 6 scored months end befo
 ``forecast_calibration.py`` scores is used; on each, ``--splits`` random splits of the
 series into halves (seeded). For each half and each variant of
 :class:`inventory.forecast.fit_records.FitOptions`: forecast and distribution fitted on the
-training months, the pooled uniform policy swept over asked fill rates, its stock at 95.0 %
+training months (the variance law's variants in ``LAWS``), the pooled uniform policy swept over asked fill rates, its stock at 95.0 %
 ACHIEVED fill interpolated (as ``forecast_calibration.py``). Printed: per variant, on how
 many (origin, half) units it holds less stock than the defaults, the median change and the
 median and worst ratio to SES with z tuned in hindsight on the same half. A variant is
@@ -38,7 +38,9 @@ sys.path.insert(0, str(ROOT / "benchmarks"))
 
 import forecast_calibration as fcal  # noqa: E402
 
+from inventory.forecast import methods as fc  # noqa: E402
 from inventory.forecast.fit_records import FitOptions  # noqa: E402
+from inventory.forecast.uncertainty import LawOptions  # noqa: E402
 from inventory.ordering import backtest as bt  # noqa: E402
 from inventory.ordering.simulate import policy_levels_batch  # noqa: E402
 
@@ -70,10 +72,20 @@ VARIANTS: dict[str, FitOptions] = {
 }
 
 
-def stock_95(sub: np.ndarray, pos: np.ndarray, opt: FitOptions) -> float:
+LAWS: dict[str, LawOptions] = {
+    "law: exponent at most 1.1": LawOptions(b_max=1.1),
+    "law: exponent at most 1.25": LawOptions(b_max=1.25),
+    "law: exponent uncapped": LawOptions(b_max=3.0),
+    "law: per SBC class": LawOptions(by="class"),
+}
+
+
+def stock_95(sub: np.ndarray, pos: np.ndarray, name: str) -> float:
     train, test = sub[:, :-H], sub[:, -H:]
-    setup = bt.BacktestSetup(horizon=H, allocation="uniform", calibrate=False, options=opt)
-    dist = bt._fit(train, pos[:-H], setup).dist.dist
+    opt = VARIANTS.get(name, BASE)
+    res = fc.fit_forecast(train, season_pos=pos[:-H], options=opt)
+    dist = fc.fit_distribution(train, res, cover=fcal.LEAD + fcal.REVIEW, hold=H,
+                               law=LAWS.get(name, LawOptions())).dist
     lvs = policy_levels_batch(dist, SWEEP, allocation="uniform", lead_time=fcal.LEAD,
                               review_period=fcal.REVIEW)
     res = [fcal.simulate(lv, test) for lv in lvs]
@@ -85,7 +97,7 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--csv", default=os.environ.get("INVENTORY_CARPARTS_CSV", str(DEFAULT_CSV)))
     ap.add_argument("--splits", type=int, default=5)
     ap.add_argument("--seed", type=int, default=7)
-    ap.add_argument("--variants", nargs="+", default=list(VARIANTS))
+    ap.add_argument("--variants", nargs="+", default=[*VARIANTS, *LAWS])
     args = ap.parse_args(argv)
     path = Path(args.csv)
     if not path.exists():
@@ -111,7 +123,7 @@ def main(argv: list[str] | None = None) -> int:
             mu = fcal.ses_mean(sub[:, :-H])
             z = fcal.smallest_z(mu, sub[:, -H:], 0.95)
             ses = fcal.simulate(fcal.sqrt_levels(mu, z), sub[:, -H:])[1]
-            units.append({k: stock_95(sub, pos[:e], VARIANTS[k]) / ses for k in names})
+            units.append({k: stock_95(sub, pos[:e], k) / ses for k in names})
         print(f"  end {e} done, {time.perf_counter() - t0:.0f} s", flush=True)
     print(f"\nload average {os.getloadavg()[0]:.1f}, {time.perf_counter() - t0:.0f} s\n")
     print("| variant | less stock than defaults | median change | median ratio to SES "
