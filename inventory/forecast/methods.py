@@ -9,10 +9,11 @@ re-exported here (:func:`ses`, :func:`croston`, :func:`sba`, :func:`tsb`, :func:
 :func:`fit_forecast`
     1. Classifies each series (ADI / CV^2, Syntetos-Boylan-Croston cut-offs).
     2. Runs every candidate method once over a grid of smoothing constants and picks the
-       constants by in-sample one-step squared error, both per series ("ses") and per SBC
-       class ("ses@class": one constant for the class, the sum of each series' mean squared
-       error over its own scale), because one slow series has too few demands to pin a
-       constant down.
+       constants by in-sample one-step squared error per SBC class ("ses@class": one
+       constant for the class, the sum of each series' mean squared error over its own
+       scale), because one slow series has too few demands to pin a constant down; per
+       series ("ses") on request (``FitOptions.param_modes``: per class only is the
+       default, chosen by cross-validation, see :class:`FitOptions`).
     3. Scores every candidate in a rolling-origin backtest inside the data (``origins``
        origins one period apart, each scored on the next ``horizon`` periods) with RMSSE,
        and chooses per SBC class the best single candidate or a forecast combination (the
