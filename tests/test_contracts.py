@@ -132,3 +132,31 @@ def test_the_face_check_catches_a_planted_import():
     assert face_imports_past_services(planted) == [
         (4, "inventory.history.jobs"), (5, "inventory.monthend.report"),
         (6, "inventory.stock.ledger")]
+
+
+# ------------------------------------------------ the services' doors are typed, not **kwargs
+
+def service_kwargs(source: str) -> list[tuple[int, str]]:
+    """(line, name) of each public function of a service module taking ``**kwargs``."""
+    import ast
+
+    return [(node.lineno, node.name) for node in ast.parse(source).body
+            if isinstance(node, ast.FunctionDef | ast.AsyncFunctionDef)
+            and not node.name.startswith("_") and node.args.kwarg is not None]
+
+
+def test_services_name_their_parameters():
+    """A face calls a service with named parameters or a record (DEVELOPERS.md, house
+    limits): a ``**kwargs`` pass-through would hide the parameters the limit counts and
+    leave a typo to fail deep inside the feature."""
+    offenders = [f"{path.relative_to(ROOT)}:{line} {name}(**...)"
+                 for path in sorted((ROOT / "inventory").glob("*/service.py"))
+                 for line, name in service_kwargs(path.read_text())]
+    assert not offenders, "\n".join(offenders)
+
+
+def test_the_kwargs_check_catches_a_planted_pass_through():
+    planted = ("def book(session, part, **kwargs):\n    pass\n"
+               "def _inner(**kw):\n    pass\n"
+               "def named(session, *, reason):\n    pass\n")
+    assert service_kwargs(planted) == [(1, "book")]

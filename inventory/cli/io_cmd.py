@@ -82,16 +82,17 @@ def import_file(
         order = ORDERS.get(date_order.strip().lower())
         if order is None:
             raise InventoryError(f"bad --date-order {date_order!r}: expected dmy or mdy")
-    settings = dict(sheet=sheet, mapping=parse_maps(maps), resolutions=resolutions,
-                    review=review, date_order=order, stock=not no_stock,
-                    stock_before_ledger=stock_before_ledger)
+    settings = service.ImportSettings(kind=kind, sheet=sheet, mapping=parse_maps(maps),
+                                      resolutions=resolutions, review=review,
+                                      date_order=order, stock=not no_stock,
+                                      stock_before_ledger=stock_before_ledger)
     if resolutions is not None and not resolutions.exists():
         raise InventoryError(f"{resolutions}: no such file", hint="give the review workbook "
                              "written by the preview")
     if apply:
         try:
             with unit_of_work(ctx) as s:
-                rep = service.import_file(s, file, kind=kind, apply=True, **settings)
+                rep = service.import_file(s, file, settings, apply=True)
         except InventoryError as exc:
             failed = getattr(exc, "report", None)
             if failed is not None:
@@ -100,7 +101,7 @@ def import_file(
         _render(rep, as_json, "applied" if rep.applied else "nothing new")
         return
     with reading(ctx) as s:
-        rep = service.import_file(s, file, kind=kind, apply=False, **settings)
+        rep = service.import_file(s, file, settings, apply=False)
     _render(rep, as_json, "preview")
     if not rep.ok:
         raise rep.error()

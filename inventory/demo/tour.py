@@ -60,28 +60,30 @@ def messy_history_tour(url: str, reports: str) -> None:
     """Preview the demo's messy history workbook (odd headers, free-text fork names, day-first
     dates), answer the review workbook, apply, and show that a re-run changes nothing; then
     preview the broken variant, which lists every bad cell and writes nothing."""
-    from inventory.history.service import answer_review_with_best, import_file
+    from inventory.history.service import ImportSettings, answer_review_with_best, import_file
 
     folder = demo_dir()
     messy = folder / "messy_history.xlsx"
     review = Path(reports) / "messy_history.review.xlsx"
     engine = make_engine(url)
     with Session(engine) as s:
-        rep = import_file(s, messy, kind="history", apply=False, review=review)
+        rep = import_file(s, messy, ImportSettings(kind="history", review=review), apply=False)
     held = [f.text for f in rep.forks if f.how == "review"]
     say(f"Preview of {messy.name}: {rep.rows} rows, header on row {rep.header_row}, "
         f"dates {rep.dates}; {len(held)} fork names need a person: {', '.join(held)}")
     say(f"Review workbook with candidates in drop-down lists: {rep.review_path}")
     answer_review_with_best(review)  # the tour takes the best candidate, as a person might
     with transaction(engine) as s:
-        rep = import_file(s, messy, kind="history", apply=True, resolutions=review)
+        rep = import_file(s, messy, ImportSettings(kind="history", resolutions=review),
+                          apply=True)
     say(f"Applied with the answers: {rep.new} new job(s) as import batch {rep.batch_id}; "
         "the answers are remembered for next time.")
     with transaction(engine) as s:
-        rep = import_file(s, messy, kind="history", apply=True)
+        rep = import_file(s, messy, ImportSettings(kind="history"), apply=True)
     say(f"Re-run: {rep.new} new, {rep.already} already applied: nothing written.")
     with Session(engine) as s:
-        rep = import_file(s, folder / "messy_history_broken.xlsx", kind="history", apply=False)
+        rep = import_file(s, folder / "messy_history_broken.xlsx", ImportSettings(kind="history"),
+                          apply=False)
     say(f"A broken copy: {len(rep.problems)} problems, each at its cell, nothing written, e.g.")
     for p in rep.problems[:3]:
         say(f"  {p}")

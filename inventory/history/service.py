@@ -19,6 +19,16 @@ from inventory.sheets.kinds import KINDS, service_level
 
 if TYPE_CHECKING:
     from inventory.history.imports import ImportReport as ImportReport
+    from inventory.history.imports import ImportSettings as ImportSettings
+
+
+def __getattr__(name: str) -> Any:
+    """:class:`ImportSettings` on first use (the import engine loads when an import runs)."""
+    if name == "ImportSettings":
+        from inventory.history.imports import ImportSettings
+
+        return ImportSettings
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 #: What ``export`` can write (inventory.history.exports uses this list).
 TABLES = ("parts", "stock", "lots", "movements", "jobs")
@@ -27,14 +37,13 @@ __all__ = ["KINDS", "TABLES", "JobEntry", "add_job", "add_to_job", "export_table
            "job_detail", "list_jobs", "resolve_fork", "service_level", "write_template"]
 
 
-def import_file(session: Session, file: str | Path, *, kind: str, apply: bool,
-                **settings: Any) -> ImportReport:
-    """Preview (``apply=False``) or apply an import of ``file`` as ``kind``; ``settings`` are
-    the fields of :class:`inventory.history.imports.ImportSettings` (sheet, mapping,
-    resolutions, review, date_order, stock, stock_before_ledger, ...)."""
-    from inventory.history.imports import ImportSettings, run_import
+def import_file(session: Session, file: str | Path, settings: ImportSettings, *,
+                apply: bool) -> ImportReport:
+    """Preview (``apply=False``) or apply an import of ``file`` as told by ``settings`` (the
+    kind, sheet, mapping, resolutions, review, date order, stock, ...)."""
+    from inventory.history.imports import run_import
 
-    return run_import(session, Path(file), ImportSettings(kind=kind, **settings), apply=apply)
+    return run_import(session, Path(file), settings, apply=apply)
 
 
 def export_table(session: Session, table: str, target: str | Path, *,
@@ -140,11 +149,14 @@ def add_to_job(session: Session, ref: str, part: str, qty: int) -> int:
     return taken
 
 
-def list_jobs(session: Session, **filters: Any) -> list[Any]:
-    """Jobs with their lines (filters: since, until, fork, limit, newest_first)."""
+def list_jobs(session: Session, *, since: date | None = None, until: date | None = None,
+              fork: str | None = None, limit: int | None = None,
+              newest_first: bool = True) -> list[Any]:
+    """Jobs with their lines, by date range and fork family (a voided job listed too)."""
     from inventory.history.jobs import list_jobs as rows
 
-    return rows(session, **filters)
+    return rows(session, since=since, until=until, fork=fork, limit=limit,
+                newest_first=newest_first)
 
 
 def job_detail(session: Session, ref: str) -> tuple[Any, list[Any]]:
@@ -157,8 +169,8 @@ def job_detail(session: Session, ref: str) -> tuple[Any, list[Any]]:
 # -- imports decided in a page ------------------------------------------------------------------
 
 
-def import_deciding(session: Session, file: str | Path, *, kind: str, apply: bool,
-                    forks: dict[str, str] | None = None, **settings: Any) -> ImportReport:
+def import_deciding(session: Session, file: str | Path, settings: ImportSettings, *,
+                    apply: bool, forks: dict[str, str] | None = None) -> ImportReport:
     """:func:`import_file` after remembering ``forks`` (free fork text -> fork family code,
     decided by a person) as aliases, in the caller's transaction: a preview's caller rolls
     it back, an apply keeps them with the import (or loses both when it fails)."""
@@ -180,7 +192,7 @@ def import_deciding(session: Session, file: str | Path, *, kind: str, apply: boo
         row.fork_family_id = fam.id
         session.add(row)
     session.flush()
-    return import_file(session, file, kind=kind, apply=apply, **settings)
+    return import_file(session, file, settings, apply=apply)
 
 
 def answer_review_with_best(review: str | Path) -> None:

@@ -90,31 +90,36 @@ def book_count(session: Session, count: Count) -> list[Movement]:
     return list(ledger.count(session, count))
 
 
-def book_move(session: Session, part: str, qty: int, **kwargs: Any) -> list[Movement]:
+def book_move(session: Session, part: str, qty: int, *, from_location: str, to_location: str,
+              ts: datetime | None = None, user: str | None = None) -> list[Movement]:
     """:func:`inventory.stock.ledger.move` (two movements per lot moved)."""
-    return list(ledger.move(session, part, qty, **kwargs))
+    return list(ledger.move(session, part, qty, from_location=from_location,
+                            to_location=to_location, ts=ts, user=user))
 
 
-def reverse(session: Session, movement: int, **kwargs: Any) -> Movement:
+def reverse(session: Session, movement: int, *, reason: str, ts: datetime | None = None,
+            user: str | None = None) -> Movement:
     """:func:`inventory.stock.returns.reverse`: a new movement undoing one booked by mistake."""
     from inventory.stock import returns
 
-    return returns.reverse(session, movement, **kwargs)
+    return returns.reverse(session, movement, reason=reason, ts=ts, user=user)
 
 
-def return_from_job(session: Session, job: str, part: str, qty: int, **kwargs: Any) -> Any:
+def return_from_job(session: Session, job: str, part: str, qty: int, *,
+                    ts: datetime | None = None, user: str | None = None) -> Any:
     """:func:`inventory.stock.returns.return_from_job` (its result has ``movements`` and
     ``note``)."""
     from inventory.stock import returns
 
-    return returns.return_from_job(session, job, part, qty, **kwargs)
+    return returns.return_from_job(session, job, part, qty, ts=ts, user=user)
 
 
-def void_job(session: Session, job: str, **kwargs: Any) -> Any:
+def void_job(session: Session, job: str, *, reason: str, ts: datetime | None = None,
+             user: str | None = None) -> Any:
     """:func:`inventory.stock.returns.void_job` (its result has ``movements`` and ``note``)."""
     from inventory.stock import returns
 
-    return returns.void_job(session, job, **kwargs)
+    return returns.void_job(session, job, reason=reason, ts=ts, user=user)
 
 
 def storage_limits(session: Session, lines: list[StockLine], *,

@@ -94,15 +94,14 @@ async def _run_import(request: Request, who: dict, up: dict, form, *, apply: boo
     """Preview (rolled back) or apply the uploaded file with the page's fork decisions."""
     web: Web = request.app.state.web
     decisions = _decisions(form, None) if form is not None else {}
-    settings = dict(date_order=up.get("order"), review=str(Path(up["path"]).with_suffix(
-        ".review.xlsx")))
 
     def go(s):
-        from inventory.history.service import fork_codes, import_deciding
+        from inventory.history.service import ImportSettings, fork_codes, import_deciding
 
+        settings = ImportSettings(kind=up["kind"], date_order=up.get("order"),
+                                  review=Path(up["path"]).with_suffix(".review.xlsx"))
         try:
-            rep = import_deciding(s, up["path"], kind=up["kind"], apply=apply,
-                                  forks=decisions, **settings)
+            rep = import_deciding(s, up["path"], settings, apply=apply, forks=decisions)
             return rep.to_dict() | {"ok": rep.ok}, None, fork_codes(s)
         except InventoryError as exc:
             failed = getattr(exc, "report", None)
