@@ -82,6 +82,17 @@ def test_tool_refusal_is_one_line_and_exit_1(tmp_path):
     assert "Traceback" not in proc.stderr
 
 
+def test_after_the_demo_a_missing_default_database_points_at_demo_db(tmp_path):
+    """README: `inventory demo` builds demo.db, the default database is inventory.db; the
+    refusal says where the demo shop is instead of only suggesting `init`."""
+    (tmp_path / "demo.db").write_bytes(b"")  # only its presence matters to the hint
+    proc = run_script("stock", "on-hand", cwd=tmp_path)
+    assert proc.returncode == 1
+    lines = [ln for ln in proc.stderr.splitlines() if ln.strip()]
+    assert len(lines) == 1 and lines[0].startswith("error: no database file inventory.db")
+    assert "add `--db demo.db`" in lines[0]
+
+
 def test_db_goes_before_or_after_the_sub_command(tmp_path):
     db = tmp_path / "shop.db"
     assert run_script("--db", str(db), "init", cwd=tmp_path).returncode == 0

@@ -55,11 +55,12 @@ def _require_file(st: AppState) -> None:
 
     path = sqlite_path(st.url)
     if path not in (None, "", ":memory:") and not Path(path).exists():
-        raise InventoryError(
-            f"no database file {path}",
-            hint=f"run `inventory{' --db ' + st.db if st.db else ''} init` to create it, "
-                 "or `inventory demo` to build the demo shop",
-        )
+        hint = (f"run `inventory{' --db ' + st.db if st.db else ''} init` to create it, "
+                "or `inventory demo` to build the demo shop")
+        if not st.db and Path("demo.db").exists():  # `inventory demo` ran here, then no --db
+            hint = ("the demo shop is in demo.db here: add `--db demo.db` (or set "
+                    "INVENTORY_DB=demo.db); " + hint)
+        raise InventoryError(f"no database file {path}", hint=hint)
 
 
 def _demo_hint(st: AppState) -> str:
