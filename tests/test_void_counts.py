@@ -322,6 +322,10 @@ def test_job_pages_say_voided(store):
     assert "voided 2026-11-04" in row["J-1"] and "voided" not in row["J-2"]
     detail = c.get("/jobs/J-1").text
     assert "<dt>Voided</dt><dd>2026-11-04: wrong fork</dd>" in detail
+    # a voided job offers no forms that would only be refused; a live one offers all three
+    assert 'action="/jobs/J-1/' not in detail and "takes no more parts" in detail
+    live = c.get("/jobs/J-2").text
+    assert all(f'action="/jobs/J-2/{what}"' in live for what in ("add", "return", "void"))
     assert [j["voided"] for j in c.get("/api/jobs").json()] == [False, True]  # newest first
 
 
