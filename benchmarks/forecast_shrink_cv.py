@@ -1,0 +1,178 @@
+"""Cross-validation of an empirical-Bayes (gamma-Poisson) shrinkage of the demand rate of
+slow movers toward their SBC class's pooled rate (issue 14 item 0): does it hold less stock
+at 95.0 % achieved fill than the fitted forecast as it is?
+
+    python benchmarks/forecast_shrink_cv.py [--csv FILE] [--splits 5] [--seed 7]
+
+Data: ../shared/data/carparts_dev.csv (override with --csv or INVENTORY_CARPARTS_CSV);
+skipped with a message when absent. Same outer origins and halves as
+``forecast_choice_cv.py`` (6 scored months ending at 35 / 37 / 39 / 41 / 43, so none of the
+months ``forecast_calibration.py`` scores is used). For each half the forecast and its
+negative binomial are fitted once on the training months; each variant then replaces the
+per-period mean m of the series that have sold (never-sold series keep the cold-start rate)
+and recomputes their variance-to-mean ratio from the fitted variance law, a (k m)^(b-1):
+
+- "post T": the gamma-Poisson posterior mean (alpha + S) / (beta + T) of the units S sold in
+  the last T training months, the gamma prior (alpha, beta) fitted per SBC class by the
+  method of moments on the series' rates S / T (between-series variance = variance of the
+  rates minus the Poisson part, mean / T; e.g. Klugman, Panjer and Willmot, "Loss Models",
+  Buhlmann credibility with a Poisson-gamma mix), the forecast itself discarded;
+- "cred T": the Buhlmann credibility mix Z m + (1 - Z) alpha / beta of the forecast m and the
+  class's prior mean, Z = T / (T + beta);
+- suffix " IL": only for the intermittent and lumpy classes (the slow movers), the others
+  keep the forecast.
+
+The pooled uniform policy is swept over asked fill rates and its stock read at 95.0 %
+ACHIEVED fill, divided by SES with z tuned in hindsight on the same half. A variant is kept
+only if it holds less stock than the defaults on most (origin, half) units.
+"""
+
+from __future__ import annotations
+
+import os
+
+for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
+
+import argparse  # noqa: E402
+import sys  # noqa: E402
+import time  # noqa: E402
+import warnings  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+import numpy as np  # noqa: E402
+
+ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+import forecast_calibration as fcal  # noqa: E402
+
+from inventory.forecast import methods as fc  # noqa: E402
+from inventory.forecast.distributions import DemandDistribution, negative_binomial  # noqa: E402
+from inventory.forecast.fit_records import FitOptions  # noqa: E402
+from inventory.ordering import backtest as bt  # noqa: E402
+from inventory.ordering.simulate import policy_levels_batch  # noqa: E402
+
+DEFAULT_CSV = ROOT.parent / "shared" / "data" / "carparts_dev.csv"
+H = 6
+ENDS = (35, 37, 39, 41, 43)
+SWEEP = (*fcal.SWEEP, 0.995, 0.998)
+SLOW = ("intermittent", "lumpy")
+VARIANTS: dict[str, tuple[str, int, bool]] = {  # name: (rule, T, slow movers only)
+    "post 12 IL": ("post", 12, True),
+    "post 24 IL": ("post", 24, True),
+    "cred 12 IL": ("cred", 12, True),
+    "cred 24 IL": ("cred", 24, True),
+    "cred 24": ("cred", 24, False),
+}
+
+
+def gamma_prior(s: np.ndarray, t: int) -> tuple[float, float]:
+    """Method-of-moments gamma prior (alpha, beta) of Poisson rates from counts ``s`` over
+    ``t`` periods; beta = inf (full shrinkage) when the rates vary no more than Poisson."""
+    x = s / t
+    mean = float(x.mean())
+    between = float(x.var(ddof=1)) - mean / t if x.size > 1 else 0.0
+    if mean <= 0 or between <= 0:
+        return mean, float("inf")
+    beta = mean / between
+    return mean * beta, beta
+
+
+def shrunk(train: np.ndarray, dist: DemandDistribution, labels: np.ndarray,
+           law: tuple[float, float], spec: tuple[str, int, bool], cover: int
+           ) -> DemandDistribution:
+    rule, t, slow_only = spec
+    t = min(t, train.shape[1])
+    s = np.nansum(train[:, -t:], axis=1)
+    sold = np.nansum(train, axis=1) > 0
+    m = dist.mean.copy()
+    vmr = np.asarray(dist.vmr, dtype=float).copy()
+    a, b = law
+    for c in np.unique(labels):
+        sel = sold & (labels == c)
+        if (slow_only and c not in SLOW) or sel.sum() < 10:
+            continue
+        alpha, beta = gamma_prior(s[sel], t)
+        prior = alpha / beta if np.isfinite(beta) else float(s[sel].mean() / t)
+        if rule == "post":
+            new = (alpha + s[sel]) / (beta + t) if np.isfinite(beta) else np.full(sel.sum(),
+                                                                                prior)
+        else:
+            z = t / (t + beta) if np.isfinite(beta) else 0.0
+            new = z * m[sel] + (1 - z) * prior
+        m[sel] = new
+        vmr[sel] = a * np.power(np.maximum(cover * new, 1e-12), b - 1.0)
+    return negative_binomial(m, vmr)
+
+
+def stocks(sub: np.ndarray, pos: np.ndarray, names: list[str]) -> dict[str, float]:
+    train, test = sub[:, :-H], sub[:, -H:]
+    res = fc.fit_forecast(train, season_pos=pos[:-H], options=FitOptions(horizon=H))
+    fit = fc.fit_distribution(train, res, cover=fcal.COVER, hold=H)
+    labels = np.asarray(res.classification.label).astype(str)
+    law = (fit.a["pooled"], fit.b["pooled"])
+    out = {}
+    for name in names:
+        dist = fit.dist if name == "defaults" else shrunk(train, fit.dist, labels, law,
+                                                          VARIANTS[name], fcal.COVER)
+        lvs = policy_levels_batch(dist, SWEEP, allocation="uniform", lead_time=fcal.LEAD,
+                                  review_period=fcal.REVIEW)
+        r = [fcal.simulate(lv, test) for lv in lvs]
+        out[name] = fcal.stock_at_fill([x[0] for x in r], [x[1] for x in r], 0.95)
+    return out
+
+
+def main(argv: list[str] | None = None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--csv", default=os.environ.get("INVENTORY_CARPARTS_CSV", str(DEFAULT_CSV)))
+    ap.add_argument("--splits", type=int, default=5)
+    ap.add_argument("--seed", type=int, default=7)
+    ap.add_argument("--ends", type=int, nargs="+", default=list(ENDS))
+    args = ap.parse_args(argv)
+    if any(e > 43 for e in args.ends):
+        ap.error("choose on origins whose scored months end before month 43 (--ends <= 43)")
+    path = Path(args.csv)
+    if not path.exists():
+        print(f"skipped: {path} not found (set --csv or INVENTORY_CARPARTS_CSV)")
+        return 0
+    warnings.filterwarnings("ignore")
+    table = bt.read_wide_csv(path)
+    y, pos = table.values, table.season_pos()
+    assert pos is not None
+    n = y.shape[0]
+    rng = np.random.default_rng(args.seed)
+    halves = []
+    for _ in range(args.splits):
+        perm = rng.permutation(n)
+        halves += [np.sort(perm[: n // 2]), np.sort(perm[n // 2:])]
+    names = ["defaults", *VARIANTS]
+    t0 = time.perf_counter()
+    print(f"load average {os.getloadavg()[0]:.1f}; {len(args.ends)} origins x {len(halves)} "
+          "halves")
+    units: list[dict[str, float]] = []
+    for e in args.ends:
+        for idx in halves:
+            sub = y[idx, :e]
+            mu = fcal.ses_mean(sub[:, :-H])
+            z = fcal.smallest_z(mu, sub[:, -H:], 0.95)
+            ses = fcal.simulate(fcal.sqrt_levels(mu, z), sub[:, -H:])[1]
+            units.append({k: v / ses for k, v in stocks(sub, pos[:e], names).items()})
+        print(f"  end {e} done, {time.perf_counter() - t0:.0f} s", flush=True)
+    print(f"\nload average {os.getloadavg()[0]:.1f}, {time.perf_counter() - t0:.0f} s\n")
+    print("| variant | less stock than defaults | median change | median ratio to SES "
+          "(hindsight) | worst |")
+    print("|---|---|---|---|---|")
+    base = np.asarray([u["defaults"] for u in units])
+    for k in names:
+        a = np.asarray([u[k] for u in units])
+        ok = np.isfinite(a) & np.isfinite(base)
+        print(f"| {k} | {int(np.sum(a[ok] < base[ok] - 1e-12))} of {int(ok.sum())} | "
+              f"{100 * np.median(a[ok] / base[ok] - 1):+.1f} % | {np.nanmedian(a):.3f} | "
+              f"{np.nanmax(a):.3f} |")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
