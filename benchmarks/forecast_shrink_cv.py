@@ -20,7 +20,12 @@ and recomputes their variance-to-mean ratio from the fitted variance law, a (k m
 - "cred T": the Buhlmann credibility mix Z m + (1 - Z) alpha / beta of the forecast m and the
   class's prior mean, Z = T / (T + beta);
 - suffix " IL": only for the intermittent and lumpy classes (the slow movers), the others
-  keep the forecast.
+  keep the forecast;
+- "bins N": an empirical law in place of the parametric a M^b: the training backtest's
+  (forecast over the cover, demand that followed) pairs of series that had sold, pooled into
+  N bins of equal count by the forecast, give each bin its variance-to-mean ratio
+  var(d) / mean(d) at the cover horizon; "bins N mean" also scales the forecast of the
+  bin's series by mean(d) / mean(forecast) (the bias of the bin's forecasts).
 
 The pooled uniform policy is swept over asked fill rates and its stock read at 95.0 %
 ACHIEVED fill, divided by SES with z tuned in hindsight on the same half. A variant is kept
@@ -65,7 +70,52 @@ VARIANTS: dict[str, tuple[str, int, bool]] = {  # name: (rule, T, slow movers on
     "cred 12 IL": ("cred", 12, True),
     "cred 24 IL": ("cred", 24, True),
     "cred 24": ("cred", 24, False),
+    "bins 10 IL": ("bins", 10, True),
+    "bins 10": ("bins", 10, False),
+    "bins 20 IL": ("bins", 20, True),
+    "bins 10 mean IL": ("binsmean", 10, True),
+    "bins 10 mean": ("binsmean", 10, False),
 }
+
+
+def pairs(train: np.ndarray, res: fc.ForecastResult, cover: int) -> tuple[np.ndarray, ...]:
+    """(forecast over ``cover`` periods, demand that came) at every backtest origin and lag
+    0..H-1, series that had sold before the origin (as ``fit_distribution``)."""
+    v = np.nan_to_num(train)
+    has = v > 0
+    first = np.where(has.any(axis=1), np.argmax(has, axis=1), v.shape[1])
+    mus, ds = [], []
+    for j, o in enumerate(res.origins):
+        pc = np.cumsum(res.origin_paths[j], axis=1)
+        use = first < o
+        for lag in range(H):
+            if lag + cover > pc.shape[1] or o + lag + cover > v.shape[1]:
+                break
+            mus.append((pc[:, lag + cover - 1] - (pc[:, lag - 1] if lag else 0.0))[use])
+            ds.append(v[:, o + lag:o + lag + cover].sum(axis=1)[use])
+    return np.concatenate(mus), np.concatenate(ds)
+
+
+def binned(dist: DemandDistribution, labels: np.ndarray, sold: np.ndarray,
+           pr: tuple[np.ndarray, np.ndarray], spec: tuple[str, int, bool], cover: int
+           ) -> DemandDistribution:
+    rule, nbins, slow_only = spec
+    mu, d = pr
+    edges = np.unique(np.quantile(mu, np.linspace(0, 1, nbins + 1)))
+    m = dist.mean.copy()
+    vmr = np.asarray(dist.vmr, dtype=float).copy()
+    target = sold & (np.isin(labels, SLOW) if slow_only else True)
+    pb = np.clip(np.searchsorted(edges, mu, side="right") - 1, 0, edges.size - 2)
+    sb = np.clip(np.searchsorted(edges, cover * m, side="right") - 1, 0, edges.size - 2)
+    for i in range(edges.size - 1):
+        inb = pb == i
+        sel = target & (sb == i)
+        if inb.sum() < 30 or not sel.any() or d[inb].mean() <= 0:
+            continue
+        vmr[sel] = max(float(d[inb].var() / d[inb].mean()), 1.0)
+        if rule == "binsmean" and mu[inb].mean() > 0:
+            m[sel] *= float(d[inb].mean() / mu[inb].mean())
+    return negative_binomial(m, vmr)
 
 
 def gamma_prior(s: np.ndarray, t: int) -> tuple[float, float]:
@@ -113,10 +163,17 @@ def stocks(sub: np.ndarray, pos: np.ndarray, names: list[str]) -> dict[str, floa
     fit = fc.fit_distribution(train, res, cover=fcal.COVER, hold=H)
     labels = np.asarray(res.classification.label).astype(str)
     law = (fit.a["pooled"], fit.b["pooled"])
+    pr = pairs(train, res, fcal.COVER)
+    sold = np.nansum(train, axis=1) > 0
     out = {}
     for name in names:
-        dist = fit.dist if name == "defaults" else shrunk(train, fit.dist, labels, law,
-                                                          VARIANTS[name], fcal.COVER)
+        spec = VARIANTS.get(name)
+        if spec is None:
+            dist = fit.dist
+        elif spec[0].startswith("bins"):
+            dist = binned(fit.dist, labels, sold, pr, spec, fcal.COVER)
+        else:
+            dist = shrunk(train, fit.dist, labels, law, spec, fcal.COVER)
         lvs = policy_levels_batch(dist, SWEEP, allocation="uniform", lead_time=fcal.LEAD,
                                   review_period=fcal.REVIEW)
         r = [fcal.simulate(lv, test) for lv in lvs]
@@ -129,6 +186,7 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--csv", default=os.environ.get("INVENTORY_CARPARTS_CSV", str(DEFAULT_CSV)))
     ap.add_argument("--splits", type=int, default=5)
     ap.add_argument("--seed", type=int, default=7)
+    ap.add_argument("--variants", nargs="+", choices=list(VARIANTS))
     ap.add_argument("--ends", type=int, nargs="+", default=list(ENDS))
     args = ap.parse_args(argv)
     if any(e > 43 for e in args.ends):
@@ -147,7 +205,7 @@ def main(argv: list[str] | None = None) -> int:
     for _ in range(args.splits):
         perm = rng.permutation(n)
         halves += [np.sort(perm[: n // 2]), np.sort(perm[n // 2:])]
-    names = ["defaults", *VARIANTS]
+    names = ["defaults", *(args.variants or VARIANTS)]
     t0 = time.perf_counter()
     print(f"load average {os.getloadavg()[0]:.1f}; {len(args.ends)} origins x {len(halves)} "
           "halves")
