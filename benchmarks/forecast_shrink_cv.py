@@ -65,8 +65,11 @@ ENDS = (35, 37, 39, 41, 43)
 SWEEP = (*fcal.SWEEP, 0.995, 0.998)
 SLOW = ("intermittent", "lumpy")
 VARIANTS: dict[str, tuple[str, int, bool]] = {  # name: (rule, T, slow movers only)
+    "post 6 IL": ("post", 6, True),
+    "post 9 IL": ("post", 9, True),
     "post 12 IL": ("post", 12, True),
     "post 24 IL": ("post", 24, True),
+    "cred 6 IL": ("cred", 6, True),
     "cred 12 IL": ("cred", 12, True),
     "cred 24 IL": ("cred", 24, True),
     "cred 24": ("cred", 24, False),
