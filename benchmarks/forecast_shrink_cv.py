@@ -25,7 +25,8 @@ and recomputes their variance-to-mean ratio from the fitted variance law, a (k m
   (forecast over the cover, demand that followed) pairs of series that had sold, pooled into
   N bins of equal count by the forecast, give each bin its variance-to-mean ratio
   var(d) / mean(d) at the cover horizon; "bins N mean" also scales the forecast of the
-  bin's series by mean(d) / mean(forecast) (the bias of the bin's forecasts).
+  bin's series by mean(d) / mean(forecast) (the bias of the bin's forecasts); "bins N by
+  class": the bins formed within each SBC class (similar mean and intermittency).
 
 The pooled uniform policy is swept over asked fill rates and its stock read at 95.0 %
 ACHIEVED fill, divided by SES with z tuned in hindsight on the same half. A variant is kept
@@ -76,6 +77,8 @@ VARIANTS: dict[str, tuple[str, int, bool]] = {  # name: (rule, T, slow movers on
     "bins 10 IL": ("bins", 10, True),
     "bins 10": ("bins", 10, False),
     "bins 20 IL": ("bins", 20, True),
+    "bins 5 by class": ("binsclass", 5, False),
+    "bins 10 by class": ("binsclass", 10, False),
     "bins 10 mean IL": ("binsmean", 10, True),
     "bins 10 mean": ("binsmean", 10, False),
 }
@@ -87,7 +90,8 @@ def pairs(train: np.ndarray, res: fc.ForecastResult, cover: int) -> tuple[np.nda
     v = np.nan_to_num(train)
     has = v > 0
     first = np.where(has.any(axis=1), np.argmax(has, axis=1), v.shape[1])
-    mus, ds = [], []
+    mus, ds, cls = [], [], []
+    labels = np.asarray(res.classification.label).astype(str)
     for j, o in enumerate(res.origins):
         pc = np.cumsum(res.origin_paths[j], axis=1)
         use = first < o
@@ -96,14 +100,26 @@ def pairs(train: np.ndarray, res: fc.ForecastResult, cover: int) -> tuple[np.nda
                 break
             mus.append((pc[:, lag + cover - 1] - (pc[:, lag - 1] if lag else 0.0))[use])
             ds.append(v[:, o + lag:o + lag + cover].sum(axis=1)[use])
-    return np.concatenate(mus), np.concatenate(ds)
+            cls.append(labels[use])
+    return np.concatenate(mus), np.concatenate(ds), np.concatenate(cls)
 
 
 def binned(dist: DemandDistribution, labels: np.ndarray, sold: np.ndarray,
-           pr: tuple[np.ndarray, np.ndarray], spec: tuple[str, int, bool], cover: int
+           pr: tuple[np.ndarray, ...], spec: tuple[str, int, bool], cover: int
            ) -> DemandDistribution:
     rule, nbins, slow_only = spec
-    mu, d = pr
+    if rule == "binsclass":
+        dist0 = dist
+        for c in np.unique(labels):
+            pc = pr[2] == c
+            if pc.sum() < 300:
+                continue
+            part = binned(dist0, labels, sold & (labels == c), (pr[0][pc], pr[1][pc], pr[2][pc]),
+                          ("bins", nbins, slow_only), cover)
+            dist = negative_binomial(dist.mean, np.where(sold & (labels == c),
+                                                         np.asarray(part.vmr), dist.vmr))
+        return dist
+    mu, d = pr[0], pr[1]
     edges = np.unique(np.quantile(mu, np.linspace(0, 1, nbins + 1)))
     m = dist.mean.copy()
     vmr = np.asarray(dist.vmr, dtype=float).copy()
