@@ -34,13 +34,16 @@ import numpy as np  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+import forecast_calibration as fcal  # noqa: E402
 
 from inventory.ordering import backtest as bt  # noqa: E402
 from inventory.ordering.calibration import learn_fill_calibration  # noqa: E402
 
 DEFAULT_CSV = ROOT.parent / "shared" / "data" / "carparts_dev.csv"
 H = 6
-ENDS = (35, 37, 39, 41, 43)
+ENDS = fcal.EARLY_ENDS
 TARGETS = (0.90, 0.95, 0.98)
 WEIGHTS = (0.0, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1.0)
 
@@ -75,19 +78,11 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--inner", type=int, nargs="+", default=[1])
     ap.add_argument("--splits", type=int, default=5)
     args = ap.parse_args(argv)
-    path = Path(args.csv)
-    if not path.exists():
-        print(f"skipped: {path} not found (set --csv or INVENTORY_CARPARTS_CSV)")
+    data = fcal.read_series(args.csv)
+    if data is None:
         return 0
-    table = bt.read_wide_csv(path)
-    y, pos = table.values, table.season_pos()
-    assert pos is not None
-    n = y.shape[0]
-    rng = np.random.default_rng(7)
-    halves = []
-    for _ in range(args.splits):
-        perm = rng.permutation(n)
-        halves += [np.sort(perm[: n // 2]), np.sort(perm[n // 2:])]
+    y, pos = data
+    halves = fcal.random_halves(y.shape[0], args.splits, seed=7)
     t0 = time.perf_counter()
     base: np.ndarray | None = None
     for k in args.inner:

@@ -122,6 +122,65 @@ def stock_at_fill(fills: list[float], stocks: list[float], target: float) -> flo
     return float(np.interp(target, f + 1e-12 * np.arange(f.size), np.asarray(stocks)))
 
 
+def stock_of_sweep(results: list[tuple[float, float, float, float]], target: float) -> float:
+    """:func:`stock_at_fill` over a sweep of :func:`simulate` results."""
+    return stock_at_fill([r[0] for r in results], [r[1] for r in results], target)
+
+
+# -- shared by the cross-validation scripts (calibration_cv, forecast_*_cv) -----------------
+
+#: Data cuts whose scored months end before month 43: the months this benchmark scores
+#: (43-50) feed no choice made on these origins.
+EARLY_ENDS = (35, 37, 39, 41, 43)
+
+
+def read_series(csv: str | Path) -> tuple[np.ndarray, np.ndarray] | None:
+    """(demand, season position per month) of the wide csv, or None after saying why the
+    run is skipped."""
+    path = Path(csv)
+    if not path.exists():
+        print(f"skipped: {path} not found (set --csv or INVENTORY_CARPARTS_CSV)")
+        return None
+    table = bt.read_wide_csv(path)
+    pos = table.season_pos()
+    assert pos is not None
+    return table.values, pos
+
+
+def random_halves(n: int, splits: int, seed: int) -> list[np.ndarray]:
+    """``splits`` random splits of ``n`` series into two halves (sorted indices), seeded."""
+    rng = np.random.default_rng(seed)
+    halves = []
+    for _ in range(splits):
+        perm = rng.permutation(n)
+        halves += [np.sort(perm[: n // 2]), np.sort(perm[n // 2:])]
+    return halves
+
+
+def hindsight_ses(sub: np.ndarray, target: float = 0.95) -> tuple[float, float]:
+    """(average on hand, z) of SES with z tuned in HINDSIGHT to ``target`` achieved fill on
+    the last ``H`` months of ``sub`` (the reference of the per-half comparisons)."""
+    train, test = sub[:, :-H], sub[:, -H:]
+    mu = ses_mean(train)
+    z = smallest_z(mu, test, target)
+    return simulate(sqrt_levels(mu, z), test)[1], z
+
+
+def print_against(units: list[dict[str, float]], names: list[str], base: str) -> None:
+    """One table row per variant: units with less stock than ``base``, the median change,
+    the median and worst ratio to SES tuned in hindsight."""
+    print(f"| variant | less stock than {base} | median change | median ratio to SES "
+          "(hindsight) | worst |")
+    print("|---|---|---|---|---|")
+    ref = np.asarray([u[base] for u in units])
+    for k in names:
+        a = np.asarray([u[k] for u in units])
+        ok = np.isfinite(a) & np.isfinite(ref)
+        print(f"| {k} | {int(np.sum(a[ok] < ref[ok] - 1e-12))} of {int(ok.sum())} | "
+              f"{100 * np.median(a[ok] / ref[ok] - 1):+.1f} % | {np.nanmedian(a):.3f} | "
+              f"{np.nanmax(a):.3f} |")
+
+
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--csv", default=os.environ.get("INVENTORY_CARPARTS_CSV", str(DEFAULT_CSV)))
@@ -138,7 +197,7 @@ def main(argv: list[str] | None = None) -> int:
         print("skipped: statsforecast is not installed (pip install -e '.[test]')")
         return 0
     warnings.filterwarnings("ignore")
-    table = bt.read_wide_csv(path)
+    table = bt.read_wide_csv(path)  # the rolling backtests name the series
     y, pos = table.values, table.season_pos()
     n, t_len = y.shape
     ends = [t_len - 2, t_len - 1, t_len]
@@ -188,30 +247,24 @@ def main(argv: list[str] | None = None) -> int:
                    f"(ratio {r95.avg_on_hand / base[0.95]:.2f})"))
 
     # -- 3. cross-validation over halves of the series ---------------------------------------
-    rng = np.random.default_rng(2026)
     ratios: list[float] = []
     cal95: list[float] = []
     print("| split | half | series | ours at 95.0 % achieved | SES, z tuned in HINDSIGHT to "
           "95.0 % | ratio | calibrated 95 % -> achieved |")
     print("|---|---|---|---|---|---|---|")
-    for k in range(args.splits):
-        perm = rng.permutation(n)
-        for half, idx in (("1", np.sort(perm[: n // 2])), ("2", np.sort(perm[n // 2:]))):
-            sub = y[idx]
-            sweep = bt.run_backtests(sub, fill_rates=SWEEP, season_pos=pos,
-                                     setup=replace(setup, calibrate=False))
-            ours_oh = stock_at_fill([r.fill_rate for r in sweep],
-                                    [r.avg_on_hand for r in sweep], 0.95)
-            train, test = sub[:, :-H], sub[:, -H:]
-            mu = ses_mean(train)
-            z = smallest_z(mu, test, 0.95)
-            ses_oh = simulate(sqrt_levels(mu, z), test)[1]
-            ratio = ours_oh / ses_oh
-            ratios.append(ratio)
-            cal = bt.run_backtests(sub, fill_rates=(0.95,), setup=setup, season_pos=pos)[0]
-            cal95.append(cal.fill_rate)
-            print(f"| {k + 1} | {half} | {idx.size} | {ours_oh:.2f} | {ses_oh:.2f} (z = {z:.2f}) "
-                  f"| {ratio:.3f} | {100 * cal.fill_rate:.2f} % |")
+    for i, idx in enumerate(random_halves(n, args.splits, seed=2026)):
+        sub = y[idx]
+        sweep = bt.run_backtests(sub, fill_rates=SWEEP, season_pos=pos,
+                                 setup=replace(setup, calibrate=False))
+        ours_oh = stock_at_fill([r.fill_rate for r in sweep],
+                                [r.avg_on_hand for r in sweep], 0.95)
+        ses_oh, z = hindsight_ses(sub, 0.95)
+        ratio = ours_oh / ses_oh
+        ratios.append(ratio)
+        cal = bt.run_backtests(sub, fill_rates=(0.95,), setup=setup, season_pos=pos)[0]
+        cal95.append(cal.fill_rate)
+        print(f"| {i // 2 + 1} | {i % 2 + 1} | {idx.size} | {ours_oh:.2f} | {ses_oh:.2f} "
+              f"(z = {z:.2f}) | {ratio:.3f} | {100 * cal.fill_rate:.2f} % |")
     arr = np.asarray(ratios)
     print(f"\nratio over {arr.size} halves: median {np.nanmedian(arr):.3f}, worst "
           f"{np.nanmax(arr):.3f}, best {np.nanmin(arr):.3f}; calibrated 95 % achieved: "

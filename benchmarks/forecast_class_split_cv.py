@@ -62,7 +62,7 @@ from inventory.ordering.simulate import policy_levels_batch  # noqa: E402
 
 DEFAULT_CSV = ROOT.parent / "shared" / "data" / "carparts_dev.csv"
 H = 6
-ENDS = (35, 37, 39, 41, 43)
+ENDS = fcal.EARLY_ENDS
 GRID = (0.3, 0.5, 0.6, 0.7, 0.8, 0.85, 0.88, 0.9, 0.92, 0.94, 0.95, 0.96, 0.97, 0.98,
         0.99, 0.995)
 SWEEP = fcal.SWEEP
@@ -137,7 +137,7 @@ def one_unit(sub: np.ndarray, pos: np.ndarray, setup: bt.BacktestSetup) -> dict[
     uni = policy_levels_batch(dist, SWEEP_TOP, allocation="uniform", lead_time=fcal.LEAD,
                               review_period=fcal.REVIEW)
     res = [fcal.simulate(lv, test) for lv in uni]
-    out["uniform"] = fcal.stock_at_fill([r[0] for r in res], [r[1] for r in res], 0.95)
+    out["uniform"] = fcal.stock_of_sweep(res, 0.95)
     curves = class_curves(train, p, setup)
     for name, tie in (("split3", False), ("split2", True)):
         res = []
@@ -147,13 +147,13 @@ def one_unit(sub: np.ndarray, pos: np.ndarray, setup: bt.BacktestSetup) -> dict[
             lv = policy.order_up_to_levels(dist, t, lead_time=fcal.LEAD,
                                            review_period=fcal.REVIEW)
             res.append(fcal.simulate(lv, test))
-        out[name] = fcal.stock_at_fill([r[0] for r in res], [r[1] for r in res], 0.95)
+        out[name] = fcal.stock_of_sweep(res, 0.95)
     for name, only_c in (("nearest", False), ("nearest C", True)):
         res = []
         for t in PART_SWEEP:
             lv = nearest_levels(dist, t, (cls == "C") if only_c else np.ones(len(dist), bool))
             res.append(fcal.simulate(lv, test))
-        out[name] = fcal.stock_at_fill([r[0] for r in res], [r[1] for r in res], 0.95)
+        out[name] = fcal.stock_of_sweep(res, 0.95)
     cover_mean = dist.mean * (fcal.LEAD + fcal.REVIEW)
     for m0 in DROP:
         keep = np.flatnonzero(cover_mean >= m0)
@@ -164,10 +164,8 @@ def one_unit(sub: np.ndarray, pos: np.ndarray, setup: bt.BacktestSetup) -> dict[
             lv = np.zeros(len(dist), dtype=np.int64)
             lv[keep] = lk
             res.append(fcal.simulate(lv, test))
-        out[f"drop{m0}"] = fcal.stock_at_fill([r[0] for r in res], [r[1] for r in res], 0.95)
-    mu = fcal.ses_mean(train)
-    z = fcal.smallest_z(mu, test, 0.95)
-    out["ses"] = fcal.simulate(fcal.sqrt_levels(mu, z), test)[1]
+        out[f"drop{m0}"] = fcal.stock_of_sweep(res, 0.95)
+    out["ses"] = fcal.hindsight_ses(sub, 0.95)[0]
     return out
 
 
@@ -177,20 +175,12 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--splits", type=int, default=5)
     ap.add_argument("--seed", type=int, default=7)
     args = ap.parse_args(argv)
-    path = Path(args.csv)
-    if not path.exists():
-        print(f"skipped: {path} not found (set --csv or INVENTORY_CARPARTS_CSV)")
+    data = fcal.read_series(args.csv)
+    if data is None:
         return 0
     warnings.filterwarnings("ignore")
-    table = bt.read_wide_csv(path)
-    y, pos = table.values, table.season_pos()
-    assert pos is not None
-    n = y.shape[0]
-    rng = np.random.default_rng(args.seed)
-    halves = []
-    for _ in range(args.splits):
-        perm = rng.permutation(n)
-        halves += [np.sort(perm[: n // 2]), np.sort(perm[n // 2:])]
+    y, pos = data
+    halves = fcal.random_halves(y.shape[0], args.splits, args.seed)
     setup = bt.BacktestSetup(horizon=H, allocation="uniform", calibrate=False)
     t0 = time.perf_counter()
     print(f"load average {os.getloadavg()[0]:.1f}")

@@ -57,12 +57,11 @@ import forecast_calibration as fcal  # noqa: E402
 from inventory.forecast import methods as fc  # noqa: E402
 from inventory.forecast.distributions import DemandDistribution, negative_binomial  # noqa: E402
 from inventory.forecast.fit_records import FitOptions  # noqa: E402
-from inventory.ordering import backtest as bt  # noqa: E402
 from inventory.ordering.simulate import policy_levels_batch  # noqa: E402
 
 DEFAULT_CSV = ROOT.parent / "shared" / "data" / "carparts_dev.csv"
 H = 6
-ENDS = (35, 37, 39, 41, 43)
+ENDS = fcal.EARLY_ENDS
 SWEEP = (*fcal.SWEEP, 0.995, 0.998)
 SLOW = ("intermittent", "lumpy")
 VARIANTS: dict[str, tuple[str, int, bool]] = {  # name: (rule, T, slow movers only)
@@ -210,20 +209,12 @@ def main(argv: list[str] | None = None) -> int:
     args = ap.parse_args(argv)
     if any(e > 43 for e in args.ends):
         ap.error("choose on origins whose scored months end before month 43 (--ends <= 43)")
-    path = Path(args.csv)
-    if not path.exists():
-        print(f"skipped: {path} not found (set --csv or INVENTORY_CARPARTS_CSV)")
+    data = fcal.read_series(args.csv)
+    if data is None:
         return 0
     warnings.filterwarnings("ignore")
-    table = bt.read_wide_csv(path)
-    y, pos = table.values, table.season_pos()
-    assert pos is not None
-    n = y.shape[0]
-    rng = np.random.default_rng(args.seed)
-    halves = []
-    for _ in range(args.splits):
-        perm = rng.permutation(n)
-        halves += [np.sort(perm[: n // 2]), np.sort(perm[n // 2:])]
+    y, pos = data
+    halves = fcal.random_halves(y.shape[0], args.splits, args.seed)
     names = ["defaults", *(args.variants or VARIANTS)]
     t0 = time.perf_counter()
     print(f"load average {os.getloadavg()[0]:.1f}; {len(args.ends)} origins x {len(halves)} "
@@ -232,22 +223,11 @@ def main(argv: list[str] | None = None) -> int:
     for e in args.ends:
         for idx in halves:
             sub = y[idx, :e]
-            mu = fcal.ses_mean(sub[:, :-H])
-            z = fcal.smallest_z(mu, sub[:, -H:], 0.95)
-            ses = fcal.simulate(fcal.sqrt_levels(mu, z), sub[:, -H:])[1]
+            ses = fcal.hindsight_ses(sub, 0.95)[0]
             units.append({k: v / ses for k, v in stocks(sub, pos[:e], names).items()})
         print(f"  end {e} done, {time.perf_counter() - t0:.0f} s", flush=True)
     print(f"\nload average {os.getloadavg()[0]:.1f}, {time.perf_counter() - t0:.0f} s\n")
-    print("| variant | less stock than defaults | median change | median ratio to SES "
-          "(hindsight) | worst |")
-    print("|---|---|---|---|---|")
-    base = np.asarray([u["defaults"] for u in units])
-    for k in names:
-        a = np.asarray([u[k] for u in units])
-        ok = np.isfinite(a) & np.isfinite(base)
-        print(f"| {k} | {int(np.sum(a[ok] < base[ok] - 1e-12))} of {int(ok.sum())} | "
-              f"{100 * np.median(a[ok] / base[ok] - 1):+.1f} % | {np.nanmedian(a):.3f} | "
-              f"{np.nanmax(a):.3f} |")
+    fcal.print_against(units, names, "defaults")
     return 0
 
 
