@@ -4,7 +4,6 @@
 from __future__ import annotations
 
 from datetime import date
-from pathlib import Path
 
 from starlette.exceptions import HTTPException
 from starlette.requests import Request
@@ -14,7 +13,7 @@ from inventory.core import parse
 from inventory.core.errors import InventoryError
 from inventory.web import auth
 from inventory.web.forms import FormError, message_of, text_field
-from inventory.web.responses import page, workbook_download
+from inventory.web.responses import page, workbook_download, written_bytes
 from inventory.web.state import Web
 
 
@@ -81,15 +80,13 @@ async def month_xlsx(request: Request) -> Response:
     label = request.path_params["month"]
 
     def go(s):
-        import tempfile
-
         from inventory.monthend.service import write_month_end
 
         month = month_of(s, label)
-        with tempfile.TemporaryDirectory() as tmp:
-            path = Path(tmp) / f"stock-{month.label}.xlsx"
-            write_month_end(s, month, today=date.today(), xlsx=path)
-            return month.label, path.read_bytes()
+        _, data = written_bytes(
+            lambda path: write_month_end(s, month, today=date.today(), xlsx=path),
+            f"stock-{month.label}.xlsx")
+        return month.label, data
     try:
         name, data = await web.read(go, who)
     except FormError as exc:
@@ -103,10 +100,6 @@ async def month_close(request: Request) -> Response:
     form = await request.form()
     auth.check_csrf(request, form)
     from inventory.monthend import service as monthend
-
-    if not hasattr(monthend, "close_month"):
-        return await month_page(request, {"close": "closing a month is not available in this "
-                                          "version"}, 400)
 
     def go(s):
         month = month_of(s, text_field(form, "month"))

@@ -21,7 +21,7 @@ from inventory.web.forms import (
     money_field,
     text_field,
 )
-from inventory.web.responses import page, workbook_download
+from inventory.web.responses import page, workbook_download, written_bytes
 from inventory.web.state import Web
 
 
@@ -125,14 +125,10 @@ async def plan_order_xlsx(request: Request) -> Response:
     ref = request.path_params["ref"]
 
     def go(s):
-        import tempfile
-
         from inventory.ordering.service import write_order_file
 
-        with tempfile.TemporaryDirectory() as tmp:
-            path = Path(tmp) / "order.xlsx"
-            detail = write_order_file(s, ref, path)
-            return detail["ref"], path.read_bytes()
+        detail, data = written_bytes(lambda path: write_order_file(s, ref, path), "order.xlsx")
+        return detail["ref"], data
     try:
         name, data = await web.read(go, who)
     except InventoryError as exc:

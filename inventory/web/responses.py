@@ -5,16 +5,19 @@ role sees), JSON and workbook downloads.
 from __future__ import annotations
 
 import json
+from collections.abc import Callable
 from datetime import date, datetime
 from decimal import Decimal
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
 from starlette.requests import Request
 from starlette.responses import HTMLResponse, Response
 from starlette.templating import Jinja2Templates
 
 from inventory.web import auth
+
+T = TypeVar("T")
 
 HERE = Path(__file__).parent
 templates = Jinja2Templates(directory=str(HERE / "templates"))
@@ -64,6 +67,17 @@ def _json_default(o: Any) -> Any:
 def json_response(data: Any, status: int = 200) -> Response:
     return Response(json.dumps(data, default=_json_default, ensure_ascii=False), status,
                     media_type="application/json")
+
+
+def written_bytes(write: Callable[[Path], T], name: str) -> tuple[T, bytes]:
+    """What ``write(path)`` returns and the bytes it put in a file called ``name``, inside a
+    temporary folder removed afterwards (the writers take a path; a download needs bytes)."""
+    import tempfile
+
+    with tempfile.TemporaryDirectory(prefix="inventory-download-") as tmp:
+        path = Path(tmp) / name
+        result = write(path)
+        return result, path.read_bytes()
 
 
 def workbook_download(data: bytes, filename: str) -> Response:
