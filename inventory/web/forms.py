@@ -10,8 +10,9 @@ from decimal import Decimal
 
 from inventory.core import parse
 from inventory.core.errors import InventoryError
+from inventory.core.model import ServiceLevel
 
-SERVICE_LEVELS = ("lower_leg", "air_spring", "damper")
+SERVICE_LEVELS = tuple(level.value for level in ServiceLevel)
 STALE_FORM = "this form was stale or altered, so nothing was saved: reload the page"
 
 
@@ -110,3 +111,14 @@ def day_field(raw: str | None, name: str, *, booking: bool = False) -> date | No
 def blank(v):
     v = None if v is None else str(v).strip()
     return v or None
+
+
+def fork_and_level(form, *, fork_hint: str = "pick the fork family") -> tuple[str, str]:
+    """The fork family and service level a job form names, each checked at its field."""
+    fork = text_field(form, "fork")
+    if not fork:
+        raise FormError("fork", fork_hint)
+    level = text_field(form, "service") or ""
+    if level not in SERVICE_LEVELS:
+        raise FormError("service", f"pick a service level ({', '.join(SERVICE_LEVELS)})")
+    return fork, level

@@ -15,6 +15,7 @@ from inventory.web.forms import (
     FormError,
     blank,
     field_of,
+    fork_and_level,
     int_field,
     message_of,
     text_field,
@@ -136,12 +137,7 @@ async def bench_use(request: Request) -> Response:
         from inventory.history.service import JobEntry, add_job
 
         qty = int_field(form, "qty", minimum=1)
-        fork = text_field(form, "fork")
-        if not fork:
-            raise FormError("fork", "pick the fork family the part goes in")
-        level = text_field(form, "service") or ""
-        if level not in SERVICE_LEVELS:
-            raise FormError("service", f"pick a service level ({', '.join(SERVICE_LEVELS)})")
+        fork, level = fork_and_level(form, fork_hint="pick the fork family the part goes in")
         today = date.today()
         row, _ = add_job(s, JobEntry(fork, today, level, ((part, qty),),
                                      ref=text_field(form, "job")))

@@ -16,6 +16,7 @@ from inventory.web.forms import (
     FormError,
     day_field,
     field_of,
+    fork_and_level,
     int_field,
     message_of,
     text_field,
@@ -63,12 +64,7 @@ async def jobs_add(request: Request) -> Response:
     def go(s):
         from inventory.history.service import JobEntry, add_job
 
-        fork = text_field(form, "fork")
-        if not fork:
-            raise FormError("fork", "pick the fork family")
-        level = text_field(form, "service") or ""
-        if level not in SERVICE_LEVELS:
-            raise FormError("service", f"pick a service level ({', '.join(SERVICE_LEVELS)})")
+        fork, level = fork_and_level(form)
         day = day_field(text_field(form, "date"), "date", booking=True) or date.today()
         if day > date.today():
             raise FormError("date", f"{day.isoformat()} is in the future")
