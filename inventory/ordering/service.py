@@ -164,12 +164,12 @@ def reorder_source(template: PlanSpec | None = None):
 def receive_order(session: Session, ref: str, part: str, qty: int, *,
                   unit_cost: Decimal | None = None, cured: str | None = None,
                   location: str = "MAIN") -> str:
-    """Book a delivery against open purchase order ``ref``; returns its one-line summary."""
-    from inventory.ordering.orders import receive_against_order
+    """Book a delivery against open purchase order ``ref`` (the web form's fields; see
+    :func:`receive_against`); returns its one-line summary."""
     from inventory.stock.bookings import Receipt
 
-    return receive_against_order(session, ref, Receipt(part, qty, unit_cost, cured=cured,
-                                                       location=location)).summary
+    return receive_against(session, ref, Receipt(part, qty, unit_cost, cured=cured,
+                                                 location=location)).summary
 
 
 def receive_against(session: Session, ref: str, receipt: Any, tolerance: float | None = None):
