@@ -413,12 +413,17 @@ def test_uploads_are_removed_once_replaced_applied_or_old(web, tmp_path, monkeyp
     assert list(uploads.iterdir()) == []  # applied: nothing left on disk
 
 
+def use_two_on_a_new_job(client) -> str:
+    """Book 2 x OR-214 to a new job from the bench ("use on job"); the job's reference."""
+    page = client.get("/bench?id=24.99&cs=3.53")
+    r = client.post("/bench/use", data={"csrf": csrf(page), "part": "OR-214", "qty": "2",
+                                        "fork": "XC-32", "service": "lower_leg"})
+    return re.search(r"booked=([^%&]+)", r.headers["location"]).group(1)
+
+
 def test_job_return_and_void_book_new_movements(web):
     sam = web("sam")
-    page = sam.get("/bench?id=24.99&cs=3.53")
-    r = sam.post("/bench/use", data={"csrf": csrf(page), "part": "OR-214", "qty": "2",
-                                     "fork": "XC-32", "service": "lower_leg"})
-    ref = re.search(r"booked=([^%&]+)", r.headers["location"]).group(1)
+    ref = use_two_on_a_new_job(sam)
     job = sam.get(f"/jobs/{ref}")
     tok = csrf(job)
     n = movements(web.store)
@@ -439,10 +444,7 @@ def test_job_return_and_void_book_new_movements(web):
 
 def test_job_page_adds_a_part_to_an_existing_job(web):
     sam = web("sam")
-    page = sam.get("/bench?id=24.99&cs=3.53")
-    r = sam.post("/bench/use", data={"csrf": csrf(page), "part": "OR-214", "qty": "2",
-                                     "fork": "XC-32", "service": "lower_leg"})
-    ref = re.search(r"booked=([^%&]+)", r.headers["location"]).group(1)
+    ref = use_two_on_a_new_job(sam)
     job = sam.get(f"/jobs/{ref}")
     assert f'action="/jobs/{ref}/add"' in job.text
     tok = csrf(job)
