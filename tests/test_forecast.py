@@ -432,6 +432,61 @@ def test_capped_variance_law_is_the_likelihood_maximum_at_the_cap() -> None:
     assert fc.fit_variance_law(d, mu)[1] == pytest.approx(1.4, abs=0.05)  # uncapped
 
 
+def test_own_spread_is_each_series_ratio_of_errors_to_the_law() -> None:
+    """Each part's own share of the spread (LawOptions.own_weight, chosen by
+    cross-validation in benchmarks/forecast_shape_cv.py). Reference 1: pandas' groupby sums
+    of squared errors and of the law's variances, the ratio clipped and raised to the
+    weight. Reference 2: counts drawn from scipy.stats.nbinom, half the series with three
+    times the law's variance: the recovered ratios (weight 1) differ by about 3."""
+    import pandas as pd
+    from scipy import stats
+
+    from inventory.forecast.uncertainty import own_spread
+
+    rng = np.random.default_rng(11)
+    n, per = 40, 400
+    who = np.repeat(np.arange(n), per).astype(np.int32)
+    mu = rng.gamma(2.0, 1.0, size=who.size) + 0.1
+    a_s, b_s = np.full(n, 2.0), np.full(n, 1.1)
+    law = np.maximum(a_s[who] * mu**b_s[who], mu)
+    boost = np.where(np.arange(n) < n // 2, 1.0, 3.0)
+    var = law * boost[who]
+    p = mu / var
+    d = stats.nbinom.rvs(mu * p / (1 - p), p, random_state=rng).astype(float)
+
+    frame = pd.DataFrame({"who": who, "err": (d - mu) ** 2, "law": law})
+    sums = frame.groupby("who")[["err", "law"]].sum()
+    expected = np.clip(sums["err"] / sums["law"], 0.05, 20.0).to_numpy() ** 0.3
+    got = own_spread(d, mu, who, (a_s, b_s), 0.3)
+    np.testing.assert_allclose(got, expected, rtol=1e-12)
+
+    full = own_spread(d, mu, who, (a_s, b_s), 1.0)
+    ratio = np.median(full[n // 2:]) / np.median(full[: n // 2])
+    assert ratio == pytest.approx(3.0, rel=0.25)
+    # a series without pairs keeps the law
+    assert own_spread(d, mu, who, (np.full(n + 1, 2.0), np.full(n + 1, 1.1)), 0.3)[n] == 1.0
+
+
+def test_own_weight_zero_is_the_law_alone() -> None:
+    """With own_weight 0 every sold part's ratio is the law's a (k m)^(b - 1) at its
+    forecast; with the default each part's ratio moves off it, more for the parts whose
+    errors ran larger than the law said (the definition above)."""
+    from inventory.forecast.uncertainty import LawOptions
+
+    y = _intermittent(5, n=120, t=48)
+    res = fc.fit_forecast(y)
+    law_only = fc.fit_distribution(y, res, cover=2, hold=1, law=LawOptions(own_weight=0.0))
+    a, b = law_only.a["pooled"], law_only.b["pooled"]
+    m = res.mean(2).mean(axis=1)
+    sold = (y > 0).any(axis=1)
+    np.testing.assert_allclose(law_only.dist.vmr[sold],
+                               np.maximum(a * np.power(2 * m[sold], b - 1.0), 1.0), rtol=1e-9)
+    own = fc.fit_distribution(y, res, cover=2, hold=1)
+    assert LawOptions().own_weight > 0
+    np.testing.assert_allclose(own.dist.mean, law_only.dist.mean)
+    assert not np.allclose(own.dist.vmr[sold], law_only.dist.vmr[sold])
+
+
 def test_fit_distribution_cold_start_and_mean() -> None:
     y = _intermittent(21, n=150, t=40)
     y[:3] = 0.0  # never sold
