@@ -45,10 +45,7 @@ import os
 for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_var, "1")
 
-import argparse  # noqa: E402
 import sys  # noqa: E402
-import time  # noqa: E402
-import warnings  # noqa: E402
 from dataclasses import dataclass  # noqa: E402
 from pathlib import Path  # noqa: E402
 
@@ -69,7 +66,6 @@ from inventory.ordering.simulate import policy_levels_batch  # noqa: E402
 
 DEFAULT_CSV = ROOT.parent / "shared" / "data" / "carparts_dev.csv"
 H = 6
-ENDS = fcal.EARLY_ENDS
 SWEEP = (*fcal.SWEEP, 0.995, 0.998)
 IDLE_BINS = np.array([0, 1, 2, 3, 6, 12, 24])
 VARIANTS: dict[str, tuple[str, float, float]] = {  # name: (rule, parameter, parameter)
@@ -291,40 +287,12 @@ def stocks(sub: np.ndarray, pos: np.ndarray, names: list[str]) -> dict[str, floa
 
 
 def main(argv: list[str] | None = None) -> int:
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--csv", default=os.environ.get("INVENTORY_CARPARTS_CSV", str(DEFAULT_CSV)))
-    ap.add_argument("--splits", type=int, default=5)
-    ap.add_argument("--seed", type=int, default=7)
-    ap.add_argument("--variants", nargs="+", choices=list(VARIANTS))
-    ap.add_argument("--ends", type=int, nargs="+", default=list(ENDS))
-    args = ap.parse_args(argv)
-    if any(e > 43 for e in args.ends):
-        ap.error("choose on origins whose scored months end before month 43 (--ends <= 43)")
-    data = fcal.read_series(args.csv)
-    if data is None:
-        return 0
     try:
         import statsforecast  # noqa: F401
     except ImportError:
         print("skipped: statsforecast is not installed (pip install -e '.[test]')")
         return 0
-    warnings.filterwarnings("ignore")
-    y, pos = data
-    halves = fcal.random_halves(y.shape[0], args.splits, args.seed)
-    names = ["defaults", *(args.variants or VARIANTS)]
-    t0 = time.perf_counter()
-    print(f"load average {os.getloadavg()[0]:.1f}; {len(args.ends)} origins x {len(halves)} "
-          "halves")
-    units: list[dict[str, float]] = []
-    for e in args.ends:
-        for idx in halves:
-            sub = y[idx, :e]
-            ses = fcal.hindsight_ses(sub, 0.95)[0]
-            units.append({k: v / ses for k, v in stocks(sub, pos[:e], names).items()})
-        print(f"  end {e} done, {time.perf_counter() - t0:.0f} s", flush=True)
-    print(f"\nload average {os.getloadavg()[0]:.1f}, {time.perf_counter() - t0:.0f} s\n")
-    fcal.print_against(units, names, "defaults")
-    return 0
+    return fcal.variant_cv(__doc__.splitlines()[0], list(VARIANTS), stocks, argv, DEFAULT_CSV)
 
 
 if __name__ == "__main__":
