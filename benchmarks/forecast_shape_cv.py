@@ -32,6 +32,8 @@ variant replaces the distribution the policy reads:
 - "by idle run w": the forecast scaled by the ratio of demand to forecast in the training
   backtest for parts with the same number of months since their last sale (0, 1, 2, 3-5,
   6-11, 12-23, 24+), clipped to [1/3, 3], to the power w.
+- "marginal allocation": the defaults' distribution with the "marginal" allocation (least
+  expected stock for the pooled target) instead of "uniform"; "sizes 2, marginal": both.
 
 The pooled uniform policy is swept over asked fill rates and its stock read at 95.0 %
 ACHIEVED fill, divided by SES with z tuned in hindsight on the same half. A variant is kept
@@ -82,6 +84,8 @@ VARIANTS: dict[str, tuple[str, float, float]] = {  # name: (rule, parameter, par
     "with SES 0.5": ("ses", 0.5, 0.0),
     "by idle run 0.5": ("idle", 0.5, 0.0),
     "by idle run 1": ("idle", 1.0, 0.0),
+    "marginal allocation": ("marginal", 0.0, 0.0),
+    "sizes 2, marginal": ("sizes marginal", 2.0, 0.0),
 }
 
 
@@ -260,8 +264,10 @@ def variant(name: str, train: np.ndarray, res: fc.ForecastResult, fit: fc.Distri
     if rule == "spread":
         return fc.fit_distribution(train, res, cover=fcal.COVER, hold=H,
                                    law=LawOptions(own_weight=p1)).dist
-    if rule == "sizes":
+    if rule.startswith("sizes"):
         return compound(train, dist, p1)
+    if rule == "marginal":
+        return dist
     if rule == "resample":
         return resampled(train, dist, p1, int(p2))
     if rule == "ses":
@@ -279,7 +285,9 @@ def stocks(sub: np.ndarray, pos: np.ndarray, names: list[str]) -> dict[str, floa
     out = {}
     for name in names:
         dist = fit.dist if name == "defaults" else variant(name, train, res, fit)
-        lvs = policy_levels_batch(dist, SWEEP, allocation="uniform",  # type: ignore[arg-type]
+        marginal = name != "defaults" and VARIANTS[name][0].endswith("marginal")
+        lvs = policy_levels_batch(dist, SWEEP,  # type: ignore[arg-type]
+                                  allocation="marginal" if marginal else "uniform",
                                   lead_time=fcal.LEAD, review_period=fcal.REVIEW)
         r = [fcal.simulate(lv, test) for lv in lvs]
         out[name] = fcal.stock_at_fill([x[0] for x in r], [x[1] for x in r], 0.95)
