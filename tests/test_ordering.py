@@ -353,6 +353,26 @@ def test_packs_and_minimum_order_quantity():
     assert "rounded to 50 (2 x 25, minimum 50)" in ln.reason
 
 
+def test_a_part_counted_in_ml_carries_its_unit_through_the_plan():
+    """Grease is bought and used in ml: the line keeps the part's unit and its reasons say
+    ml after the demand, the stock, the order and the packs (the same figures as the test
+    above, whose part is counted in pieces)."""
+    from dataclasses import replace
+
+    from inventory.ordering.text import line_sentence, short_reason
+
+    req = one_part(monthly=daily_rate_means(0.2), dist=dd.poisson([1.0]), pack=25, moq=50,
+                   cost="0.20", code="GREASE", kind="grease")
+    req = replace(req, stock={"GREASE": replace(req.stock["GREASE"], unit="ml")})
+    ln = only_line(plan_orders(req, PlanOptions(pooling="part")))
+    assert ln.unit == "ml" and ln.qty == 50
+    assert "order 50 ml (2 x 25 ml)" in ln.reason and "on hand 0 ml" in ln.reason
+    assert short_reason(ln).startswith("level ") and " ml for " in short_reason(ln)
+    assert ln.to_dict()["unit"] == "ml"
+    pieces = replace(ln, unit="each")
+    assert " ml" not in line_sentence(pieces) and " ml" not in short_reason(pieces)
+
+
 def test_shelf_life_cap_and_a_minimum_that_forces_more():
     # NBR: ISO 2230 group B, 7 years from the end of the cure quarter (REFERENCE.md 5).
     # A part selling 1 a year, bought in packs of 25 (min 25): a new lot cured ~6 months

@@ -90,7 +90,8 @@ def test_plan_json_contract(shop, monkeypatch, capsys):
         assert order["supplier"] == "SUP-A" and order["order_by"] == TODAY
         total = Decimal(0)
         for ln in order["lines"]:
-            assert set(ln) >= {"part", "qty", "packs", "unit_cost", "reason"}
+            assert set(ln) >= {"part", "qty", "unit", "packs", "unit_cost", "reason"}
+            assert ln["unit"] == "each"  # the tiny catalog's parts are counted in pieces
             assert ln["qty"] == ln["packs"] * ln["pack_size"] > 0
             assert ln["part"] in ln["reason"] and "raw need" in ln["reason"]
             total += Decimal(ln["unit_cost"]) * ln["qty"]

@@ -92,10 +92,11 @@ def plan(ctx: typer.Context,
 
 
 def _render(result) -> None:
-    from inventory.ordering.service import short_reason
+    from inventory.ordering.service import short_reason, unit_suffix
 
     for o in result.orders:
-        rows = [[ln.part, ln.qty, f"{ln.packs} x {ln.pack_size}", f"{ln.unit_cost}",
+        rows = [[ln.part, f"{ln.qty}{unit_suffix(ln.unit)}",
+                 f"{ln.packs} x {ln.pack_size}{unit_suffix(ln.unit)}", f"{ln.unit_cost}",
                  f"{ln.value:,.2f}", short_reason(ln)] for ln in o.lines]
         print_table(f"{o.supplier}: order by {o.order_by}, delivery about {o.arrival}",
                     ["part", "qty", "packs", "unit cost", "value", "why"], rows,

@@ -70,6 +70,7 @@ class PartStock:
     on_hand: int = 0
     expired: int = 0
     on_order: int = 0
+    unit: str = "each"  # the part's unit of measure (grease and oil: ml)
 
 
 @dataclass(frozen=True)
@@ -220,6 +221,7 @@ class PlanLine:
     peak_days: float | None = None
     min_order_value: Decimal = Decimal("0")
     currency: str = "EUR"
+    unit: str = "each"  # the part's unit: every quantity of the line is in it
 
     def to_dict(self) -> dict[str, Any]:
         d = asdict(self)

@@ -196,7 +196,7 @@ def _stock(session: Session, as_of: date) -> dict[str, PartStock]:
     due = on_order(session, as_of)
     return {
         p.code: PartStock(p.code, p.kind, p.description, p.material, held[pid][0], held[pid][1],
-                          due.get(p.code, 0))
+                          due.get(p.code, 0), p.unit or "each")
         for pid, p in parts.items()
     }
 

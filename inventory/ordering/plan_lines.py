@@ -106,7 +106,8 @@ def _line(st: PlanState, col: dict[str, list], q: OrderQuantities, j: int) -> Pl
         arrival=col["arrival"][j], order_by=col["order_by"][j],
         build_ahead=col["ahead"][j], supplier_choice=choice,
         peak_days=col["peak"][j] if opt.season_start is not None else None,
-        min_order_value=s.min_order_value, currency=s.currency)
+        min_order_value=s.min_order_value, currency=s.currency,
+        unit=stock.unit if stock else "each")
     line = replace(line, policy_text=policy_phrase(line, pooled=st.pooled and not use_sq,
                                                    service=opt.service,
                                                    cover_end=col["cover_end"][j]))

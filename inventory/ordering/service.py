@@ -92,7 +92,7 @@ def make_plan(session: Session, spec: PlanSpec) -> Plan:
 
 def plan_to_dict(plan: Plan) -> dict[str, Any]:
     """The ``plan --json`` contract: ``orders`` (supplier, order_by, total, lines with part,
-    qty, packs, unit_cost, reason), ``service`` (target, expected_fill) and ``budget`` (limit,
+    qty and its unit, packs, unit_cost, reason), ``service`` (target, expected_fill) and ``budget`` (limit,
     spent); plus the plan date, season start, every line's structured reasoning, what could
     not be covered and the kit decisions."""
     return {
@@ -110,7 +110,7 @@ def plan_to_dict(plan: Plan) -> dict[str, Any]:
                 "min_order_value": str(o.min_order_value),
                 "note": o.note,
                 "lines": [
-                    {"part": ln.part, "qty": ln.qty, "packs": ln.packs,
+                    {"part": ln.part, "qty": ln.qty, "unit": ln.unit, "packs": ln.packs,
                      "pack_size": ln.pack_size, "unit_cost": str(ln.unit_cost),
                      "value": str(ln.value), "supplier_code": ln.supplier_code,
                      "reason": ln.reason, "caps": list(ln.caps)}
@@ -188,6 +188,13 @@ def short_reason(line: Any) -> str:
     from inventory.ordering.text import short_reason as reason
 
     return reason(line)
+
+
+def unit_suffix(unit: str) -> str:
+    """" ml" after a quantity counted in millilitres; nothing for whole parts."""
+    from inventory.ordering.text import unit_suffix as suffix
+
+    return suffix(unit)
 
 
 def write_plan_workbook(plan: Plan, path: Any) -> Path:

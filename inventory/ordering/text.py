@@ -43,6 +43,11 @@ def policy_phrase(line: PlanLine, *, pooled: bool, service: str, cover_end: date
     return f"order-up-to level {_n(level)} for {target}; {quant}"
 
 
+def unit_suffix(unit: str) -> str:
+    """" ml" after a quantity of a part counted in millilitres; nothing for whole parts."""
+    return "" if not unit or unit == "each" else f" {unit}"
+
+
 def line_sentence(line: PlanLine) -> str:
     """One sentence naming every step from forecast to order quantity, from the line's own
     figures."""
@@ -66,9 +71,10 @@ def line_sentence(line: PlanLine) -> str:
     lead = f"lead {_d(lead_days)}" + (f" ± {_d(lead_sd_days)}" if lead_sd_days else "")
     if peak_days is not None and peak_days > lead_days:
         lead += f", {_d(peak_days)} in season"
-    head = (f"{part} from {supplier} ({choice}): expected demand {_n(forecast_cover)} over the "
+    u = unit_suffix(line.unit)
+    head = (f"{part} from {supplier} ({choice}): expected demand {_n(forecast_cover)}{u} over the "
             f"{cover_days:.0f}-day cover ({lead}, review {_d(review_days)}); {policy_text}; ")
-    stock = f"on hand {on_hand}"
+    stock = f"on hand {on_hand}{u}"
     if expired:
         stock += f" (+{expired} past their storage period, not counted)"
     stock += f", on order {on_order}: raw need {raw_need}"
@@ -105,7 +111,7 @@ def line_sentence(line: PlanLine) -> str:
             parts.append(f"late: stock runs out about {need_date.isoformat()}, the earliest "
                          f"delivery is {arrival.isoformat()}")
         if qty > 0:
-            parts.append(f"order {qty} ({packs} x {pack}) at {unit_cost} = {value:.2f} "
+            parts.append(f"order {qty}{u} ({packs} x {pack}{u}) at {unit_cost} = {value:.2f} "
                          f"{currency}, expected fill {_pct(fill)}")
         else:
             parts.append("nothing ordered")
@@ -115,7 +121,8 @@ def line_sentence(line: PlanLine) -> str:
 def short_reason(line: PlanLine) -> str:
     """The console's few words on a plan line: what the level asks for, what the shelf and
     the kits change, and what the caps, the supplier minimum and the budget did."""
-    parts = [f"level {_n(line.level)} for {_pct(line.fill_target)}, "
+    u = unit_suffix(line.unit)
+    parts = [f"level {_n(line.level)}{u} for {_pct(line.fill_target)}, "
              f"have {line.position}" + (f" (-{line.to_kits} into kits)" if line.to_kits else "")]
     if line.raw_need > 0:
         parts.append(f"short {line.raw_need}")

@@ -173,7 +173,7 @@ REASON_HEADER = [
     "Level", "EOQ", "On hand", "Past shelf life", "On order", "Position", "Raw need",
     "For kits", "Kits assembled", "Spare to kits", "Rounded", "Minimum", "Shelf-life cap",
     "Use by", "Caps", "Topped up",
-    "Budget cut", "Qty", "Unit cost", "Value", "Expected fill", "Fill before caps",
+    "Budget cut", "Qty", "Unit", "Unit cost", "Value", "Expected fill", "Fill before caps",
     "Need date", "Order by", "Build-ahead", "Supplier choice", "Reason",
 ]
 
@@ -188,7 +188,7 @@ def _reason_rows(plan: Plan) -> list[list[Any]]:
             ln.on_hand, ln.expired, ln.on_order, ln.position, ln.raw_need, ln.for_kits,
             ln.assembled, ln.to_kits, ln.rounded, ln.minimum, ln.shelf_cap, ln.shelf_limit,
             ", ".join(ln.caps),
-            ln.topped_up, ln.budget_cut, ln.qty, ln.unit_cost, ln.value, ln.expected_fill,
+            ln.topped_up, ln.budget_cut, ln.qty, ln.unit, ln.unit_cost, ln.value, ln.expected_fill,
             ln.fill_before_caps, ln.need_date, ln.order_by, round(ln.build_ahead, 1),
             ln.supplier_choice, ln.reason,
         ])
