@@ -33,7 +33,9 @@ variant replaces the distribution the policy reads:
   backtest for parts with the same number of months since their last sale (0, 1, 2, 3-5,
   6-11, 12-23, 24+), clipped to [1/3, 3], to the power w.
 - "marginal allocation": the defaults' distribution with the "marginal" allocation (least
-  expected stock for the pooled target) instead of "uniform"; "sizes 2, marginal": both.
+  expected stock for the pooled target) instead of "uniform"; "sizes 2, marginal": both;
+- "sqrt-shaped levels": not the distribution but smoothing's level rule on our forecast m,
+  ceil(c m + z sqrt(c m)), z swept over 0-12 (the shape of the baseline with our mean).
 
 The pooled uniform policy is swept over asked fill rates and its stock read at 95.0 %
 ACHIEVED fill, divided by SES with z tuned in hindsight on the same half. A variant is kept
@@ -86,7 +88,9 @@ VARIANTS: dict[str, tuple[str, float, float]] = {  # name: (rule, parameter, par
     "by idle run 1": ("idle", 1.0, 0.0),
     "marginal allocation": ("marginal", 0.0, 0.0),
     "sizes 2, marginal": ("sizes marginal", 2.0, 0.0),
+    "sqrt-shaped levels": ("sqrt", 0.0, 0.0),
 }
+SQRT_Z = np.linspace(0.0, 12.0, 49)
 
 
 @dataclass(frozen=True)
@@ -266,7 +270,7 @@ def variant(name: str, train: np.ndarray, res: fc.ForecastResult, fit: fc.Distri
                                    law=LawOptions(own_weight=p1)).dist
     if rule.startswith("sizes"):
         return compound(train, dist, p1)
-    if rule == "marginal":
+    if rule in ("marginal", "sqrt"):
         return dist
     if rule == "resample":
         return resampled(train, dist, p1, int(p2))
@@ -285,6 +289,10 @@ def stocks(sub: np.ndarray, pos: np.ndarray, names: list[str]) -> dict[str, floa
     out = {}
     for name in names:
         dist = fit.dist if name == "defaults" else variant(name, train, res, fit)
+        if name != "defaults" and VARIANTS[name][0] == "sqrt":
+            r = [fcal.simulate(fcal.sqrt_levels(dist.mean, z), test) for z in SQRT_Z]
+            out[name] = fcal.stock_at_fill([x[0] for x in r], [x[1] for x in r], 0.95)
+            continue
         marginal = name != "defaults" and VARIANTS[name][0].endswith("marginal")
         lvs = policy_levels_batch(dist, SWEEP,  # type: ignore[arg-type]
                                   allocation="marginal" if marginal else "uniform",
