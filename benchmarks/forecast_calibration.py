@@ -297,6 +297,12 @@ def main(argv: list[str] | None = None) -> int:
 
     # -- 3. cross-validation over halves of the series ---------------------------------------
     ratios: list[float] = []
+    sells = (np.nan_to_num(y) > 0).mean(axis=0)
+    print(f"share of series with a sale per month: months 1-{sells.size - H - 1} "
+          f"{sells[:-H - 1].min():.2f}-{sells[:-H - 1].max():.2f} (mean "
+          f"{sells[:-H - 1].mean():.2f}); month {sells.size - H} {sells[-H - 1]:.2f}; the "
+          f"scored months {sells.size - H + 1}-{sells.size} "
+          f"{', '.join(f'{v:.2f}' for v in sells[-H:])}\n")
     cal95: list[float] = []
     print("| split | half | series | ours at 95.0 % achieved | SES, z tuned in HINDSIGHT to "
           "95.0 % | ratio | calibrated 95 % -> achieved | diagnostic: smoothing's level rule "
