@@ -264,7 +264,7 @@ def own_spread(d: FloatArray, mu: FloatArray, who: NDArray[np.int32],
     (demand ``d``, forecast ``mu``) pairs, clipped to [0.05, 20], to the power ``weight``;
     1 for a series without pairs. ``who``: each pair's series, ``law``: (a, b) per series.
 
-    Lumpiness is partly a property of the part (sold in sets, to a few fleet buyers), so a
+    Lumpiness is partly a property of the part (sold in sets, or to a few big customers), so a
     part that has spread more than the law says tends to go on doing so; one pooled law
     cannot know which. The weight shrinks the part's own ratio toward the law (in log
     terms), since a few dozen overlapping pairs measure it roughly. Chosen by
