@@ -45,6 +45,7 @@ ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
 from inventory.ordering import backtest as bt  # noqa: E402
+from inventory.ordering.simulate import policy_levels_batch  # noqa: E402
 
 DEFAULT_CSV = ROOT.parent / "shared" / "data" / "carparts_dev.csv"
 LEAD, REVIEW, H = 1, 1, 6
@@ -128,14 +129,20 @@ def stock_of_sweep(results: list[tuple[float, float, float, float]], target: flo
     return stock_at_fill([r[0] for r in results], [r[1] for r in results], target)
 
 
-def sqrt_rule_stock(sub: np.ndarray, pos: np.ndarray, setup: bt.BacktestSetup) -> float:
-    """DIAGNOSTIC: stock at 95.0 % achieved fill of smoothing's level rule ceil(c m + z
-    sqrt(c m)) applied to OUR forecast m (fitted on all but the last ``H`` months of
-    ``sub``), z swept over 0-12: the baseline's shape with our mean."""
+def half_stocks(sub: np.ndarray, pos: np.ndarray, setup: bt.BacktestSetup
+                ) -> tuple[float, float]:
+    """Stock at 95.0 % ACHIEVED fill on the last ``H`` months of ``sub``, from one fit on the
+    months before them: (ours, the policy swept over the asked rates ``SWEEP`` without
+    calibration; DIAGNOSTIC: smoothing's level rule ceil(c m + z sqrt(c m)) applied to OUR
+    forecast m, z swept over 0-12, the baseline's shape with our mean)."""
     train, test = sub[:, :-H], sub[:, -H:]
-    m = bt._fit(train, pos[:-H], setup).dist.dist.mean
-    return stock_of_sweep([simulate(sqrt_levels(m, z), test)
-                           for z in np.linspace(0.0, 12.0, 49)], 0.95)
+    dist = bt._fit(train, pos[:-H], setup).dist.dist
+    levels = policy_levels_batch(dist, SWEEP, allocation=setup.allocation, lead_time=LEAD,
+                                 review_period=REVIEW)
+    ours = stock_of_sweep([simulate(lv, test) for lv in levels], 0.95)
+    shape = stock_of_sweep([simulate(sqrt_levels(dist.mean, z), test)
+                            for z in np.linspace(0.0, 12.0, 49)], 0.95)
+    return ours, shape
 
 
 # -- shared by the cross-validation scripts (calibration_cv, forecast_*_cv) -----------------
@@ -311,16 +318,13 @@ def main(argv: list[str] | None = None) -> int:
     shape_ratios: list[float] = []
     for i, idx in enumerate(random_halves(n, args.splits, seed=2026)):
         sub = y[idx]
-        sweep = bt.run_backtests(sub, fill_rates=SWEEP, season_pos=pos,
-                                 setup=replace(setup, calibrate=False))
-        ours_oh = stock_at_fill([r.fill_rate for r in sweep],
-                                [r.avg_on_hand for r in sweep], 0.95)
+        ours_oh, shape_oh = half_stocks(sub, pos, setup)
         ses_oh, z = hindsight_ses(sub, 0.95)
         ratio = ours_oh / ses_oh
         ratios.append(ratio)
         cal = bt.run_backtests(sub, fill_rates=(0.95,), setup=setup, season_pos=pos)[0]
         cal95.append(cal.fill_rate)
-        shape = sqrt_rule_stock(sub, pos, setup) / ses_oh
+        shape = shape_oh / ses_oh
         shape_ratios.append(shape)
         print(f"| {i // 2 + 1} | {i % 2 + 1} | {idx.size} | {ours_oh:.2f} | {ses_oh:.2f} "
               f"(z = {z:.2f}) | {ratio:.3f} | {100 * cal.fill_rate:.2f} % | {shape:.3f} |")

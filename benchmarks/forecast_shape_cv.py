@@ -54,7 +54,6 @@ from dataclasses import dataclass  # noqa: E402
 from pathlib import Path  # noqa: E402
 
 import numpy as np  # noqa: E402
-from scipy import stats  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
@@ -148,16 +147,13 @@ class TableDistribution:
 
 
 def nb_tables(dist: DemandDistribution, top: int) -> dict[int, np.ndarray]:
-    assert dist.vmr is not None
-    x = np.arange(top + 1)
+    """The fitted distribution's probabilities of 0..top units over 1 and 2 periods (from
+    its own ``cdf``, so the same negative binomial, Poisson fallback and zero-mean case)."""
     out = {}
     for k in (1, 2):
-        vmr = np.maximum(dist.vmr, 1.0 + 1e-9)
-        n = np.maximum(dist.mean * k / (vmr - 1.0), 1e-12)
-        p = stats.nbinom.pmf(x[None, :], n[:, None], 1.0 / vmr[:, None])
-        p[dist.mean <= 0] = 0.0
-        p[dist.mean <= 0, 0] = 1.0
-        out[k] = p
+        over = dist.over(k)
+        cdf = np.stack([over.cdf(np.full(len(dist), float(x))) for x in range(top + 1)], axis=1)
+        out[k] = np.diff(cdf, axis=1, prepend=0.0)
     return out
 
 
@@ -288,17 +284,16 @@ def stocks(sub: np.ndarray, pos: np.ndarray, names: list[str]) -> dict[str, floa
     fit = fc.fit_distribution(train, res, cover=fcal.COVER, hold=H)
     out = {}
     for name in names:
-        dist = fit.dist if name == "defaults" else variant(name, train, res, fit)
-        if name != "defaults" and VARIANTS[name][0] == "sqrt":
-            r = [fcal.simulate(fcal.sqrt_levels(dist.mean, z), test) for z in SQRT_Z]
-            out[name] = fcal.stock_at_fill([x[0] for x in r], [x[1] for x in r], 0.95)
-            continue
-        marginal = name != "defaults" and VARIANTS[name][0].endswith("marginal")
-        lvs = policy_levels_batch(dist, SWEEP,  # type: ignore[arg-type]
-                                  allocation="marginal" if marginal else "uniform",
-                                  lead_time=fcal.LEAD, review_period=fcal.REVIEW)
-        r = [fcal.simulate(lv, test) for lv in lvs]
-        out[name] = fcal.stock_at_fill([x[0] for x in r], [x[1] for x in r], 0.95)
+        rule = VARIANTS[name][0] if name in VARIANTS else "defaults"
+        dist = fit.dist if rule == "defaults" else variant(name, train, res, fit)
+        if rule == "sqrt":
+            levels = [fcal.sqrt_levels(dist.mean, z) for z in SQRT_Z]
+        else:
+            levels = policy_levels_batch(dist, SWEEP,  # type: ignore[arg-type]
+                                         allocation=("marginal" if rule.endswith("marginal")
+                                                     else "uniform"),
+                                         lead_time=fcal.LEAD, review_period=fcal.REVIEW)
+        out[name] = fcal.stock_of_sweep([fcal.simulate(lv, test) for lv in levels], 0.95)
     return out
 
 

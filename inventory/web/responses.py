@@ -15,6 +15,7 @@ from starlette.requests import Request
 from starlette.responses import HTMLResponse, Response
 from starlette.templating import Jinja2Templates
 
+from inventory.ordering.service import unit_suffix
 from inventory.web import auth
 
 T = TypeVar("T")
@@ -47,6 +48,7 @@ def _num(v, unit: str = "") -> str:
 
 templates.env.filters["size"] = _size
 templates.env.filters["num"] = _num
+templates.env.filters["unit_suffix"] = unit_suffix  # " ml" after quantities in ml
 
 
 NAV = [("bench", "/bench", "Bench", "bench"), ("stock", "/stock", "Stock", "stock_view"),
